@@ -1,0 +1,258 @@
+"""Exponential polynomials: the functions every closed-form response here is made of.
+
+A linear constant-coefficient model driven by steps, ramps, impulses, exponentials and
+sinusoids responds with finite sums of
+
+    u^k · e^(σ·u) · cos(ω·u)    and    u^k · e^(σ·u) · sin(ω·u)
+
+in a local time ``u`` (the time since a breakpoint). Keeping responses in this form makes
+the three operations the engine needs exact and cheap: re-expanding about a later
+breakpoint (the shift), differentiating, and taking the Laplace transform.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from math import comb
+from typing import Callable, Iterator, Mapping
+
+import mpmath
+import sympy
+
+COS = "cos"
+SIN = "sin"
+
+
+@dataclass(frozen=True, order=False)
+class Mode:
+    """One basis function u^power · e^(rate·u) · cos|sin(frequency·u); frequency ≥ 0.
+
+    A mode with frequency 0 is always of kind ``cos`` (the pure u^k e^(σu) term).
+    """
+
+    power: int
+    rate: sympy.Expr
+    frequency: sympy.Expr
+    kind: str = COS
+
+    def __post_init__(self) -> None:
+        if self.power < 0:
+            raise ValueError("a mode's power of u is a non-negative integer")
+        if self.kind not in (COS, SIN):
+            raise ValueError(f"unknown mode kind {self.kind!r}")
+        if self.frequency == 0 and self.kind == SIN:
+            raise ValueError("sin(0·u) is not a mode")
+
+    def expression(self, u: sympy.Expr) -> sympy.Expr:
+        """The mode as a sympy expression in the local time ``u``."""
+        value = u**self.power * sympy.exp(self.rate * u)
+        if self.frequency != 0:
+            trig = sympy.cos if self.kind == COS else sympy.sin
+            value = value * trig(self.frequency * u)
+        return value
+
+    def sort_key(self) -> tuple:
+        return (sympy.default_sort_key(self.rate), sympy.default_sort_key(self.frequency),
+                self.kind, self.power)
+
+
+@dataclass(frozen=True)
+class ExponentialPolynomial:
+    """A finite sum Σ coefficient · mode(u), immutable; zero coefficients are dropped."""
+
+    terms: Mapping[Mode, sympy.Expr] = field(default_factory=dict)
+
+    @staticmethod
+    def from_terms(pairs: Iterator[tuple[Mode, sympy.Expr]] | list[tuple[Mode, sympy.Expr]],
+                   ) -> "ExponentialPolynomial":
+        collected: dict[Mode, sympy.Expr] = {}
+        for mode, coefficient in pairs:
+            collected[mode] = collected.get(mode, sympy.S.Zero) + coefficient
+        return ExponentialPolynomial({m: c for m, c in collected.items() if c != 0})
+
+    @staticmethod
+    def single(mode: Mode, coefficient: sympy.Expr = sympy.S.One) -> "ExponentialPolynomial":
+        return ExponentialPolynomial.from_terms([(mode, sympy.sympify(coefficient))])
+
+    @staticmethod
+    def polynomial(coefficients: Mapping[int, sympy.Expr]) -> "ExponentialPolynomial":
+        """Σ c_k u^k."""
+        zero = sympy.S.Zero
+        return ExponentialPolynomial.from_terms(
+            [(Mode(k, zero, zero), c) for k, c in coefficients.items()])
+
+    def is_zero(self) -> bool:
+        return not self.terms
+
+    def __add__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+        return ExponentialPolynomial.from_terms(list(self.terms.items()) + list(other.terms.items()))
+
+    def __neg__(self) -> "ExponentialPolynomial":
+        return self.scaled(sympy.S.NegativeOne)
+
+    def __sub__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+        return self + (-other)
+
+    def scaled(self, factor: sympy.Expr) -> "ExponentialPolynomial":
+        return ExponentialPolynomial.from_terms([(m, c * factor) for m, c in self.terms.items()])
+
+    def map_coefficients(self, function: Callable[[sympy.Expr], sympy.Expr],
+                         ) -> "ExponentialPolynomial":
+        return ExponentialPolynomial.from_terms([(m, function(c)) for m, c in self.terms.items()])
+
+    def modes(self) -> list[Mode]:
+        return sorted(self.terms, key=Mode.sort_key)
+
+    def shifted(self, delay: sympy.Expr) -> "ExponentialPolynomial":
+        """g(v + delay) written again as an exponential polynomial in v.
+
+        This is how a response is carried from one breakpoint to the next: with
+        u = v + d, u^k = Σ C(k, j) d^(k−j) v^j, e^(σu) = e^(σd) e^(σv) and
+        cos/sin(ω(v + d)) by the angle-sum identities.
+        """
+        if delay == 0:
+            return self
+        pairs: list[tuple[Mode, sympy.Expr]] = []
+        for mode, coefficient in self.terms.items():
+            growth = sympy.exp(mode.rate * delay)
+            if mode.frequency == 0:
+                trig_parts = [(COS, sympy.S.One)]
+            else:
+                cos_d = sympy.cos(mode.frequency * delay)
+                sin_d = sympy.sin(mode.frequency * delay)
+                if mode.kind == COS:   # cos(a+b) = cos a cos b − sin a sin b
+                    trig_parts = [(COS, cos_d), (SIN, -sin_d)]
+                else:                  # sin(a+b) = sin a cos b + cos a sin b
+                    trig_parts = [(SIN, cos_d), (COS, sin_d)]
+            for j in range(mode.power + 1):
+                binomial = comb(mode.power, j) * delay**(mode.power - j)
+                for kind, trig_factor in trig_parts:
+                    pairs.append((Mode(j, mode.rate, mode.frequency, kind),
+                                  coefficient * growth * binomial * trig_factor))
+        return ExponentialPolynomial.from_terms(pairs)
+
+    def __mul__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+        """The product, closed in the basis by the product-to-sum identities."""
+        pairs: list[tuple[Mode, sympy.Expr]] = []
+        for m1, c1 in self.terms.items():
+            for m2, c2 in other.terms.items():
+                power, rate = m1.power + m2.power, m1.rate + m2.rate
+                for kind, frequency, weight in _trig_product(m1, m2):
+                    if frequency == 0 and kind == SIN:
+                        continue
+                    if frequency.is_negative:
+                        frequency = -frequency
+                        if kind == SIN:
+                            weight = -weight
+                    pairs.append((Mode(power, rate, frequency, kind), c1 * c2 * weight))
+        return ExponentialPolynomial.from_terms(pairs)
+
+    def derivative(self) -> "ExponentialPolynomial":
+        """d/du of the sum, term by term (product rule)."""
+        pairs: list[tuple[Mode, sympy.Expr]] = []
+        for mode, c in self.terms.items():
+            if mode.power > 0:
+                pairs.append((Mode(mode.power - 1, mode.rate, mode.frequency, mode.kind),
+                              c * mode.power))
+            if mode.rate != 0:
+                pairs.append((mode, c * mode.rate))
+            if mode.frequency != 0:
+                other = SIN if mode.kind == COS else COS
+                sign = -1 if mode.kind == COS else 1
+                pairs.append((Mode(mode.power, mode.rate, mode.frequency, other),
+                              sign * c * mode.frequency))
+        return ExponentialPolynomial.from_terms(pairs)
+
+    def expression(self, u: sympy.Expr) -> sympy.Expr:
+        """The sum as one sympy expression in ``u`` (modes in a fixed order)."""
+        return sympy.Add(*[self.terms[m] * m.expression(u) for m in self.modes()])
+
+    def numeric(self, substitutions: Mapping[sympy.Symbol, sympy.Expr] | None = None,
+                digits: int = 30) -> "NumericExponentialPolynomial":
+        """The same sum with every number evaluated to mpmath at ``digits`` digits."""
+        subs = dict(substitutions or {})
+        rows = []
+        with mpmath.workdps(digits + 10):
+            for mode, c in self.terms.items():
+                def value(expr: sympy.Expr) -> mpmath.mpf | mpmath.mpc:
+                    evaluated = sympy.sympify(expr).subs(subs).evalf(digits + 10)
+                    if evaluated.free_symbols:
+                        raise ValueError(f"symbols left after substitution: {evaluated.free_symbols}")
+                    return mpmath.mpmathify(complex(evaluated)) if not evaluated.is_real \
+                        else mpmath.mpf(sympy.Float(evaluated, digits + 10)._mpf_)
+                rows.append((mode.power, value(mode.rate), value(mode.frequency),
+                             mode.kind, value(c)))
+        return NumericExponentialPolynomial(tuple(rows), digits)
+
+
+@dataclass(frozen=True)
+class NumericExponentialPolynomial:
+    """An exponential polynomial with mpmath numbers, for evaluation and root finding."""
+
+    rows: tuple[tuple[int, object, object, str, object], ...]
+    digits: int = 30
+
+    def __call__(self, u) -> object:
+        with mpmath.workdps(self.digits + 10):
+            u = mpmath.mpf(u)
+            total = mpmath.mpf(0)
+            for power, rate, frequency, kind, c in self.rows:
+                value = c * u**power * mpmath.exp(rate * u)
+                if frequency != 0:
+                    value *= mpmath.cos(frequency * u) if kind == COS else mpmath.sin(frequency * u)
+                total += value
+            return total
+
+    def evaluate_float(self, grid):
+        """Fast float64 evaluation on a numpy grid (for bracketing only)."""
+        import numpy
+
+        grid = numpy.asarray(grid, dtype=float)
+        total = numpy.zeros_like(grid)
+        for power, rate, frequency, kind, c in self.rows:
+            value = float(c) * grid**power * numpy.exp(float(rate) * grid)
+            if frequency != 0:
+                trig = numpy.cos if kind == COS else numpy.sin
+                value = value * trig(float(frequency) * grid)
+            total = total + value
+        return total
+
+    def derivative(self) -> "NumericExponentialPolynomial":
+        rows = []
+        for power, rate, frequency, kind, c in self.rows:
+            if power > 0:
+                rows.append((power - 1, rate, frequency, kind, c * power))
+            if rate != 0:
+                rows.append((power, rate, frequency, kind, c * rate))
+            if frequency != 0:
+                other = SIN if kind == COS else COS
+                sign = -1 if kind == COS else 1
+                rows.append((power, rate, frequency, other, sign * c * frequency))
+        return NumericExponentialPolynomial(tuple(rows), self.digits)
+
+    def fastest_scale(self) -> float:
+        """The shortest time scale among the modes: a period or a decay time."""
+        scale = float("inf")
+        for _power, rate, frequency, _kind, _c in self.rows:
+            if frequency != 0:
+                scale = min(scale, 2 * float(mpmath.pi) / float(frequency))
+            if rate != 0:
+                scale = min(scale, 1 / abs(float(rate)))
+        return scale
+
+
+def _trig_product(a: Mode, b: Mode) -> list[tuple[str, sympy.Expr, sympy.Expr]]:
+    """cos/sin(αu)·cos/sin(βu) as a sum of cos/sin((α ± β)u) with weights."""
+    half = sympy.Rational(1, 2)
+    p, q = a.frequency, b.frequency
+    if p == 0:
+        return [(b.kind, q, sympy.S.One)]
+    if q == 0:
+        return [(a.kind, p, sympy.S.One)]
+    if a.kind == COS and b.kind == COS:
+        return [(COS, p - q, half), (COS, p + q, half)]
+    if a.kind == SIN and b.kind == SIN:
+        return [(COS, p - q, half), (COS, p + q, -half)]
+    if a.kind == SIN:   # sin p cos q
+        return [(SIN, p + q, half), (SIN, p - q, half)]
+    return [(SIN, p + q, half), (SIN, q - p, half)]   # cos p sin q

@@ -1,0 +1,165 @@
+"""The pipeline for one case: case → model → load terms → Laplace → pieces → results → checks.
+
+``derive`` is a pure function of the ``Case``; the ``Derivation`` it returns holds every
+intermediate value the sheet shows, so that nothing is re-derived while rendering.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from typing import Any
+
+import sympy
+
+from . import __version__
+from .case import Case
+from .loads import LoadHistory, rewrite_loads
+from .response import EXACT_BREAKPOINT_LIMIT, Solution, coefficient_policy, load_pieces, solve, t
+from .results import Extreme, Results, extreme_magnitude, numeric_intervals
+from .systems import LinearModel, build_model
+from .verify import Check, verify
+
+DEFAULT_PERIODS = 5   # default window: last load end + this many slowest periods/time constants
+
+
+@dataclass(frozen=True)
+class Window:
+    """The analysis window [0, until] and how it was chosen."""
+
+    until: sympy.Expr
+    note: str
+
+
+@dataclass(frozen=True)
+class Derivation:
+    """Everything derived for one case, immutable."""
+
+    case: Case
+    model: LinearModel
+    history: LoadHistory
+    window: Window
+    solution: Solution
+    results: Results
+    checks: tuple[Check, ...]
+
+    @property
+    def pieces(self):
+        return self.solution.pieces
+
+    @property
+    def status(self) -> str:
+        return "verified" if self.checks and all(c.passed for c in self.checks) else "failed"
+
+    @property
+    def passed(self) -> bool:
+        return self.status == "verified"
+
+    def to_dict(self) -> dict[str, Any]:
+        return result_dictionary(self)
+
+    def to_json(self) -> str:
+        return json.dumps(self.to_dict(), indent=2)
+
+    def _repr_markdown_(self) -> str:
+        from .render import render_markdown
+        return render_markdown(self)
+
+
+def last_load_end(case: Case) -> sympy.Expr:
+    ends = [start + load.length() for load in case.loads for start in load.starts()]
+    if not ends:
+        return sympy.S.Zero
+    numeric = [e for e in ends if not e.free_symbols]
+    if len(numeric) == len(ends):
+        return max(ends, key=lambda e: sympy.N(e, 30))
+    return sympy.Max(*ends)
+
+
+def analysis_window(case: Case, model: LinearModel) -> Window:
+    if case.report.until is not None:
+        return Window(case.report.until, "as given in [report] until")
+    scale = model.slowest_time_scale()
+    end = last_load_end(case)
+    if scale is None:
+        from .errors import CaseError
+        raise CaseError("the model has no natural period or time constant to size a default "
+                        "window; give [report] until", key="report.until", file=case.source)
+    return Window(sympy.simplify(end + DEFAULT_PERIODS * scale),
+                  f"default: end of the last load plus {DEFAULT_PERIODS} times the longest "
+                  "natural period or time constant")
+
+
+def derive(case: Case) -> Derivation:
+    """Derive, evaluate and check the response of one case."""
+    model = build_model(case.system, case.symbol_values())
+    history = rewrite_loads(case.loads)
+    window = analysis_window(case, model)
+    values = case.symbol_values()
+    breakpoints = {term.at for term in history.terms} | {i.at for i in history.impulses}
+    exact = case.is_symbolic or (len(breakpoints) <= EXACT_BREAKPOINT_LIMIT and model.exact_poles)
+    solution = solve(model, history, case.initial, window.until, exact=exact, ordering=values)
+    results = evaluate_results(case, model, history, solution, window)
+    partial = Derivation(case, model, history, window, solution, results, ())
+    return Derivation(case, model, history, window, solution, results, tuple(verify(partial)))
+
+
+def evaluate_results(case: Case, model: LinearModel, history: LoadHistory, solution: Solution,
+                     window: Window) -> Results:
+    """Peak, static response and DLF; None where symbols have no values."""
+    if not case.is_fully_valued:
+        return Results(None, None, None, None)
+    values = case.symbol_values()
+    starts = [piece.start for piece in solution.pieces]
+    intervals = numeric_intervals([p.local for p in solution.pieces], starts, window.until, values)
+    peak = extreme_magnitude(intervals)
+    load_locals = load_pieces(history, starts, coefficient_policy(solution.exact))
+    largest = extreme_magnitude(numeric_intervals(load_locals, starts, window.until, values))
+    static = None
+    gain = model.static_gain()
+    if gain is not None and largest is not None and largest.value != 0:
+        static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
+    dlf = abs(peak.value) / static if (peak is not None and static) else None
+    return Results(peak, static, dlf, largest)
+
+
+def _time_value(value: sympy.Expr | None, values: dict) -> float | str | None:
+    if value is None:
+        return None
+    if value.free_symbols:
+        return str(value)
+    return float(sympy.N(value, 30))
+
+
+def _extreme(extreme: Extreme | None) -> dict[str, float] | None:
+    if extreme is None:
+        return None
+    return {"value": extreme.value, "time": extreme.time}
+
+
+def result_dictionary(derivation: Derivation) -> dict[str, Any]:
+    """The JSON result contract (schema 1) of the design brief."""
+    from . import quantities
+
+    case = derivation.case
+    values = case.symbol_values()
+    results = derivation.results
+    return {
+        "schema": 1,
+        "title": case.title,
+        "reference": case.reference,
+        "tool_version": __version__,
+        "status": derivation.status,
+        "model": case.system.model,
+        "variable": {"name": derivation.model.variable,
+                     "unit": quantities.si_unit_text(case.system.response_dimension)},
+        "regime": derivation.model.regime,
+        "until": _time_value(derivation.window.until, values),
+        "pieces": [{"start": _time_value(p.start, values), "end": _time_value(p.end, values),
+                    "expr": str(p.expression(t))} for p in derivation.pieces],
+        "peak": _extreme(results.peak),
+        "static": results.static,
+        "dlf": results.dlf,
+        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+                   for c in derivation.checks],
+    }

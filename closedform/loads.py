@@ -1,0 +1,283 @@
+"""Load rewrite rules: every load shape as a sum of singularity terms.
+
+The result is a list of terms c · g(t − a) · H(t − a), where g is one basis function of
+``basis.Mode`` (1, (t − a)^n, a sine …), and impulses J · δ(t − a). Each rule that fires is
+recorded with its name and source; the sheet shows that record, it never rewrites loads
+itself.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Sequence
+
+import sympy
+
+from .basis import COS, SIN, ExponentialPolynomial, Mode
+from .case import TAU, LoadSpec
+from .errors import CaseError
+
+MACAULAY = ("Macaulay, 'Note on the deflection of beams', Messenger of Mathematics 48 (1919) "
+            "129-130 (singularity functions)")
+SECOND_SHIFTING = ("Kreyszig, Advanced Engineering Mathematics, 10th ed., section 6.3 "
+                   "(unit step function, second shifting theorem; from memory)")
+DIRAC = "Kreyszig, Advanced Engineering Mathematics, 10th ed., section 6.4 (from memory)"
+
+RULES = {
+    "step": ("step: A·H(t − a)", SECOND_SHIFTING),
+    "ramp": ("ramp: r·(t − a)·H(t − a), less r·(t − a − d)·H(t − a − d) where it holds",
+             MACAULAY),
+    "impulse": ("impulse: J·δ(t − a)", DIRAC),
+    "piecewise-linear": ("piecewise-linear pulse: a step at every jump and a ramp at every "
+                         "change of slope", MACAULAY),
+    "window": ("windowed function: f(t − a)·H(t − a) − f(t − a)·H(t − a − d), the second "
+               "term re-expanded about a + d", SECOND_SHIFTING),
+}
+
+
+@dataclass(frozen=True)
+class SingularityTerm:
+    """coefficient · g(t − at) · H(t − at) with g = ``mode`` (a basis function)."""
+
+    coefficient: sympy.Expr
+    at: sympy.Expr
+    mode: Mode
+    load_number: int
+
+    def expression(self, t: sympy.Symbol) -> sympy.Expr:
+        return self.coefficient * self.mode.expression(t - self.at) * sympy.Heaviside(t - self.at)
+
+
+@dataclass(frozen=True)
+class ImpulseTerm:
+    """impulse · δ(t − at)."""
+
+    impulse: sympy.Expr
+    at: sympy.Expr
+    load_number: int
+
+    def expression(self, t: sympy.Symbol) -> sympy.Expr:
+        return self.impulse * sympy.DiracDelta(t - self.at)
+
+
+@dataclass(frozen=True)
+class Rewrite:
+    """One load rewritten: the rule, its source and the terms it produced."""
+
+    load_number: int
+    shape: str
+    rule: str
+    source: str
+    terms: tuple[SingularityTerm | ImpulseTerm, ...]
+
+    def expression(self, t: sympy.Symbol) -> sympy.Expr:
+        return sympy.Add(*[term.expression(t) for term in self.terms])
+
+
+@dataclass(frozen=True)
+class LoadHistory:
+    """All loads of a case as singularity terms, with the rewrite record."""
+
+    rewrites: tuple[Rewrite, ...]
+
+    @property
+    def terms(self) -> tuple[SingularityTerm, ...]:
+        return tuple(term for r in self.rewrites for term in r.terms
+                     if isinstance(term, SingularityTerm))
+
+    @property
+    def impulses(self) -> tuple[ImpulseTerm, ...]:
+        return tuple(term for r in self.rewrites for term in r.terms
+                     if isinstance(term, ImpulseTerm))
+
+    def expression(self, t: sympy.Symbol) -> sympy.Expr:
+        return sympy.Add(*[r.expression(t) for r in self.rewrites])
+
+
+ZERO = sympy.S.Zero
+STEP = Mode(0, ZERO, ZERO)
+RAMP = Mode(1, ZERO, ZERO)
+
+
+def rewrite_loads(loads: Sequence[LoadSpec]) -> LoadHistory:
+    """Every load of the case as singularity terms (repeats included)."""
+    rewrites = []
+    for load in loads:
+        for start in load.starts():
+            rewrites.append(rewrite_load(load, start))
+    return LoadHistory(tuple(rewrites))
+
+
+def rewrite_load(load: LoadSpec, start: sympy.Expr) -> Rewrite:
+    """One occurrence of a load, starting at ``start``, as singularity terms."""
+    v = load.values
+    n = load.number
+    if load.shape == "step":
+        return _rewrite(load, "step", [SingularityTerm(v["amplitude"], start, STEP, n)])
+    if load.shape == "ramp":
+        terms = [SingularityTerm(v["rate"], start, RAMP, n)]
+        if "duration" in v:
+            terms.append(SingularityTerm(-v["rate"], start + v["duration"], RAMP, n))
+        return _rewrite(load, "ramp", terms)
+    if load.shape == "impulse":
+        return _rewrite(load, "impulse", [ImpulseTerm(v["impulse"], start, n)])
+    if load.shape in ("rectangle", "triangle", "decay", "trapezoid", "table"):
+        return _rewrite(load, "piecewise-linear",
+                        piecewise_linear_terms(pulse_points(load), start, n))
+    if load.shape == "half-sine":
+        omega = sympy.pi / v["duration"]
+        shape = ExponentialPolynomial.single(Mode(0, ZERO, omega, SIN), v["amplitude"])
+        return _rewrite(load, "window", windowed_terms(shape, start, v["duration"], n))
+    if load.shape == "formula":
+        shape = exponential_polynomial_of(load.expression, TAU, key=f"{load.key}.expr")
+        return _rewrite(load, "window", windowed_terms(shape, start, v["duration"], n))
+    raise CaseError(f"no rewrite rule for shape '{load.shape}'", key=f"{load.key}.shape")
+
+
+def _rewrite(load: LoadSpec, rule: str, terms: list) -> Rewrite:
+    text, source = RULES[rule]
+    return Rewrite(load.number, load.shape, text, source, tuple(terms))
+
+
+def pulse_points(load: LoadSpec) -> tuple[tuple[sympy.Expr, sympy.Expr], ...]:
+    """The corner points (local time, value) of a piecewise-linear pulse, zero outside."""
+    v = load.values
+    if load.shape == "table":
+        return load.points
+    a = v["amplitude"]
+    if load.shape == "rectangle":
+        return ((ZERO, a), (v["duration"], a))
+    if load.shape == "decay":
+        return ((ZERO, a), (v["duration"], ZERO))
+    if load.shape == "triangle":
+        d, p = v["duration"], v["peak_at"]
+        return ((ZERO, ZERO), (p * d, a), (d, ZERO))
+    rise, hold, fall = v["rise"], v["hold"], v["fall"]
+    return ((ZERO, ZERO), (rise, a), (rise + hold, a), (rise + hold + fall, ZERO))
+
+
+def piecewise_linear_terms(points: Sequence[tuple[sympy.Expr, sympy.Expr]], start: sympy.Expr,
+                           number: int) -> list[SingularityTerm]:
+    """Steps at the jumps and ramps at the slope changes of a polyline that is zero outside.
+
+    Points at the same time make a jump. For N segments this gives at most N + 1 ramp
+    changes and a step at each jump, never 2N windowed pieces.
+    """
+    groups: list[tuple[sympy.Expr, list[sympy.Expr]]] = []
+    for time, value in points:
+        if groups and sympy.simplify(time - groups[-1][0]) == 0:
+            groups[-1][1].append(value)
+        else:
+            groups.append((time, [value]))
+    terms: list[SingularityTerm] = []
+    previous_slope = ZERO
+    for i, (time, values) in enumerate(groups):
+        left = ZERO if i == 0 else values[0]
+        right = ZERO if i == len(groups) - 1 else values[-1]
+        jump = sympy.simplify(right - left)
+        if i + 1 < len(groups):
+            next_time, next_values = groups[i + 1]
+            slope = sympy.simplify((next_values[0] - values[-1]) / (next_time - time))
+        else:
+            slope = ZERO
+        change = sympy.simplify(slope - previous_slope)
+        at = start + time
+        if jump != 0:
+            terms.append(SingularityTerm(jump, at, STEP, number))
+        if change != 0:
+            terms.append(SingularityTerm(change, at, RAMP, number))
+        previous_slope = slope
+    return terms
+
+
+def windowed_terms(shape: ExponentialPolynomial, start: sympy.Expr, duration: sympy.Expr,
+                   number: int) -> list[SingularityTerm]:
+    """f(τ) on 0 ≤ τ < d as f(t − a)H(t − a) − f(t − a)H(t − a − d), where the second
+    part is written in the time since a + d by re-expanding f about d (shift theorem)."""
+    terms = [SingularityTerm(c, start, mode, number) for mode, c in _ordered(shape)]
+    tail = shape.shifted(duration).map_coefficients(sympy.simplify)
+    terms += [SingularityTerm(-c, start + duration, mode, number) for mode, c in _ordered(tail)]
+    return [term for term in terms if term.coefficient != 0]
+
+
+def _ordered(shape: ExponentialPolynomial):
+    return [(mode, shape.terms[mode]) for mode in shape.modes()]
+
+
+_MAX_POWER = 12
+
+
+def exponential_polynomial_of(expression: sympy.Expr, variable: sympy.Symbol, *,
+                              key: str) -> ExponentialPolynomial:
+    """A formula in ``variable`` as an exact exponential polynomial.
+
+    Accepted: sums and products of constants, powers of the variable, exp, sin, cos, sinh
+    and cosh of linear functions of the variable — the functions whose Laplace transforms
+    are rational. Anything else cannot be solved in closed form by the transform table.
+    """
+    expression = sympy.sympify(expression)
+    if variable not in expression.free_symbols:
+        return ExponentialPolynomial.polynomial({0: expression})
+    if expression == variable:
+        return ExponentialPolynomial.single(RAMP)
+    if isinstance(expression, sympy.Add):
+        total = ExponentialPolynomial()
+        for part in expression.args:
+            total = total + exponential_polynomial_of(part, variable, key=key)
+        return total
+    if isinstance(expression, sympy.Mul):
+        product = ExponentialPolynomial.polynomial({0: sympy.S.One})
+        for part in expression.args:
+            product = product * exponential_polynomial_of(part, variable, key=key)
+        return product
+    if isinstance(expression, sympy.Pow):
+        base, exponent = expression.args
+        if exponent.is_Integer and 0 < exponent <= _MAX_POWER:
+            factor = exponential_polynomial_of(base, variable, key=key)
+            product = ExponentialPolynomial.polynomial({0: sympy.S.One})
+            for _ in range(int(exponent)):
+                product = product * factor
+            return product
+        if base == sympy.E or (variable not in base.free_symbols and exponent.is_polynomial(variable)):
+            return _exponential(sympy.log(base) * exponent if base != sympy.E else exponent,
+                                variable, expression, key)
+    if isinstance(expression, sympy.exp):
+        return _exponential(expression.args[0], variable, expression, key)
+    if isinstance(expression, (sympy.sin, sympy.cos)):
+        rate, phase = _linear(expression.args[0], variable, expression, key)
+        kind = SIN if isinstance(expression, sympy.sin) else COS
+        if rate.is_negative:
+            rate, phase = -rate, -phase
+            sign = -1 if kind == SIN else 1
+        else:
+            sign = 1
+        # sin(ωτ + φ) = sin ωτ cos φ + cos ωτ sin φ;  cos(ωτ + φ) = cos ωτ cos φ − sin ωτ sin φ
+        if kind == SIN:
+            pairs = [(Mode(0, ZERO, rate, SIN), sign * sympy.cos(phase)),
+                     (Mode(0, ZERO, rate, COS), sign * sympy.sin(phase))]
+        else:
+            pairs = [(Mode(0, ZERO, rate, COS), sympy.cos(phase)),
+                     (Mode(0, ZERO, rate, SIN), -sympy.sin(phase))]
+        return ExponentialPolynomial.from_terms([p for p in pairs if p[1] != 0])
+    if isinstance(expression, (sympy.sinh, sympy.cosh)):
+        return exponential_polynomial_of(expression.rewrite(sympy.exp), variable, key=key)
+    raise CaseError(f"'{expression}' has no rational Laplace transform (expected sums and "
+                    "products of powers of tau, exp, sin, cos, sinh and cosh of linear "
+                    "functions of tau; use a table load for other shapes)", key=key)
+
+
+def _linear(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
+            key: str) -> tuple[sympy.Expr, sympy.Expr]:
+    argument = sympy.expand(argument)
+    rate = argument.coeff(variable, 1)
+    phase = sympy.simplify(argument - rate * variable)
+    if variable in rate.free_symbols or variable in phase.free_symbols:
+        raise CaseError(f"'{whole}' is not of a linear function of tau (expected e.g. "
+                        "sin(2*pi*tau/T))", key=key)
+    return rate, phase
+
+
+def _exponential(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
+                 key: str) -> ExponentialPolynomial:
+    rate, phase = _linear(argument, variable, whole, key)
+    return ExponentialPolynomial.single(Mode(0, rate, ZERO), sympy.exp(phase))
