@@ -3,16 +3,19 @@
 from __future__ import annotations
 
 import argparse
+import importlib
 import os
 import sys
 import tempfile
+from collections.abc import Sequence
 from pathlib import Path
-from typing import Sequence
 
 from . import __version__
 from .errors import CaseError, ClosedformError
 
-FORMATS = ("md", "json")
+# Commands that live in modules of their own; each module has register(commands), which
+# adds its sub-parser with set_defaults(run=function returning the exit code).
+COMMAND_MODULES: tuple[str, ...] = ()
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -50,20 +53,28 @@ def _parser() -> argparse.ArgumentParser:
     derive.add_argument("case", type=Path, help="the case file (TOML)")
     derive.add_argument("-o", "--output", type=Path, help="folder for the sheet files")
     derive.add_argument("--format", default="md,json",
-                        help=f"comma-separated output formats ({', '.join(FORMATS)}); "
+                        help=f"comma-separated output formats ({', '.join(output_formats())}); "
                              "default md,json")
     derive.add_argument("--json", dest="json_target", metavar="-",
                         help="print the JSON result on standard output ('-')")
     derive.set_defaults(run=run_derive)
+    for module in COMMAND_MODULES:
+        importlib.import_module(module).register(commands)
     return parser
 
 
-def _formats(text: str) -> list[str]:
+def output_formats() -> tuple[str, ...]:
+    from .render import FORMATS
+    return FORMATS
+
+
+def parse_formats(text: str) -> list[str]:
+    known = output_formats()
     formats = [f.strip() for f in text.split(",") if f.strip()]
-    unknown = [f for f in formats if f not in FORMATS]
+    unknown = [f for f in formats if f not in known]
     if unknown or not formats:
         raise CaseError(f"unknown output format '{', '.join(unknown) or text}' "
-                        f"(expected some of: {', '.join(FORMATS)})", file="--format")
+                        f"(expected some of: {', '.join(known)})", file="--format")
     return formats
 
 
@@ -73,7 +84,7 @@ def run_derive(arguments: argparse.Namespace) -> int:
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
-    formats = _formats(arguments.format)
+    formats = parse_formats(arguments.format)
     case = load_case(arguments.case)
     derivation = derive(case)
     if arguments.json_target == "-":
@@ -100,15 +111,10 @@ def summary_line(derivation) -> str:
 
 def write_outputs(derivation, folder: Path, formats: Sequence[str]) -> list[Path]:
     """Render everything first, then move each file into place (never half-written)."""
-    from .render import render_markdown
+    from .render import render_outputs
 
     stem = Path(derivation.case.source).stem or "case"
-    contents: dict[str, str] = {}
-    if "md" in formats:
-        contents[f"{stem}.md"] = render_markdown(derivation)
-    if "json" in formats:
-        contents[f"{stem}.json"] = derivation.to_json() + "\n"
-    return write_atomically(folder, contents)
+    return write_atomically(folder, render_outputs(derivation, formats, stem))
 
 
 def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:

@@ -15,8 +15,8 @@ import sympy
 from . import __version__
 from .case import Case
 from .loads import LoadHistory, rewrite_loads
-from .response import EXACT_BREAKPOINT_LIMIT, Solution, coefficient_policy, load_pieces, solve, t
-from .results import Extreme, Results, extreme_magnitude, numeric_intervals
+from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve, t
+from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
 from .verify import Check, verify
 
@@ -104,25 +104,6 @@ def derive(case: Case) -> Derivation:
     return Derivation(case, model, history, window, solution, results, tuple(verify(partial)))
 
 
-def evaluate_results(case: Case, model: LinearModel, history: LoadHistory, solution: Solution,
-                     window: Window) -> Results:
-    """Peak, static response and DLF; None where symbols have no values."""
-    if not case.is_fully_valued:
-        return Results(None, None, None, None)
-    values = case.symbol_values()
-    starts = [piece.start for piece in solution.pieces]
-    intervals = numeric_intervals([p.local for p in solution.pieces], starts, window.until, values)
-    peak = extreme_magnitude(intervals)
-    load_locals = load_pieces(history, starts, coefficient_policy(solution.exact))
-    largest = extreme_magnitude(numeric_intervals(load_locals, starts, window.until, values))
-    static = None
-    gain = model.static_gain()
-    if gain is not None and largest is not None and largest.value != 0:
-        static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
-    dlf = abs(peak.value) / static if (peak is not None and static) else None
-    return Results(peak, static, dlf, largest)
-
-
 def _time_value(value: sympy.Expr | None, values: dict) -> float | str | None:
     if value is None:
         return None
@@ -160,6 +141,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "peak": _extreme(results.peak),
         "static": results.static,
         "dlf": results.dlf,
+        **result_fields(results),
         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
                    for c in derivation.checks],
     }

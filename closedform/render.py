@@ -15,6 +15,8 @@ from . import __version__
 from .laplace import s
 from .response import t
 
+FORMATS = ("md", "json")
+
 CAUTION = ("This sheet supports, and does not replace, review by a qualified engineer "
            "under the applicable codes and local practice.")
 
@@ -134,3 +136,13 @@ def sheet_context(derivation) -> dict[str, Any]:
 
 def render_markdown(derivation) -> str:
     return make_environment().get_template("sheet.md.j2").render(sheet_context(derivation))
+
+
+def render_outputs(derivation, formats, stem: str) -> dict[str, str | bytes]:
+    """File name → content for every requested format (nothing is written here)."""
+    contents: dict[str, str | bytes] = {}
+    if "md" in formats:
+        contents[f"{stem}.md"] = render_markdown(derivation)
+    if "json" in formats:
+        contents[f"{stem}.json"] = derivation.to_json() + "\n"
+    return contents

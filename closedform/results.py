@@ -7,14 +7,15 @@ sign changes of x'(t); each root is then refined to 30 significant digits with m
 
 from __future__ import annotations
 
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
-from typing import Mapping, Sequence
 
 import mpmath
 import numpy
 import sympy
 
 from .basis import ExponentialPolynomial, NumericExponentialPolynomial
+from .response import coefficient_policy, load_pieces
 
 DIGITS = 30
 GRID_PER_SCALE = 64          # grid points per shortest period or decay time
@@ -132,3 +133,26 @@ class Results:
     static: float | None
     dlf: float | None
     largest_load: Extreme | None
+
+
+def evaluate_results(case, model, history, solution, window) -> Results:
+    """Peak, static response and DLF; None where symbols have no values."""
+    if not case.is_fully_valued:
+        return Results(None, None, None, None)
+    values = case.symbol_values()
+    starts = [piece.start for piece in solution.pieces]
+    intervals = numeric_intervals([p.local for p in solution.pieces], starts, window.until, values)
+    peak = extreme_magnitude(intervals)
+    load_locals = load_pieces(history, starts, coefficient_policy(solution.exact))
+    largest = extreme_magnitude(numeric_intervals(load_locals, starts, window.until, values))
+    static = None
+    gain = model.static_gain()
+    if gain is not None and largest is not None and largest.value != 0:
+        static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
+    dlf = abs(peak.value) / static if (peak is not None and static) else None
+    return Results(peak, static, dlf, largest)
+
+
+def result_fields(results: Results) -> dict:
+    """JSON fields for the results beyond peak, static and DLF (SI)."""
+    return {}
