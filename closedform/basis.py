@@ -12,9 +12,9 @@ breakpoint (the shift), differentiating, and taking the Laplace transform.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field
 from math import comb
-from typing import Callable, Iterator, Mapping
 
 import mpmath
 import sympy
@@ -64,18 +64,18 @@ class ExponentialPolynomial:
 
     @staticmethod
     def from_terms(pairs: Iterator[tuple[Mode, sympy.Expr]] | list[tuple[Mode, sympy.Expr]],
-                   ) -> "ExponentialPolynomial":
+                   ) -> ExponentialPolynomial:
         collected: dict[Mode, sympy.Expr] = {}
         for mode, coefficient in pairs:
             collected[mode] = collected.get(mode, sympy.S.Zero) + coefficient
         return ExponentialPolynomial({m: c for m, c in collected.items() if c != 0})
 
     @staticmethod
-    def single(mode: Mode, coefficient: sympy.Expr = sympy.S.One) -> "ExponentialPolynomial":
+    def single(mode: Mode, coefficient: sympy.Expr = sympy.S.One) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms([(mode, sympy.sympify(coefficient))])
 
     @staticmethod
-    def polynomial(coefficients: Mapping[int, sympy.Expr]) -> "ExponentialPolynomial":
+    def polynomial(coefficients: Mapping[int, sympy.Expr]) -> ExponentialPolynomial:
         """Σ c_k u^k."""
         zero = sympy.S.Zero
         return ExponentialPolynomial.from_terms(
@@ -84,26 +84,26 @@ class ExponentialPolynomial:
     def is_zero(self) -> bool:
         return not self.terms
 
-    def __add__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+    def __add__(self, other: ExponentialPolynomial) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms(list(self.terms.items()) + list(other.terms.items()))
 
-    def __neg__(self) -> "ExponentialPolynomial":
+    def __neg__(self) -> ExponentialPolynomial:
         return self.scaled(sympy.S.NegativeOne)
 
-    def __sub__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+    def __sub__(self, other: ExponentialPolynomial) -> ExponentialPolynomial:
         return self + (-other)
 
-    def scaled(self, factor: sympy.Expr) -> "ExponentialPolynomial":
+    def scaled(self, factor: sympy.Expr) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms([(m, c * factor) for m, c in self.terms.items()])
 
     def map_coefficients(self, function: Callable[[sympy.Expr], sympy.Expr],
-                         ) -> "ExponentialPolynomial":
+                         ) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms([(m, function(c)) for m, c in self.terms.items()])
 
     def modes(self) -> list[Mode]:
         return sorted(self.terms, key=Mode.sort_key)
 
-    def shifted(self, delay: sympy.Expr) -> "ExponentialPolynomial":
+    def shifted(self, delay: sympy.Expr) -> ExponentialPolynomial:
         """g(v + delay) written again as an exponential polynomial in v.
 
         This is how a response is carried from one breakpoint to the next: with
@@ -131,7 +131,7 @@ class ExponentialPolynomial:
                                   coefficient * growth * binomial * trig_factor))
         return ExponentialPolynomial.from_terms(pairs)
 
-    def __mul__(self, other: "ExponentialPolynomial") -> "ExponentialPolynomial":
+    def __mul__(self, other: ExponentialPolynomial) -> ExponentialPolynomial:
         """The product, closed in the basis by the product-to-sum identities."""
         pairs: list[tuple[Mode, sympy.Expr]] = []
         for m1, c1 in self.terms.items():
@@ -147,7 +147,7 @@ class ExponentialPolynomial:
                     pairs.append((Mode(power, rate, frequency, kind), c1 * c2 * weight))
         return ExponentialPolynomial.from_terms(pairs)
 
-    def derivative(self) -> "ExponentialPolynomial":
+    def derivative(self) -> ExponentialPolynomial:
         """d/du of the sum, term by term (product rule)."""
         pairs: list[tuple[Mode, sympy.Expr]] = []
         for mode, c in self.terms.items():
@@ -168,7 +168,7 @@ class ExponentialPolynomial:
         return sympy.Add(*[self.terms[m] * m.expression(u) for m in self.modes()])
 
     def numeric(self, substitutions: Mapping[sympy.Symbol, sympy.Expr] | None = None,
-                digits: int = 30) -> "NumericExponentialPolynomial":
+                digits: int = 30) -> NumericExponentialPolynomial:
         """The same sum with every number evaluated to mpmath at ``digits`` digits."""
         subs = dict(substitutions or {})
         rows = []
@@ -217,7 +217,7 @@ class NumericExponentialPolynomial:
             total = total + value
         return total
 
-    def derivative(self) -> "NumericExponentialPolynomial":
+    def derivative(self) -> NumericExponentialPolynomial:
         rows = []
         for power, rate, frequency, kind, c in self.rows:
             if power > 0:
@@ -256,3 +256,67 @@ def _trig_product(a: Mode, b: Mode) -> list[tuple[str, sympy.Expr, sympy.Expr]]:
     if a.kind == SIN:   # sin p cos q
         return [(SIN, p + q, half), (SIN, p - q, half)]
     return [(SIN, p + q, half), (SIN, q - p, half)]   # cos p sin q
+
+
+class NumericCarrier:
+    """Carries exponential polynomials across breakpoints in mpmath arithmetic.
+
+    Long load histories would make exact coefficients swell with every shift; this does the
+    same re-expansion as ``ExponentialPolynomial.shifted`` with numbers of ``digits``
+    significant digits (plus guard digits), which keeps the work per breakpoint constant.
+    """
+
+    def __init__(self, digits: int = 30) -> None:
+        self.digits = digits
+        self._parameters: dict[Mode, tuple] = {}
+
+    def number(self, value: sympy.Expr):
+        with mpmath.workdps(self.digits + 15):
+            return mpmath.mpf(sympy.Float(sympy.N(value, self.digits + 15), self.digits + 15)._mpf_)
+
+    def _mode_numbers(self, mode: Mode) -> tuple:
+        if mode not in self._parameters:
+            self._parameters[mode] = (self.number(mode.rate), self.number(mode.frequency))
+        return self._parameters[mode]
+
+    def numeric_terms(self, polynomial: ExponentialPolynomial) -> dict[Mode, object]:
+        return {mode: self.number(c) for mode, c in polynomial.terms.items()}
+
+    def shifted(self, terms: dict[Mode, object], delay) -> dict[Mode, object]:
+        if delay == 0:
+            return dict(terms)
+        result: dict[Mode, object] = {}
+        with mpmath.workdps(self.digits + 15):
+            for mode, coefficient in terms.items():
+                rate, frequency = self._mode_numbers(mode)
+                growth = coefficient * mpmath.exp(rate * delay)
+                if mode.frequency == 0:
+                    trig_parts = ((COS, 1),)
+                else:
+                    c, s_ = mpmath.cos(frequency * delay), mpmath.sin(frequency * delay)
+                    trig_parts = ((COS, c), (SIN, -s_)) if mode.kind == COS else ((SIN, c), (COS, s_))
+                for j in range(mode.power + 1):
+                    binomial = comb(mode.power, j) * delay ** (mode.power - j)
+                    for kind, factor in trig_parts:
+                        key = Mode(j, mode.rate, mode.frequency, kind)
+                        result[key] = result.get(key, 0) + growth * binomial * factor
+        return result
+
+    def add(self, terms: dict[Mode, object], other: dict[Mode, object], scale) -> dict[Mode, object]:
+        result = dict(terms)
+        with mpmath.workdps(self.digits + 15):
+            for mode, c in other.items():
+                result[mode] = result.get(mode, 0) + scale * c
+        return result
+
+    def exponential_polynomial(self, terms: dict[Mode, object]) -> ExponentialPolynomial:
+        """Back to sympy, coefficients as ``digits``-significant-digit Floats."""
+        return ExponentialPolynomial.from_terms(
+            [(mode, sympy.Float(c, self.digits)) for mode, c in terms.items() if c != 0])
+
+    def numeric_polynomial(self, terms: dict[Mode, object]) -> NumericExponentialPolynomial:
+        rows = []
+        for mode, c in terms.items():
+            rate, frequency = self._mode_numbers(mode)
+            rows.append((mode.power, rate, frequency, mode.kind, c))
+        return NumericExponentialPolynomial(tuple(rows), self.digits)

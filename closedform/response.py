@@ -11,15 +11,23 @@ breakpoints.
 
 from __future__ import annotations
 
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
-from typing import Callable, Mapping, Sequence
 
 import sympy
 
-from .basis import ExponentialPolynomial, Mode
+from .basis import ExponentialPolynomial, Mode, NumericCarrier, NumericExponentialPolynomial
 from .errors import CaseError
-from .laplace import (SOURCES, Inversion, RationalTransform, TablePair, initial_value_numerator,
-                      invert, s, transform_of_mode)
+from .laplace import (
+    SOURCES,
+    Inversion,
+    RationalTransform,
+    TablePair,
+    initial_value_numerator,
+    invert,
+    s,
+    transform_of_mode,
+)
 from .loads import LoadHistory
 from .systems import LinearModel
 
@@ -29,6 +37,9 @@ t = sympy.Symbol("t", real=True)
 # numeric cases then carry 30-significant-digit coefficients instead.
 EXACT_BREAKPOINT_LIMIT = 16
 DIGITS = 30
+# X(s) is written out in full only for load histories of at most this many terms; longer
+# ones are shown term by term through the kernels and the coefficient table.
+TRANSFORM_DISPLAY_LIMIT = 40
 
 
 @dataclass(frozen=True)
@@ -38,6 +49,7 @@ class Piece:
     start: sympy.Expr
     end: sympy.Expr | None
     local: ExponentialPolynomial          # in the local time t − start
+    numeric: NumericExponentialPolynomial | None = None   # the same at 30 digits, when carried so
 
     def expression(self, time: sympy.Symbol = t) -> sympy.Expr:
         """The piece in the global time, with the local time kept as (t − start)."""
@@ -61,8 +73,8 @@ class Kernel:
 class Solution:
     """What the Laplace stage produced, in the order a checker reads it."""
 
-    transform: sympy.Expr                 # X(s) with its exponential shift factors
-    load_transform: sympy.Expr            # F(s)
+    transform: sympy.Expr | None          # X(s) with its shift factors (None: too long to show)
+    load_transform: sympy.Expr | None     # F(s)
     initial_numerator: sympy.Expr         # Q(s)
     free: Inversion | None                # Q(s)/P(s) inverted
     kernels: tuple[Kernel, ...]
@@ -107,15 +119,16 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
     initial = tuple(initial) if initial is not None else (sympy.S.Zero,) * model.order
 
     # Laplace transform of the whole problem (shown on the sheet).
-    load_transform = sympy.S.Zero
-    for term in history.terms:
-        transform, _pair = transform_of_mode(term.mode)
-        load_transform += term.coefficient * sympy.exp(-term.at * s) * transform.expression()
-    for impulse in history.impulses:
-        load_transform += impulse.impulse * sympy.exp(-impulse.at * s)
     q = initial_value_numerator(model.coefficients, initial)
-    polynomial = model.characteristic_polynomial()
-    transform = (model.input_scale * load_transform + q) / polynomial
+    load_transform = transform = None
+    if len(history.terms) + len(history.impulses) <= TRANSFORM_DISPLAY_LIMIT:
+        mode_transforms = {mode: transform_of_mode(mode)[0].expression()
+                           for mode in {term.mode for term in history.terms}}
+        load_transform = sympy.Add(
+            *[term.coefficient * sympy.exp(-term.at * s) * mode_transforms[term.mode]
+              for term in history.terms],
+            *[impulse.impulse * sympy.exp(-impulse.at * s) for impulse in history.impulses])
+        transform = (model.input_scale * load_transform + q) / model.characteristic_polynomial()
 
     free = None
     if q != 0:
@@ -144,6 +157,15 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
     times = order_times(set(events) | {sympy.S.Zero}, ordering)
     times = [time for time in times if _before(time, until, ordering)]
 
+    if exact:
+        pieces = _carry_exact(times, events, kernels, free, tidy)
+    else:
+        pieces = _carry_numeric(times, events, kernels, free)
+    return Solution(transform, load_transform, q, free, tuple(kernels.values()),
+                    tuple(pieces), exact)
+
+
+def _carry_exact(times, events, kernels, free, tidy) -> list[Piece]:
     pieces: list[Piece] = []
     current = free.time_function.map_coefficients(tidy) if free else ExponentialPolynomial()
     previous = sympy.S.Zero
@@ -155,25 +177,53 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
         end = times[i + 1] if i + 1 < len(times) else None
         pieces.append(Piece(time, end, current))
         previous = time
-    return Solution(transform, load_transform, q, free, tuple(kernels.values()),
-                    tuple(pieces), exact)
+    return pieces
 
 
-def load_pieces(history: LoadHistory, times: Sequence[sympy.Expr],
-                tidy: Callable[[sympy.Expr], sympy.Expr]) -> list[ExponentialPolynomial]:
+def _carry_numeric(times, events, kernels, free) -> list[Piece]:
+    """The same carrying in 30-digit arithmetic (long histories)."""
+    carrier = NumericCarrier(DIGITS)
+    numeric_kernels = {mode: carrier.numeric_terms(k.inversion.time_function)
+                       for mode, k in kernels.items()}
+    current = carrier.numeric_terms(free.time_function) if free else {}
+    pieces: list[Piece] = []
+    previous = sympy.S.Zero
+    for i, time in enumerate(times):
+        current = carrier.shifted(current, carrier.number(time - previous))
+        for coefficient, mode in events.get(time, []):
+            current = carrier.add(current, numeric_kernels[mode], carrier.number(coefficient))
+        end = times[i + 1] if i + 1 < len(times) else None
+        pieces.append(Piece(time, end, carrier.exponential_polynomial(current),
+                            carrier.numeric_polynomial(current)))
+        previous = time
+    return pieces
+
+
+def load_pieces(history: LoadHistory, times: Sequence[sympy.Expr], *, exact: bool,
+                ) -> list[ExponentialPolynomial | NumericExponentialPolynomial]:
     """The (non-impulsive) load on each interval, in local time, by the same carrying."""
     events: dict[sympy.Expr, list] = {}
     for term in history.terms:
         events.setdefault(term.at, []).append(term)
-    current = ExponentialPolynomial()
-    previous = sympy.S.Zero
     result = []
+    previous = sympy.S.Zero
+    if exact:
+        current = ExponentialPolynomial()
+        for time in times:
+            current = current.shifted(time - previous)
+            for term in events.get(time, []):
+                current = current + ExponentialPolynomial.single(term.mode, term.coefficient)
+            current = current.map_coefficients(_tidy_exact)
+            result.append(current)
+            previous = time
+        return result
+    carrier = NumericCarrier(DIGITS)
+    state: dict = {}
     for time in times:
-        current = current.shifted(time - previous)
+        state = carrier.shifted(state, carrier.number(time - previous))
         for term in events.get(time, []):
-            current = current + ExponentialPolynomial.single(term.mode, term.coefficient)
-        current = current.map_coefficients(tidy)
-        result.append(current)
+            state = carrier.add(state, {term.mode: 1}, carrier.number(term.coefficient))
+        result.append(carrier.numeric_polynomial(state))
         previous = time
     return result
 
@@ -188,6 +238,8 @@ def _numeric_key(time: sympy.Expr, ordering: Mapping | None) -> sympy.Expr:
 def order_times(times, ordering: Mapping | None = None) -> list[sympy.Expr]:
     """Breakpoints sorted exactly; with symbols, by their signs when sympy can tell, else by
     the declared values (the sheet states that the order assumed is the one of the values)."""
+    if all(not time.free_symbols for time in times):
+        return sorted(times, key=lambda time: sympy.N(time, 40) if not time.is_Rational else time)
     remaining = list(times)
     ordered: list[sympy.Expr] = []
     while remaining:

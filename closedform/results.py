@@ -15,7 +15,7 @@ import numpy
 import sympy
 
 from .basis import ExponentialPolynomial, NumericExponentialPolynomial
-from .response import coefficient_policy, load_pieces
+from .response import load_pieces
 
 DIGITS = 30
 GRID_PER_SCALE = 64          # grid points per shortest period or decay time
@@ -41,15 +41,17 @@ class Interval:
     function: NumericExponentialPolynomial
 
 
-def numeric_intervals(locals_: Sequence[ExponentialPolynomial], starts: Sequence[sympy.Expr],
-                      until: sympy.Expr, substitutions: Mapping | None = None) -> list[Interval]:
+def numeric_intervals(locals_: Sequence[ExponentialPolynomial | NumericExponentialPolynomial],
+                      starts: Sequence[sympy.Expr], until: sympy.Expr,
+                      substitutions: Mapping | None = None) -> list[Interval]:
+    """Pieces as numeric functions on [start, end] (the last one ends at ``until``)."""
     subs = dict(substitutions or {})
     with mpmath.workdps(DIGITS + 10):
         numeric_starts = [mpmath.mpf(str(sympy.N(sympy.sympify(a).subs(subs), DIGITS + 10)))
                           for a in starts]
         end = mpmath.mpf(str(sympy.N(sympy.sympify(until).subs(subs), DIGITS + 10)))
     bounds = numeric_starts[1:] + [end]
-    return [Interval(a, b, f.numeric(subs, DIGITS))
+    return [Interval(a, b, f if isinstance(f, NumericExponentialPolynomial) else f.numeric(subs, DIGITS))
             for a, b, f in zip(numeric_starts, bounds, locals_)]
 
 
@@ -64,16 +66,11 @@ def stationary_points(function: NumericExponentialPolynomial, length: mpmath.mpf
     grid = numpy.linspace(0.0, float(length), count + 1)
     with numpy.errstate(over="ignore", invalid="ignore"):
         values = derivative.evaluate_float(grid)
-    roots = []
-    signs = numpy.sign(values)
-    for i in range(count):
-        if not numpy.isfinite(values[i]) or not numpy.isfinite(values[i + 1]):
-            continue
-        if signs[i] == 0 and 0 < i:
-            roots.append(mpmath.mpf(grid[i]))
-        elif signs[i] * signs[i + 1] < 0:
-            roots.append(_refine(derivative, mpmath.mpf(grid[i]), mpmath.mpf(grid[i + 1])))
-    return [r for r in roots if 0 < r < length]
+    signs = numpy.where(numpy.isfinite(values), numpy.sign(values), 0.0)
+    roots = [mpmath.mpf(grid[i]) for i in numpy.nonzero(signs[1:-1] == 0)[0] + 1]
+    for i in numpy.nonzero(signs[:-1] * signs[1:] < 0)[0]:
+        roots.append(_refine(derivative, mpmath.mpf(grid[i]), mpmath.mpf(grid[i + 1])))
+    return sorted(r for r in roots if 0 < r < length)
 
 
 def _refine(function: NumericExponentialPolynomial, low, high):
@@ -141,9 +138,10 @@ def evaluate_results(case, model, history, solution, window) -> Results:
         return Results(None, None, None, None)
     values = case.symbol_values()
     starts = [piece.start for piece in solution.pieces]
-    intervals = numeric_intervals([p.local for p in solution.pieces], starts, window.until, values)
+    intervals = numeric_intervals([p.numeric or p.local for p in solution.pieces], starts,
+                                  window.until, values)
     peak = extreme_magnitude(intervals)
-    load_locals = load_pieces(history, starts, coefficient_policy(solution.exact))
+    load_locals = load_pieces(history, starts, exact=solution.exact)
     largest = extreme_magnitude(numeric_intervals(load_locals, starts, window.until, values))
     static = None
     gain = model.static_gain()

@@ -8,8 +8,8 @@ possible and cheap, with the damping regime named for second-order models.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Mapping
 
 import sympy
 
@@ -150,23 +150,11 @@ def _second_order_poles(coefficients, system: SystemSpec, values: dict,
         if a0 == 0:
             return (Pole(sympy.S.Zero, sympy.S.Zero, 2),), "rigid-body", True, ""
         return (Pole(sympy.S.Zero, sympy.simplify(sympy.sqrt(a0 / a2))),), "undamped", True, ""
+    ratio = system.parameters.get("damping_ratio")
+    if ratio is not None and system.model in ("spring-mass-damper", "base-excitation"):
+        return _poles_from_damping_ratio(ratio, sympy.sqrt(a0 / a2), system, values, key_prefix)
     discriminant = sympy.factor(sympy.simplify(a1**2 - 4 * a2 * a0))
-    regime = _regime_from_sign(discriminant)
-    note = ""
-    if regime is None and values:
-        regime = _regime_from_sign(discriminant.subs(values))
-        if regime is not None:
-            note = (f"{regime}: decided from the declared symbol values; the formulas hold "
-                    "only while the symbols keep that regime")
-    if regime is None:
-        regime = system.regime
-        if regime is None:
-            raise CaseError("the damping regime cannot be decided from the declared symbols "
-                            "(expected regime = \"under-damped\", \"critically-damped\" or "
-                            "\"over-damped\" under [system])", key=f"{key_prefix}.regime")
-    elif system.regime is not None and system.regime != regime:
-        raise CaseError(f"the stated regime '{system.regime}' contradicts the parameters, "
-                        f"which give '{regime}'", key=f"{key_prefix}.regime")
+    regime, note = _decide_regime(discriminant, system, values, key_prefix)
     if regime == "undamped":
         raise CaseError("regime 'undamped' needs zero damping", key=f"{key_prefix}.regime")
     if regime == "critically-damped":
@@ -178,6 +166,44 @@ def _second_order_poles(coefficients, system: SystemSpec, values: dict,
     root = sympy.simplify(root)
     return (Pole(sympy.simplify(centre - root), sympy.S.Zero),
             Pole(sympy.simplify(centre + root), sympy.S.Zero)), regime, True, note
+
+
+def _poles_from_damping_ratio(ratio: sympy.Expr, natural: sympy.Expr, system: SystemSpec,
+                              values: dict, key_prefix: str
+                              ) -> tuple[tuple[Pole, ...], str, bool, str]:
+    """Poles −ζω_n ± ω_n√(ζ² − 1), the classical form when the damping ratio is given."""
+    regime, note = _decide_regime(ratio - 1, system, values, key_prefix)
+    if regime == "critically-damped":
+        return (Pole(-natural, sympy.S.Zero, 2),), regime, True, note
+    if regime == "under-damped":
+        return (Pole(-ratio * natural, natural * sympy.sqrt(1 - ratio**2)),), regime, True, note
+    spread = natural * sympy.sqrt(ratio**2 - 1)
+    return (Pole(-ratio * natural - spread, sympy.S.Zero),
+            Pole(-ratio * natural + spread, sympy.S.Zero)), regime, True, note
+
+
+def _decide_regime(sign_of: sympy.Expr, system: SystemSpec, values: dict,
+                   key_prefix: str) -> tuple[str, str]:
+    """The regime from the sign of ζ − 1 (or of the discriminant): from the symbols if
+    possible, else from their declared values, else as stated in the case."""
+    note = ""
+    regime = _regime_from_sign(sign_of)
+    if regime is None and values:
+        regime = _regime_from_sign(sign_of.subs(values))
+        if regime is not None:
+            note = (f"{regime}: decided from the declared symbol values; the formulas hold "
+                    "only while the symbols keep that regime")
+    if regime is None:
+        regime = system.regime
+        if regime is None:
+            raise CaseError("the damping regime cannot be decided from the declared symbols "
+                            "(expected regime = \"under-damped\", \"critically-damped\" or "
+                            "\"over-damped\" under [system])", key=f"{key_prefix}.regime")
+        note = f"{regime}: as stated in the case; the formulas hold only in that regime"
+    elif system.regime is not None and system.regime != regime:
+        raise CaseError(f"the stated regime '{system.regime}' contradicts the parameters, "
+                        f"which give '{regime}'", key=f"{key_prefix}.regime")
+    return regime, note
 
 
 def _tidy_root(value: sympy.Expr) -> sympy.Expr:
