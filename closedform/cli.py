@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import json
 import os
 import sys
 import tempfile
@@ -11,6 +12,7 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
+from .budget import DEFAULT_SECONDS
 from .errors import CaseError, ClosedformError
 
 # Commands that live in modules of their own; each module has register(commands), which
@@ -49,14 +51,20 @@ def _parser() -> argparse.ArgumentParser:
     parser.add_argument("--version", action="version", version=f"closedform {__version__}")
     commands = parser.add_subparsers(dest="command", required=True)
 
-    derive = commands.add_parser("derive", help="derive the response of one case")
-    derive.add_argument("case", type=Path, help="the case file (TOML)")
+    derive = commands.add_parser("derive", help="derive the response of one or more cases")
+    derive.add_argument("cases", type=Path, nargs="+", metavar="CASE",
+                        help="case files (TOML) or folders holding them")
     derive.add_argument("-o", "--output", type=Path, help="folder for the sheet files")
     derive.add_argument("--format", default="md,json",
                         help=f"comma-separated output formats ({', '.join(output_formats())}); "
                              "default md,json")
     derive.add_argument("--json", dest="json_target", metavar="-",
-                        help="print the JSON result on standard output ('-')")
+                        help="print the JSON result on standard output ('-'); several cases "
+                             "give a JSON array")
+    derive.add_argument("--time-budget", type=float, default=DEFAULT_SECONDS, metavar="SECONDS",
+                        help=f"stop a case whose derivation runs longer (default {DEFAULT_SECONDS:g})")
+    derive.add_argument("--jobs", type=int, default=None,
+                        help="processes for several cases (default: all cores)")
     derive.set_defaults(run=run_derive)
     for module in COMMAND_MODULES:
         importlib.import_module(module).register(commands)
@@ -79,34 +87,33 @@ def parse_formats(text: str) -> list[str]:
 
 
 def run_derive(arguments: argparse.Namespace) -> int:
-    from .case import load_case
-    from .derivation import derive
+    from .batch import case_paths, require_cases, run_cases, worst_exit_code
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
-    formats = parse_formats(arguments.format)
-    case = load_case(arguments.case)
-    derivation = derive(case)
+    if arguments.time_budget is not None and not arguments.time_budget > 0:
+        raise CaseError("--time-budget must be a positive number of seconds", file="--time-budget")
+    if arguments.jobs is not None and arguments.jobs < 1:
+        raise CaseError("--jobs must be at least 1", file="--jobs")
+    formats = parse_formats(arguments.format) if arguments.output is not None else []
+    paths = case_paths(arguments.cases)
+    require_cases(paths)
+    outcomes = run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs)
+    for outcome in outcomes:
+        if outcome.result is None:
+            print(outcome.message, file=sys.stderr)
+        elif arguments.json_target is None:
+            print(outcome.message)
+        if arguments.output is not None and outcome.contents:
+            write_atomically(arguments.output, outcome.contents)
     if arguments.json_target == "-":
-        sys.stdout.write(derivation.to_json() + "\n")
-    if arguments.output is not None:
-        write_outputs(derivation, arguments.output, formats)
-    if arguments.json_target is None and arguments.output is None:
-        print(summary_line(derivation))
-    return 0 if derivation.passed else 1
-
-
-def summary_line(derivation) -> str:
-    results = derivation.results
-    parts = [f"{derivation.case.source}: {derivation.status.upper()}"]
-    if results.peak is not None:
-        parts.append(f"peak {results.peak.value:.6g} at t = {results.peak.time:.6g} s")
-    if results.dlf is not None:
-        parts.append(f"DLF {results.dlf:.4g}")
-    failed = [c.name for c in derivation.checks if not c.passed]
-    if failed:
-        parts.append(f"failed checks: {', '.join(failed)}")
-    return "; ".join(parts)
+        results = [o.result for o in outcomes if o.result is not None]
+        if len(paths) == 1:
+            if results:
+                sys.stdout.write(json.dumps(results[0], indent=2) + "\n")
+        else:
+            sys.stdout.write(json.dumps(results, indent=2) + "\n")
+    return worst_exit_code(outcomes)
 
 
 def write_outputs(derivation, folder: Path, formats: Sequence[str]) -> list[Path]:

@@ -90,18 +90,33 @@ def analysis_window(case: Case, model: LinearModel) -> Window:
                   "natural period or time constant")
 
 
-def derive(case: Case) -> Derivation:
-    """Derive, evaluate and check the response of one case."""
-    model = build_model(case.system, case.symbol_values())
-    history = rewrite_loads(case.loads)
-    window = analysis_window(case, model)
-    values = case.symbol_values()
-    breakpoints = {term.at for term in history.terms} | {i.at for i in history.impulses}
-    exact = case.is_symbolic or (len(breakpoints) <= EXACT_BREAKPOINT_LIMIT and model.exact_poles)
-    solution = solve(model, history, case.initial, window.until, exact=exact, ordering=values)
-    results = evaluate_results(case, model, history, solution, window)
-    partial = Derivation(case, model, history, window, solution, results, ())
-    return Derivation(case, model, history, window, solution, results, tuple(verify(partial)))
+def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
+    """Derive, evaluate and check the response of one case.
+
+    ``time_budget`` (seconds) bounds the whole derivation; past it a TimeBudgetExceeded
+    names the stage that was running.
+    """
+    from .budget import time_budget as budget_for
+
+    with budget_for(time_budget, case.source) as budget:
+        with budget.stage("model and poles"):
+            model = build_model(case.system, case.symbol_values())
+        with budget.stage("load rewrite"):
+            history = rewrite_loads(case.loads)
+            window = analysis_window(case, model)
+        values = case.symbol_values()
+        breakpoints = {term.at for term in history.terms} | {i.at for i in history.impulses}
+        exact = case.is_symbolic or (len(breakpoints) <= EXACT_BREAKPOINT_LIMIT
+                                     and model.exact_poles)
+        with budget.stage("Laplace transform, partial fractions and assembly"):
+            solution = solve(model, history, case.initial, window.until, exact=exact,
+                             ordering=values)
+        with budget.stage("results"):
+            results = evaluate_results(case, model, history, solution, window)
+        partial = Derivation(case, model, history, window, solution, results, ())
+        with budget.stage("verification"):
+            checks = tuple(verify(partial))
+    return Derivation(case, model, history, window, solution, results, checks)
 
 
 def _time_value(value: sympy.Expr | None, values: dict) -> float | str | None:

@@ -9,9 +9,9 @@ the table read backwards and the shift theorem. Each step is recorded with its s
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 from math import comb, factorial
-from typing import Sequence
 
 import sympy
 
@@ -76,7 +76,7 @@ class RationalTransform:
         denominator = self.lead * sympy.Mul(*[p.factor() ** p.multiplicity for p in self.poles])
         return self.numerator / denominator
 
-    def divided_by(self, lead: sympy.Expr, poles: Sequence[Pole]) -> "RationalTransform":
+    def divided_by(self, lead: sympy.Expr, poles: Sequence[Pole]) -> RationalTransform:
         """This transform over a characteristic polynomial lead·Π(pole factors)."""
         return RationalTransform(self.numerator, merge_poles(self.poles, tuple(poles)),
                                  self.lead * lead)
