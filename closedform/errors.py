@@ -35,7 +35,7 @@ class CaseError(ValueError, ClosedformError):
         self.line = line
 
     def located(self, *, file: str | None = None, key: str | None = None,
-                line: int | None = None) -> "CaseError":
+                line: int | None = None) -> CaseError:
         """The same error with the missing location parts filled in."""
         return CaseError(self.message, file=self.file or file, key=self.key or key,
                          line=self.line if self.line is not None else line)
