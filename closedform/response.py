@@ -17,7 +17,7 @@ from dataclasses import dataclass
 import sympy
 
 from .basis import ExponentialPolynomial, Mode, NumericCarrier, NumericExponentialPolynomial
-from .errors import CaseError
+from .errors import CaseError, DerivationError
 from .laplace import (
     SOURCES,
     Inversion,
@@ -140,8 +140,9 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
             mode_transform, pair = transform_of_mode(term.mode)
             scaled = RationalTransform(mode_transform.numerator * model.input_scale,
                                        mode_transform.poles)
-            kernels[term.mode] = Kernel(pair.name, term.mode, pair,
-                                        invert(scaled.divided_by(lead, model.poles)))
+            over_system = scaled.divided_by(lead, model.poles)
+            _refuse_resonance_hidden_by_symbols(over_system, ordering)
+            kernels[term.mode] = Kernel(pair.name, term.mode, pair, invert(over_system))
     if history.impulses:
         pair = TablePair("unit impulse", sympy.DiracDelta(sympy.Symbol("u")), sympy.S.One,
                          SOURCES["impulse"])
@@ -163,6 +164,25 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
         pieces = _carry_numeric(times, events, kernels, free)
     return Solution(transform, load_transform, q, free, tuple(kernels.values()),
                     tuple(pieces), exact)
+
+
+def _refuse_resonance_hidden_by_symbols(transform: RationalTransform,
+                                        values: Mapping | None) -> None:
+    """A symbolic formula is singular where the declared values make a load pole equal a
+    system pole that the symbols keep apart; say so instead of dividing by zero."""
+    if not values:
+        return
+    poles = [p for p in transform.poles if p.rate.free_symbols or p.frequency.free_symbols]
+    if not poles:
+        return
+    for i, first in enumerate(transform.poles):
+        for second in transform.poles[i + 1:]:
+            if all(sympy.N((a - b).subs(values), 30) == 0 for a, b in
+                   ((first.rate, second.rate), (first.frequency, second.frequency))):
+                raise DerivationError(
+                    "the declared symbol values put a load frequency exactly on a natural "
+                    "frequency, where the symbolic formula has a removable singularity; give "
+                    "these quantities as numbers to obtain the resonant closed form")
 
 
 def _carry_exact(times, events, kernels, free, tidy) -> list[Piece]:

@@ -112,17 +112,18 @@ def test_half_sine_at_the_natural_period_gives_dlf_pi_over_two():
     spectrum; from memory)."""
     derivation = derive_text("""
         title = "resonant half-sine"
-        [symbols]
-        w = { unit = "1/s", value = "40 1/s" }
         [system]
         model = "spring-mass-damper"
         mass = "2 kg"
-        stiffness = "2*w^2 kg"
+        stiffness = "3200 N/m"
         [[load]]
         shape = "half-sine"
-        duration = "pi/w"
+        duration = "pi/40 s"
         amplitude = "1 kN"
         [report]
-        until = "6*pi/w"
+        until = "pi/5 s"
         """)
+    assert derivation.model.poles[0].frequency == 40
+    kernel = next(k for k in derivation.solution.kernels if k.mode is not None)
+    assert kernel.inversion.transform.poles[0].multiplicity == 2   # merged: exact resonance
     assert derivation.results.dlf == pytest.approx(math.pi / 2, rel=1e-10)
