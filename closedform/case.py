@@ -198,6 +198,16 @@ def load_case_text(text: str, name: str = "<string>") -> Case:
     return load_case("", text=text, name=name)
 
 
+def quantity_reader(case: Case) -> _Reader:
+    """A reader that understands the case's declared symbols, for values read later
+    (claims, say); its ``quantity(value, dimension, key)`` gives exact SI."""
+    reader = _Reader(case.source, "", Path.cwd())
+    for declaration in case.symbols:
+        reader.names[declaration.name] = declaration.symbol
+        reader.name_dimensions[declaration.name] = declaration.dimension
+    return reader
+
+
 def _parse(text: str, file: str, folder: Path, digest: str) -> Case:
     if "\x00" in text:
         raise CaseError("the case file contains a NUL byte", file=file)

@@ -17,7 +17,7 @@ from .errors import CaseError, ClosedformError
 
 # Commands that live in modules of their own; each module has register(commands), which
 # adds its sub-parser with set_defaults(run=function returning the exit code).
-COMMAND_MODULES: tuple[str, ...] = ()
+COMMAND_MODULES: tuple[str, ...] = ("closedform.audit",)
 
 
 def main(argv: Sequence[str] | None = None) -> int:

@@ -12,8 +12,7 @@ import sympy
 
 from closedform.response import t
 
-from .conftest import case_from, derive_text
-import closedform
+from .conftest import derive_text
 
 
 def smd(mass: str, stiffness: str, extra: str, loads: str, until: str) -> str:
