@@ -26,6 +26,7 @@ class CaseOutcome:
     message: str
     contents: dict[str, str | bytes] = field(default_factory=dict)
     result: dict | None = None        # the JSON result (None when the case was unusable)
+    warnings: tuple[str, ...] = ()
 
 
 def case_paths(arguments: Sequence[Path]) -> list[Path]:
@@ -57,7 +58,7 @@ def run_case(path: str, formats: Sequence[str], time_budget: float | None,
         contents = (renderer or render_outputs)(derivation, formats, stem) if formats else {}
         message = summary_line(derivation)
         return CaseOutcome(path, 0 if derivation.passed else 1, message, contents,
-                           derivation.to_dict())
+                           derivation.to_dict(), derivation.warnings)
     except ClosedformError as error:
         return CaseOutcome(path, error.exit_code, error.show())
     except RecursionError:

@@ -100,6 +100,8 @@ def run_derive(arguments: argparse.Namespace) -> int:
     require_cases(paths)
     outcomes = run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs)
     for outcome in outcomes:
+        for warning in outcome.warnings:
+            print(f"warning: {warning}", file=sys.stderr)
         if outcome.result is None:
             print(outcome.message, file=sys.stderr)
         elif arguments.json_target is None:

@@ -42,6 +42,7 @@ class Derivation:
     solution: Solution
     results: Results
     checks: tuple[Check, ...]
+    warnings: tuple[str, ...] = ()
 
     @property
     def pieces(self):
@@ -116,7 +117,23 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
         partial = Derivation(case, model, history, window, solution, results, ())
         with budget.stage("verification"):
             checks = tuple(verify(partial))
-    return Derivation(case, model, history, window, solution, results, checks)
+    return Derivation(case, model, history, window, solution, results, checks,
+                      window_warnings(case, window))
+
+
+def window_warnings(case: Case, window: Window) -> tuple[str, ...]:
+    """Loads that never act inside the analysis window (a warning, not an error)."""
+    values = case.symbol_values()
+    warnings = []
+    for load in case.loads:
+        first = load.starts()[0]
+        late = sympy.simplify(first - window.until)
+        if late.free_symbols and values:
+            late = late.subs(values)
+        if late.is_nonnegative:
+            warnings.append(f"{case.source}: {load.key}: starts at or after the end of the "
+                            "analysis window and does not act on it")
+    return tuple(warnings)
 
 
 def _time_value(value: sympy.Expr | None, values: dict) -> float | str | None:
@@ -157,6 +174,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "static": results.static,
         "dlf": results.dlf,
         **result_fields(results),
+        "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
                    for c in derivation.checks],
     }
