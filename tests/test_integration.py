@@ -189,7 +189,7 @@ def integrated_peak(segments):
         i = int(np.argmax(np.abs(values)))
         left, right = grid[max(i - 1, 0)], grid[min(i + 1, len(grid) - 1)]
         sign = 1 if values[i] >= 0 else -1
-        refined = minimize_scalar(lambda t: -sign * sol(t)[0], bounds=(left, right),
+        refined = minimize_scalar(lambda t, sign=sign, sol=sol: -sign * sol(t)[0], bounds=(left, right),
                                   method="bounded", options={"xatol": 1e-14})
         candidate = max(abs(values[i]), abs(sol(refined.x)[0]))
         if candidate > abs(best[0]):
