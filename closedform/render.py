@@ -1,21 +1,42 @@
-"""Rendering: the derivation sheet from the Derivation's data and trace (Jinja2).
+"""Rendering: derivation sheets in Markdown, LaTeX and PDF, with plots, JSON and CSV.
 
-Nothing is derived here: expressions are only typeset (sympy.latex) and numbers formatted.
+The sheet is rendered from the Derivation's data and trace; nothing is derived here.
+Expressions are only typeset (``sympy.latex``, with long sums broken into lines), numbers
+formatted, and values converted to the units the case asks for under ``[report] units``.
+
+Two Jinja2 environments come from :func:`make_environment`: ``"tex"`` with LaTeX-safe
+delimiters (``((* block *))``, ``((( value )))``, ``((= comment =))``) and ``"md"`` with
+Jinja's usual ones. Both have a ``finalize`` that escapes every plain string for their
+target, while :class:`Math` strings (trusted LaTeX from ``sympy.latex`` and this module's
+own typesetting) pass through unchanged. A template therefore cannot print user text
+unescaped by accident.
+
+Sheets are reproducible byte for byte: no dates, no absolute paths (the case file is shown
+by its name only), fixed number formats and plot settings.
 """
 
 from __future__ import annotations
 
-from functools import cache
+import functools
+import os
+import re
+import shutil
+import subprocess
+import tempfile
+import unicodedata
+from collections.abc import Callable, Iterable, Mapping, Sequence
+from dataclasses import dataclass
+from pathlib import Path
 from typing import Any
 
 import jinja2
+import mpmath
 import sympy
 
-from . import __version__
-from .laplace import s
-from .response import t
+from . import __version__, plots, quantities
+from .errors import CaseError, ClosedformError
 
-FORMATS = ("md", "json")
+FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
 
 CAUTION = ("This sheet supports, and does not replace, review by a qualified engineer "
            "under the applicable codes and local practice.")
@@ -30,119 +51,1197 @@ ASSUMPTIONS = {
     "first-order": ["linear first-order lag with constant time constant and gain"],
     "series-rlc": ["linear, lumped, time-invariant R, L and C in series",
                    "ideal voltage source; v is the capacitor voltage"],
-    "ode": ["linear ordinary differential equation with constant coefficients"],
+    "ode": ["linear ordinary differential equation with constant coefficients",
+            "coefficients, load and response in the consistent units the case gives"],
 }
+COMMON_ASSUMPTIONS = ["parameters constant in time; loads exactly as given in the case file",
+                      "the results hold on the analysis window stated with them"]
+
+DISPLAY_DIGITS = 10        # significant digits shown for coefficients carried as floats
+REPORT_DIGITS = 6          # significant digits of reported numbers and converted pieces
+LINE_WIDTH = 64            # rough width of one line of display math, in visible characters
+TERMS_INLINE = 4           # load terms written out as a sum up to this many; a table beyond
+CSV_POINTS = 1000          # intervals of the CSV time grid
+
+LESS = {True: r"\le", False: "<"}
+DERIVATIVE_MARKS = {0: "{v}", 1: r"\dot{{{v}}}", 2: r"\ddot{{{v}}}"}
+PARAMETER_SYMBOLS = {"mass": "m", "stiffness": "k", "damping": "c", "damping_ratio": r"\zeta",
+                     "time_constant": r"\tau", "gain": "K", "inductance": "L",
+                     "resistance": "R", "capacitance": "C"}
+PARAMETER_DIMENSIONS = {"mass": "mass", "stiffness": "stiffness", "damping": "damping",
+                        "damping_ratio": "dimensionless", "time_constant": "time",
+                        "inductance": "inductance", "resistance": "resistance",
+                        "capacitance": "capacitance"}
+LOAD_VALUE_NAMES = ("amplitude", "impulse", "rate", "duration", "peak_at", "rise", "hold", "fall")
 
 
-@cache
-def make_environment() -> jinja2.Environment:
-    return jinja2.Environment(
-        loader=jinja2.PackageLoader("closedform", "templates"),
-        autoescape=False, keep_trailing_newline=True, trim_blocks=True, lstrip_blocks=True,
-        undefined=jinja2.StrictUndefined)
+# ----------------------------------------------------------------------------- escaping
 
 
-def latex(expr: Any) -> str:
-    return sympy.latex(expr, ln_notation=True)
+class Math(str):
+    """LaTeX that is trusted (from ``sympy.latex`` or this module): printed unescaped.
+
+    Joining two Math strings with ``+`` gives Math; joining Math with a plain string gives a
+    plain string, which is escaped when printed.
+    """
+
+    __slots__ = ()
+
+    def __add__(self, other: str) -> str:
+        joined = str.__add__(self, other)
+        return Math(joined) if isinstance(other, Math) else joined
+
+    def __radd__(self, other: str) -> str:
+        joined = str.__add__(other, self)
+        return Math(joined) if isinstance(other, Math) else joined
 
 
-def number(value: float | None, digits: int = 6) -> str:
+_LATEX_SPECIAL = {
+    "\\": r"\textbackslash{}", "&": r"\&", "%": r"\%", "$": r"\$", "#": r"\#", "_": r"\_",
+    "{": r"\{", "}": r"\}", "~": r"\textasciitilde{}", "^": r"\textasciicircum{}",
+    "|": r"\textbar{}", "<": r"\textless{}", ">": r"\textgreater{}",
+}
+_MATH_CHARACTERS = {
+    "−": "-", "·": r"\cdot", "≤": r"\le", "≥": r"\ge", "→": r"\rightarrow", "←": r"\leftarrow",
+    "±": r"\pm", "×": r"\times", "÷": r"\div", "∫": r"\int", "√": r"\surd", "≡": r"\equiv",
+    "≈": r"\approx", "≠": r"\ne", "∞": r"\infty", "°": r"^\circ", "µ": r"\mu", "∑": r"\Sigma",
+    "∏": r"\Pi", "∂": r"\partial", "′": r"'", "″": r"''", "∈": r"\in", "∆": r"\Delta",
+    "Ω": r"\Omega",
+}
+_TEXT_CHARACTERS = {
+    "…": r"\ldots{}", "—": "---", "–": "--", "‘": "`", "’": "'", "“": "``", "”": "''",
+    "ß": r"\ss{}", "æ": r"\ae{}", "Æ": r"\AE{}", "ø": r"\o{}", "Ø": r"\O{}", "œ": r"\oe{}",
+    "Œ": r"\OE{}", "ł": r"\l{}", "Ł": r"\L{}", "å": r"\aa{}", "Å": r"\AA{}", "ı": r"\i{}",
+    "\u00a0": "~", "\u2009": r"\,", "\u202f": r"\,",
+}
+_SUPERSCRIPTS = dict(zip("⁰¹²³⁴⁵⁶⁷⁸⁹⁺⁻⁼⁽⁾ⁿⁱʰ", "0123456789+-=()nih"))
+_SUBSCRIPTS = dict(zip("₀₁₂₃₄₅₆₇₈₉₊₋₌₍₎ᵢⱼₙ", "0123456789+-=()ijn"))
+_ACCENTS = {"\u0300": "`", "\u0301": "'", "\u0302": "^", "\u0303": "~", "\u0304": "=",
+            "\u0306": "u", "\u0307": ".", "\u0308": '"', "\u030a": "r", "\u030b": "H",
+            "\u030c": "v", "\u0327": "c", "\u0328": "k"}
+_GREEK_CAPITALS = {"GAMMA", "DELTA", "THETA", "LAMDA", "XI", "PI", "SIGMA", "UPSILON", "PHI",
+                   "PSI", "OMEGA"}
+
+
+def _latex_character(character: str) -> str:
+    """One non-ASCII character for pdfLaTeX with its default fonts (no extra packages)."""
+    if character in _TEXT_CHARACTERS:
+        return _TEXT_CHARACTERS[character]
+    if character in _MATH_CHARACTERS:
+        return r"\ensuremath{" + _MATH_CHARACTERS[character] + "}"
+    if character in _SUPERSCRIPTS:
+        return r"\ensuremath{^{" + _SUPERSCRIPTS[character] + "}}"
+    if character in _SUBSCRIPTS:
+        return r"\ensuremath{_{" + _SUBSCRIPTS[character] + "}}"
+    name = unicodedata.name(character, "")
+    if name.startswith("GREEK "):
+        letter = name.split()[-1]
+        small = " SMALL " in name
+        if letter == "LAMDA":
+            letter = "LAMBDA"
+        if "FINAL" in name:
+            return r"\ensuremath{\varsigma}"
+        if small and letter != "OMICRON":
+            return "\\ensuremath{\\" + letter.lower() + "}"
+        if not small and name.split()[-1] in _GREEK_CAPITALS:
+            return "\\ensuremath{\\" + letter.capitalize() + "}"
+    decomposed = unicodedata.normalize("NFD", character)
+    if len(decomposed) >= 2 and decomposed[0].isascii() and decomposed[0].isalpha() \
+            and all(mark in _ACCENTS for mark in decomposed[1:]):
+        text = decomposed[0] if decomposed[0] not in "ij" or len(decomposed) == 1 \
+            else "\\" + decomposed[0]
+        for mark in decomposed[1:]:
+            text = "\\" + _ACCENTS[mark] + "{" + text + "}"
+        return text
+    return rf"\texttt{{[U+{ord(character):04X}]}}"
+
+
+def latex_escape(text: str) -> str:
+    """Plain text made safe for LaTeX: every special character and non-ASCII character
+    becomes a command pdfLaTeX prints as that character; line breaks become spaces."""
+    out = []
+    for i, character in enumerate(str(text)):
+        if character in _LATEX_SPECIAL:
+            out.append(_LATEX_SPECIAL[character])
+        elif character in "\n\r\t":
+            out.append(" ")
+        elif ord(character) < 32 or ord(character) == 127:
+            continue
+        elif character == "-" and text[i + 1:i + 2] == "-":
+            out.append("-{}")       # no en/em-dash ligature from the user's "--"
+        elif character.isascii():
+            out.append(character)
+        else:
+            out.append(_latex_character(character))
+    return "".join(out)
+
+
+_MARKDOWN_SPECIAL = set("\\`*_[]<>|$#~")
+
+
+def markdown_escape(text: str) -> str:
+    """Plain text made safe for Markdown: no emphasis, links, HTML, math or table breaks."""
+    out = []
+    for character in str(text):
+        if character in _MARKDOWN_SPECIAL:
+            out.append("\\" + character)
+        elif character in "\n\r\t":
+            out.append(" ")
+        elif ord(character) < 32 or ord(character) == 127:
+            continue
+        else:
+            out.append(character)
+    return "".join(out)
+
+
+def _finalizer(escape: Callable[[str], str]) -> Callable[[Any], str]:
+    def finalize(value: Any) -> str:
+        if isinstance(value, Math):
+            return str(value)
+        if isinstance(value, str):
+            return escape(value)
+        if isinstance(value, bool):
+            raise TypeError("a template printed a boolean; say what it means in words")
+        if isinstance(value, int):
+            return str(value)
+        if value is None:
+            return "—" if escape is markdown_escape else "---"
+        raise TypeError(f"a template printed a {type(value).__name__}; format it first "
+                        "(render.number, render.typeset)")
+    return finalize
+
+
+@functools.cache
+def make_environment(target: str = "tex") -> jinja2.Environment:
+    """The Jinja2 environment for ``"tex"`` (LaTeX-safe delimiters) or ``"md"`` templates.
+
+    Templates are loaded from the package (they travel inside the wheel).
+    """
+    common = {"loader": jinja2.PackageLoader("closedform", "templates"), "autoescape": False,
+              "keep_trailing_newline": True, "trim_blocks": True, "lstrip_blocks": True,
+              "undefined": jinja2.StrictUndefined}
+    if target == "tex":
+        environment = jinja2.Environment(
+            block_start_string=r"((*", block_end_string=r"*))",
+            variable_start_string=r"(((", variable_end_string=r")))",
+            comment_start_string=r"((=", comment_end_string=r"=))",
+            finalize=_finalizer(latex_escape), **common)
+        environment.filters["equation"] = _latex_equation
+    elif target == "md":
+        environment = jinja2.Environment(finalize=_finalizer(markdown_escape), **common)
+        environment.filters["equation"] = _markdown_equation
+    else:
+        raise ValueError(f"unknown template target {target!r} (expected 'tex' or 'md')")
+    return environment
+
+
+def _markdown_equation(equation: Display) -> Math:
+    """A displayed equation for Markdown viewers: $$ … $$, long ones as aligned lines."""
+    if not isinstance(equation, Display):
+        return Math(f"$$\n{Math(equation)}\n$$")
+    note = rf" \qquad {equation.note}" if equation.note else ""
+    if equation.single:
+        return Math(f"$$\n{equation.lhs} = {equation.lines[0]}{note}\n$$")
+    rows = [f"{equation.lhs} &= {equation.lines[0]}"]
+    rows += [rf"&\quad {line}" for line in equation.lines[1:]]
+    return Math("$$\n\\begin{aligned}\n" + " \\\\\n".join(rows) + note
+                + "\n\\end{aligned}\n$$")
+
+
+def _latex_equation(equation: Display) -> Math:
+    """A displayed equation for LaTeX: equation*, long ones in align* one line per row."""
+    if not isinstance(equation, Display):
+        return Math(f"\\begin{{equation*}}\n{Math(equation)}\n\\end{{equation*}}")
+    note = rf" \qquad {equation.note}" if equation.note else ""
+    if equation.single:
+        return Math(f"\\begin{{equation*}}\n{equation.lhs} = {equation.lines[0]}{note}\n"
+                    "\\end{equation*}")
+    rows = [f"{equation.lhs} &= {equation.lines[0]}"]
+    rows += [rf"&\quad {line}" for line in equation.lines[1:]]
+    return Math("\\begin{align*}\n" + " \\\\\n".join(rows) + note + "\n\\end{align*}")
+
+
+# ----------------------------------------------------------------------------- typesetting
+
+
+def _rounded(expr: sympy.Expr, digits: int = DISPLAY_DIGITS) -> sympy.Expr:
+    """Floats shown to at most ``digits`` significant digits (never more than they carry)."""
+    floats = {f: sympy.Float(f, min(digits, mpmath.libmp.prec_to_dps(f._prec)))
+              for f in expr.atoms(sympy.Float)}
+    return expr.xreplace(floats) if floats else expr
+
+
+def typeset(expr: Any, digits: int = DISPLAY_DIGITS) -> Math:
+    """LaTeX of a sympy expression; floats carried at 30 digits are shown to ``digits``."""
+    expr = sympy.sympify(expr)
+    return Math(sympy.latex(_rounded(expr, digits), ln_notation=True))
+
+
+def inline(latex: str) -> Math:
+    return Math("$" + latex + "$")
+
+
+def number(value: float | None, digits: int = REPORT_DIGITS) -> Math | None:
+    """A float as LaTeX, ``digits`` significant digits, powers of ten written out."""
     if value is None:
-        return "—"
-    return f"{value:.{digits}g}"
+        return None
+    if value != value:
+        return Math(r"\mathrm{NaN}")
+    if value in (float("inf"), float("-inf")):
+        return Math(("-" if value < 0 else "") + r"\infty")
+    text = f"{value:.{digits}g}"
+    if text in ("-0", "0"):
+        return Math("0")
+    if "e" in text:
+        mantissa, exponent = text.split("e")
+        power = f"10^{{{int(exponent)}}}"
+        return Math(power if mantissa == "1" else
+                    ("-" + power if mantissa == "-1" else rf"{mantissa} \times {power}"))
+    return Math(text)
 
 
-def exact_time(value: sympy.Expr | None) -> str:
-    if value is None:
-        return "\\infty"
-    if value.free_symbols:
-        return latex(value)
-    return latex(value) if value.is_Rational else f"{float(sympy.N(value, 20)):.10g}"
+_UNIT_TOKEN = re.compile(r"[A-Za-z_]+|\d+(?:\.\d+)?|\S")
 
 
-def sheet_context(derivation) -> dict[str, Any]:
+def unit_latex(unit: str) -> str:
+    """A unit text such as ``"N*s/m"`` or ``"m/s^2"`` as upright LaTeX (empty for "1")."""
+    unit = unit.strip()
+    if unit in ("", "1"):
+        return ""
+    out = []
+    tokens = _UNIT_TOKEN.findall(unit)
+    i = 0
+    while i < len(tokens):
+        token = tokens[i]
+        if token == "^" or token == "**":
+            exponent = ""
+            i += 1
+            if i < len(tokens) and tokens[i] == "(":
+                while i < len(tokens) and tokens[i] != ")":
+                    exponent += tokens[i] if tokens[i] != "(" else ""
+                    i += 1
+            else:
+                while i < len(tokens) and (tokens[i] in "-+" or tokens[i][0].isdigit()):
+                    exponent += tokens[i]
+                    i += 1
+                    if exponent.lstrip("-+"):
+                        break
+                i -= 1
+            out.append("^{" + exponent + "}")
+        elif token == "*" and i + 1 < len(tokens) and tokens[i + 1] == "*":
+            tokens[i + 1] = "^"
+        elif token in ("*", "."):
+            out.append(r"\,")
+        elif token == "ohm":
+            out.append(r"\Omega")
+        elif token[0].isalpha() or token[0] == "_":
+            out.append(r"\mathrm{" + token.replace("_", r"\_") + "}")
+        elif token[0].isdigit() or token in "/()-":
+            out.append(token)
+        i += 1
+    return "".join(out)
+
+
+def with_unit(latex: str, unit: str) -> Math:
+    text = unit_latex(unit)
+    return Math(latex + (r"\," + text if text else ""))
+
+
+def _group(text: str, start: int) -> tuple[str, int]:
+    """The balanced {…} group starting at text[start] == "{", and the index after it."""
+    depth = 0
+    for i in range(start, len(text)):
+        if text[i] == "{":
+            depth += 1
+        elif text[i] == "}":
+            depth -= 1
+            if depth == 0:
+                return text[start + 1:i], i + 1
+    return text[start + 1:], len(text)
+
+
+def visible_width(latex: str) -> float:
+    """A rough width of a line of LaTeX math, in characters: a fraction counts as its wider
+    part, sub- and superscripts at two thirds, commands as one character."""
+    width = 0.0
+    i = 0
+    while i < len(latex):
+        if latex.startswith(r"\frac{", i) or latex.startswith(r"\dfrac{", i):
+            numerator, i = _group(latex, latex.index("{", i))
+            denominator, i = (_group(latex, i) if i < len(latex) and latex[i] == "{" else ("", i))
+            width += max(visible_width(numerator), visible_width(denominator)) + 0.5
+            continue
+        character = latex[i]
+        if character in "^_" and i + 1 < len(latex):
+            if latex[i + 1] == "{":
+                script, i = _group(latex, i + 1)
+            else:
+                script, i = latex[i + 1], i + 2
+            width += 0.67 * visible_width(script)
+            continue
+        if character == "\\":
+            match = re.match(r"\\([A-Za-z]+|.)", latex[i:])
+            name = match.group(1)
+            i += len(match.group(0))
+            if name in ("left", "right", "big", "Big", "mathrm", "text", "operatorname"):
+                continue
+            width += 0.3 if name in (",", ";", "!", ":") else 1.0
+            continue
+        i += 1
+        if character in "{} ":
+            continue
+        width += 1.0
+    return width
+
+
+def ordered_terms(expr: sympy.Expr) -> list[sympy.Expr]:
+    """The terms of a sum in the order sympy prints them."""
+    expr = sympy.sympify(expr)
+    return list(expr.as_ordered_terms()) if isinstance(expr, sympy.Add) else [expr]
+
+
+def join_lines(terms: Sequence[str], width: float) -> list[Math]:
+    """Typeset terms of a sum packed greedily into lines of about ``width`` characters;
+    each later line starts with its sign. A term wider than a line gets a line of its own."""
+    lines: list[str] = []
+    current = ""
+    for term in terms:
+        term = term.strip()
+        if not lines and not current:
+            current = term
+            continue
+        piece = term if term.startswith("-") else "+ " + term
+        if current and visible_width(current + piece) > width:
+            lines.append(current)
+            current = piece
+        else:
+            current = (current + " " + piece) if current else piece
+    if current or not lines:
+        lines.append(current or "0")
+    return [Math(line) for line in lines]
+
+
+@dataclass(frozen=True)
+class Display:
+    """One displayed equation ``lhs = lines[0] + lines[1] + …`` (lines already signed)."""
+
+    lhs: Math
+    lines: tuple[Math, ...]
+    note: Math | None = None
+
+    @property
+    def single(self) -> bool:
+        return len(self.lines) == 1
+
+
+def available_width(lhs: str) -> float:
+    """The width left on a line of display math after ``lhs =``."""
+    return max(LINE_WIDTH - visible_width(lhs) - 2, LINE_WIDTH / 2)
+
+
+def display(lhs: str, terms: Iterable[str], note: str | None = None) -> Display:
+    return Display(Math(lhs), tuple(join_lines(list(terms), available_width(lhs))),
+                   Math(note) if note is not None else None)
+
+
+def _trig(kind: str, frequency: sympy.Expr, u: sympy.Expr) -> sympy.Expr:
+    if frequency == 0:
+        return sympy.S.One
+    return (sympy.cos if kind == "cos" else sympy.sin)(frequency * u)
+
+
+def grouped_terms(rows: Sequence[tuple[int, sympy.Expr, sympy.Expr, str, sympy.Expr]],
+                  u: sympy.Expr, width: float = LINE_WIDTH) -> list[str]:
+    """Rows (power, rate, frequency, kind, coefficient) of an exponential polynomial as
+    typeset terms, one per decay rate and frequency, e^{σu}(A cos ωu + B sin ωu), or one
+    per row where such a group would not fit on a line."""
+    groups: dict[tuple[sympy.Expr, sympy.Expr], list] = {}
+    for row in rows:
+        groups.setdefault((row[1], row[2]), []).append(row)
+    terms: list[str] = []
+    for (rate, frequency), items in groups.items():
+        parts = [_rounded(sympy.sympify(c)) * u**power * _trig(kind, frequency, u)
+                 for power, _r, _f, kind, c in items]
+        if rate == 0:
+            terms.extend(typeset(term) for term in ordered_terms(sympy.Add(*parts)))
+            continue
+        envelope = sympy.exp(_rounded(sympy.sympify(rate)) * u)
+        inner = sympy.Add(*parts)
+        if len(ordered_terms(inner)) == 1:
+            terms.append(typeset(inner * envelope))
+            continue
+        grouped = typeset(envelope) + r" \left(" + typeset(inner) + r"\right)"
+        if visible_width(grouped) <= width:
+            terms.append(grouped)
+        else:
+            for term in ordered_terms(inner):
+                text = typeset(term)
+                sign = "- " if text.startswith("-") else ""
+                terms.append(sign + typeset(envelope) + r"\," + text.lstrip("- "))
+    return terms or ["0"]
+
+
+def polynomial_rows(polynomial) -> list[tuple[int, sympy.Expr, sympy.Expr, str, sympy.Expr]]:
+    return [(m.power, m.rate, m.frequency, m.kind, polynomial.terms[m]) for m in polynomial.modes()]
+
+
+# ----------------------------------------------------------------------------- units
+
+
+@dataclass(frozen=True)
+class DisplayUnit:
+    """A unit from ``[report] units``: the text the user wrote and its exact SI factor."""
+
+    key: str
+    text: str
+    factor: sympy.Expr
+    dimension: Any
+
+
+class Units:
+    """SI and the case's ``[report] units`` side by side, for display only."""
+
+    def __init__(self, case) -> None:
+        self.values = case.symbol_values()
+        self.units: list[DisplayUnit] = []
+        for key in sorted(case.report.units):
+            text = case.report.units[key]
+            factor, dimension = quantities.unit_factor(text, key=f"report.units.{key}")
+            self.units.append(DisplayUnit(key, text, factor, dimension))
+
+    def unit_for(self, dimension: Any, prefer: Sequence[str] = ()) -> DisplayUnit | None:
+        """The display unit for a dimension (preferring the named keys), None for SI."""
+        matching = [u for u in self.units if u.dimension == dimension]
+        for key in prefer:
+            for unit in matching:
+                if unit.key == key:
+                    return unit
+        return matching[0] if matching else None
+
+    def float(self, value: Any) -> float | None:
+        value = sympy.sympify(value).subs(self.values)
+        if value.free_symbols:
+            return None
+        return float(sympy.N(value, 30))
+
+    def show(self, value: Any, dimension: Any, prefer: Sequence[str] = (),
+             exact: bool = False) -> tuple[Math, Math | None]:
+        """(SI text, text in the report unit or None), as inline math.
+
+        ``value`` is a float or a sympy expression; ``exact`` shows the exact SI value with
+        its decimal value beside it when they differ.
+        """
+        si_unit = quantities.si_unit_text(dimension)
+        if isinstance(value, float) or value is None:
+            numeric = value
+            exact_text = None
+        else:
+            expr = sympy.sympify(value)
+            numeric = self.float(expr)
+            exact_text = typeset(expr) if ((exact and not expr.is_Integer) or numeric is None) \
+                else None
+        if numeric is None:
+            return inline(with_unit(exact_text or "", si_unit)) if exact_text else None, None
+        decimal = number(numeric)
+        if exact_text is not None and exact_text != decimal:
+            si = inline(with_unit(f"{exact_text} \\approx {decimal}", si_unit))
+        else:
+            si = inline(with_unit(decimal, si_unit))
+        unit = self.unit_for(dimension, prefer)
+        if unit is None or unit.text.strip() == si_unit:
+            return si, None
+        converted = numeric / float(sympy.N(unit.factor, 30))
+        return si, inline(with_unit(number(converted), unit.text))
+
+
+# ----------------------------------------------------------------------------- context
+
+
+def _variable_mark(variable: str, order: int) -> str:
+    if order in DERIVATIVE_MARKS:
+        return DERIVATIVE_MARKS[order].format(v=variable)
+    return f"{variable}^{{({order})}}"
+
+
+def _factor(coefficient: sympy.Expr) -> str:
+    text = typeset(coefficient)
+    return rf"\left({text}\right)" if isinstance(coefficient, sympy.Add) else text
+
+
+def _equation_with_values(model) -> Math:
+    left = []
+    for i, a in enumerate(model.coefficients):
+        order = model.order - i
+        if a == 0:
+            continue
+        mark = _variable_mark(model.variable, order)
+        left.append(mark if a == 1 else rf"{_factor(a)}\,{mark}")
+    scale = model.input_scale
+    load = rf"{model.load_name}(t)"
+    right = load if scale == 1 else (rf"-{load}" if scale == -1 else rf"{_factor(scale)}\,{load}")
+    return Math(" + ".join(left).replace("+ -", "- ") + " = " + right)
+
+
+def _exact_time(value: sympy.Expr) -> Math:
+    return typeset(value)
+
+
+def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
+                  section: int | None = None) -> dict[str, Any]:
+    """Everything a sheet template prints, formatted for ``target`` ("md" or "tex").
+
+    ``stem`` names the figure files, ``section`` numbers the case within an appendix.
+    """
+    escape = latex_escape if target == "tex" else markdown_escape
     case = derivation.case
     model = derivation.model
     solution = derivation.solution
-    variable = sympy.Function(model.variable)(t)
+    results = derivation.results
+    units = Units(case)
+    time_dimension = quantities.dimension("time")
+    response_dimension = case.system.response_dimension
+    load_dimension = case.system.load_dimension
+    stem = stem or (Path(case.source).stem or "case")
+    variable = model.variable
+    response_prefer = ("response", "displacement", "voltage", "current")
+    load_prefer = {"spring-mass-damper": ("force",), "base-excitation": ("acceleration",),
+                   "series-rlc": ("voltage",)}.get(case.system.model, ())
+    u = sympy.Symbol("u")
+    t_symbol = sympy.Symbol("t")
     local = sympy.Symbol(r"\hat{t}")
+
+    failed = [c for c in derivation.checks if not c.passed]
+    status = derivation.status
+
+    # the problem ---------------------------------------------------------------------
+    parameters = []
+    for name, value in case.system.parameters.items():
+        if name in PARAMETER_DIMENSIONS:
+            dimension = quantities.dimension(PARAMETER_DIMENSIONS[name])
+        elif name == "gain":
+            dimension = response_dimension / load_dimension
+        else:
+            dimension = quantities.dimension("dimensionless")
+        si, shown = units.show(value, dimension, exact=True)
+        symbol = PARAMETER_SYMBOLS.get(name) or re.sub(r"^a(\d)$", r"a_{\1}", name)
+        parameters.append({"name": name.replace("_", " "), "symbol": inline(symbol),
+                           "si": si, "shown": shown})
+    symbols = [{"name": inline(typeset(d.symbol)),
+                "unit": inline(unit_latex(d.unit)) if unit_latex(d.unit) else "1",
+                "value": units.show(d.value, d.dimension, exact=True)[0]
+                if d.value is not None else None}
+               for d in case.symbols]
+    initial = None
+    if case.initial is not None:
+        initial = []
+        for i, value in enumerate(case.initial):
+            si, shown = units.show(value, response_dimension / time_dimension**i,
+                                   prefer=response_prefer if i == 0 else ("velocity",),
+                                   exact=True)
+            initial.append({"name": inline(_variable_mark(variable, i) + "(0)"), "si": si,
+                            "shown": shown})
+
+    loads = []
+    for load in case.loads:
+        values = []
+        for name in LOAD_VALUE_NAMES:
+            if name not in load.values:
+                continue
+            dimension = {"amplitude": load_dimension, "impulse": load_dimension * time_dimension,
+                         "rate": load_dimension / time_dimension,
+                         "peak_at": quantities.dimension("dimensionless")}.get(name, time_dimension)
+            si, shown = units.show(load.values[name], dimension,
+                                   prefer=load_prefer if name == "amplitude" else ("time",))
+            text = f"{escape(name.replace('_', ' '))} = {si}"
+            if shown is not None:
+                text += f" ({shown})"
+            values.append(Math(text))
+        if load.shape == "table":
+            values.append(Math(escape(f"{len(load.points)} points, linear between them")))
+        if load.shape == "formula" and load.expression is not None:
+            values.append(Math(escape("f(τ) = ") + inline(typeset(load.expression))
+                               + escape(", τ = t − start")))
+        at_si, at_shown = units.show(load.at, time_dimension, prefer=("time",), exact=True)
+        repeat = None
+        if load.repeat is not None:
+            every_si, every_shown = units.show(load.repeat.every, time_dimension,
+                                               prefer=("time",), exact=True)
+            repeat = Math(f"{load.repeat.count} {escape('times, every')} "
+                          f"{every_shown or every_si}")
+        loads.append({"number": load.number, "label": load.label or None, "shape": load.shape,
+                      "at": at_shown or at_si, "given": values, "repeat": repeat})
+
+    # loads as singularity terms -------------------------------------------------------
+    rewrites = []
+    for rewrite in derivation.history.rewrites:
+        terms = []
+        for term in rewrite.terms:
+            shift = Math("t" if term.at == 0 else rf"t - {_factor(term.at)}")
+            if hasattr(term, "mode"):
+                basis = term.mode.expression(u)
+                terms.append({"at": inline(typeset(term.at)),
+                              "coefficient": inline(typeset(term.coefficient)),
+                              "basis": inline(typeset(basis)),
+                              "latex": _singularity_term(term.coefficient, term.mode.expression(
+                                  t_symbol - term.at), shift)})
+            else:
+                terms.append({"at": inline(typeset(term.at)),
+                              "coefficient": inline(typeset(term.impulse)),
+                              "basis": inline(r"\delta(u)"),
+                              "latex": _impulse_term(term.impulse, shift)})
+        load_name = model.load_name
+        rewrites.append({
+            "load": rewrite.load_number, "shape": rewrite.shape, "rule": rewrite.rule,
+            "source": rewrite.source,
+            "start": typeset(min((t.at for t in rewrite.terms), key=_sort_time(units))
+                             if rewrite.terms else 0),
+            "terms": terms,
+            "sum": display(rf"{{{load_name}}}_{{{rewrite.load_number}}}(t)",
+                           [t["latex"] for t in terms]) if len(terms) <= TERMS_INLINE else None,
+        })
+
+    # Laplace transform ------------------------------------------------------------------
+    load_transform_name = rf"\mathcal{{L}}\{{{model.load_name}\}}(s)"
+    transform_short = typeset(solution.transform)
+    transform = {
+        "polynomial": display("P(s)", [typeset(t) for t in ordered_terms(
+            model.characteristic_polynomial())]),
+        "initial": display("Q(s)", [typeset(t) for t in ordered_terms(solution.initial_numerator)]),
+        "load": display(load_transform_name, [typeset(t) for t in ordered_terms(
+            solution.load_transform)]),
+        "scale": typeset(model.input_scale),
+        "full": Display(Math("X(s)"), (transform_short,))
+        if visible_width(transform_short) <= available_width("X(s)") else None,
+        "poles": [inline(typeset(p.root())) + Math(escape(
+            (" and its conjugate" if p.is_pair else "")
+            + (f", multiplicity {p.multiplicity}" if p.multiplicity > 1 else "")))
+            for p in model.poles],
+    }
+
+    # kernels and partial fractions -------------------------------------------------------
+    kernels = []
+    kernel_names: dict[Any, str] = {}
+    for i, kernel in enumerate(solution.kernels, start=1):
+        name = "h" if kernel.mode is None else f"k_{{{i}}}"
+        kernel_names[kernel.mode] = name
+        kernels.append(_inversion_context(kernel.inversion, name, u) | {
+            "title": kernel.name,
+            "pair": (inline(typeset(kernel.pair.time_function) + r" \;\leftrightarrow\; "
+                            + typeset(kernel.pair.transform)) if kernel.pair else None),
+            "source": kernel.pair.source if kernel.pair else None,
+        })
+    free = None
+    if solution.free is not None:
+        free = _inversion_context(solution.free, variable + r"_{0}", t_symbol)
+
+    superposition = []
+    for term in derivation.history.terms:
+        superposition.append({"load": term.load_number,
+                              "coefficient": inline(typeset(term.coefficient)),
+                              "at": inline(typeset(term.at)),
+                              "kernel": inline(kernel_names.get(term.mode, "?"))})
+    for impulse in derivation.history.impulses:
+        superposition.append({"load": impulse.load_number,
+                              "coefficient": inline(typeset(impulse.impulse)),
+                              "at": inline(typeset(impulse.at)), "kernel": inline("h")})
+
+    # pieces --------------------------------------------------------------------------------
+    response_unit = units.unit_for(response_dimension, response_prefer)
+    time_unit = units.unit_for(time_dimension, ("time",))
+    converted = (case.is_fully_valued and (response_unit is not None or time_unit is not None)
+                 and (response_unit is None or response_unit.factor != 1
+                      or time_unit is not None and time_unit.factor != 1))
+    si_response_unit = quantities.si_unit_text(response_dimension)
     pieces = []
     for i, piece in enumerate(derivation.pieces, start=1):
-        pieces.append({
-            "number": i,
-            "start": exact_time(piece.start),
-            "end": exact_time(piece.end) if piece.end is not None else exact_time(derivation.window.until),
-            "local": latex(piece.local.expression(local)),
-            "shifted": piece.start != 0,
-        })
-    kernels = []
-    for kernel in solution.kernels:
-        inversion = kernel.inversion
-        kernels.append({
-            "name": kernel.name,
-            "transform": latex(inversion.transform.expression()),
-            "fractions": latex(sympy.Add(*[f.expression() for f in inversion.fractions])),
-            "time": latex(inversion.time_function.expression(sympy.Symbol("t"))),
-            "source": kernel.pair.source if kernel.pair else "",
-            "pair_time": latex(kernel.pair.time_function) if kernel.pair else "",
-            "pair_transform": latex(kernel.pair.transform) if kernel.pair else "",
-        })
-    rewrites = [{"load": r.load_number, "shape": r.shape, "rule": r.rule, "source": r.source,
-                 "terms": latex(r.expression(sympy.Symbol("t")))}
-                for r in derivation.history.rewrites]
-    results = derivation.results
-    failed = [c for c in derivation.checks if not c.passed]
+        end = piece.end if piece.end is not None else derivation.window.until
+        last = piece.end is None
+        start_si, start_shown = units.show(piece.start, time_dimension, ("time",), exact=True)
+        end_si, end_shown = units.show(end, time_dimension, ("time",), exact=True)
+        rows = polynomial_rows(piece.local)
+        shift = "t" if piece.start == 0 else rf"t - {_factor(piece.start) if not piece.start.is_Rational else typeset(piece.start)}"
+        entry = {
+            "number": i, "last": last,
+            "interval": inline(rf"{_exact_time(piece.start)} \le t {LESS[last]} "
+                               rf"{_exact_time(end)}"),
+            "interval_shown": (Math(f"{start_shown} {escape('to')} {end_shown}")
+                               if start_shown is not None and end_shown is not None else None),
+            "local": inline(rf"\hat{{t}} = {shift}"),
+            "si": display(rf"{variable}(t)", grouped_terms(rows, local,
+                                                            available_width(rf"{variable}(t)"))),
+            "shown": None,
+        }
+        if converted:
+            rf = 1 / (response_unit.factor if response_unit else sympy.S.One)
+            tf = time_unit.factor if time_unit else sympy.S.One
+            shown_rows = []
+            for power, rate, frequency, kind, coefficient in rows:
+                value = sympy.N((coefficient * rf * tf**power).subs(units.values), 20)
+                if value == 0:
+                    continue
+                shown_rows.append((power, _digits(rate * tf, units), _digits(frequency * tf, units),
+                                   kind, sympy.Float(value, REPORT_DIGITS)))
+            response_text = response_unit.text if response_unit else si_response_unit
+            time_text = time_unit.text if time_unit else "s"
+            shown_lhs = rf"{variable}(t)\,[{unit_latex(response_text) or '1'}]"
+            entry["shown"] = None if not shown_rows else display(
+                shown_lhs, grouped_terms(shown_rows, local, available_width(shown_lhs)))
+            entry["shown_time"] = inline(rf"\hat{{t}}\,[{unit_latex(time_text)}]")
+        pieces.append(entry)
+
+    # results -----------------------------------------------------------------------------
+    rows = []
+
+    def result_row(name: str, value: float | None, dimension: Any, prefer: Sequence[str] = ()):
+        if value is None:
+            rows.append({"name": name, "si": None, "shown": None})
+            return
+        si, shown = units.show(float(value), dimension, prefer)
+        rows.append({"name": name, "si": si, "shown": shown})
+
+    peak = results.peak
+    result_row(f"peak {variable} (signed, largest magnitude)",
+               peak.value if peak else None, response_dimension, response_prefer)
+    result_row("time of peak", peak.time if peak else None, time_dimension, ("time",))
+    largest = getattr(results, "largest_load", None)
+    if largest is not None and largest.value:
+        result_row("largest load", largest.value, load_dimension, load_prefer)
+    result_row("static response (largest load held steady)", results.static, response_dimension,
+               response_prefer)
+    result_row("dynamic load factor |peak| / static", results.dlf,
+               quantities.dimension("dimensionless"))
+    for key, value in _extra_fields(results).items():
+        rows.extend(_field_rows(key, value, units, escape))
+    peak_label = None
+    if peak is not None:
+        peak_si, peak_shown = units.show(float(peak.value), response_dimension, response_prefer)
+        time_si, time_shown = units.show(float(peak.time), time_dimension, ("time",))
+        peak_label = Math(f"{peak_shown or peak_si} {escape('at t =')} {time_shown or time_si}")
+
+    # figures ------------------------------------------------------------------------------
+    plotted = plots.plottable(derivation)
+    figure_suffix = "pdf" if target == "tex" else "svg"
+
     return {
-        "case": case,
+        "target": target,
+        "prefix": f"{section}." if section else "",
+        "title_number": f"{section}. " if section else "",
+        "suffix": "" if section else ".",
+        "title_prefix": "" if derivation.passed else "FAILED — do not use: ",
+        "title": case.title,
+        "reference": case.reference or None,
+        "case_file": Path(case.source).name,
+        "sha256": case.sha256 or None,
         "version": __version__,
-        "status": derivation.status,
+        "status": status,
+        "passed": derivation.passed,
         "failed": failed,
-        "checks": derivation.checks,
-        "equation": model.equation,
-        "ode": latex(sympy.Eq(sympy.Add(*[a * sympy.Derivative(variable, (t, model.order - i))
-                                          if model.order - i else a * variable
-                                          for i, a in enumerate(model.coefficients)]),
-                              model.input_scale * sympy.Function(model.load_name)(t))),
-        "parameters": [(name, latex(value)) for name, value in case.system.parameters.items()],
-        "regime": model.regime,
-        "initial": [latex(v) for v in case.initial] if case.initial is not None else None,
-        "loads": [{"number": load.number, "shape": load.shape, "at": latex(load.at),
-                   "values": ", ".join(f"{k} = {latex(v)}" for k, v in load.values.items()),
-                   "repeat": load.repeat} for load in case.loads],
+        "check_count": len(derivation.checks),
+        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+                   for c in derivation.checks],
+        "section": section,
+        "label": slug(stem),
+        "model": case.system.model,
+        "equation": Math(model.equation),
+        "equation_values": _equation_with_values(model),
+        "variable": inline(variable),
+        "variable_name": Math(variable),
+        "load_name": inline(rf"{model.load_name}(t)"),
+        "load_transform": Math(load_transform_name),
+        "regime": model.regime if model.regime != case.system.model else None,
+        "regime_note": getattr(model, "regime_note", "") or None,
+        "parameters": parameters,
+        "symbols": symbols,
+        "symbolic": case.is_symbolic,
+        "initial": initial,
+        "loads": loads,
         "rewrites": rewrites,
-        "load_total": latex(derivation.history.expression(sympy.Symbol("t"))),
-        "transform": latex(sympy.Eq(sympy.Function("X")(s), solution.transform)),
-        "initial_numerator": latex(solution.initial_numerator),
-        "polynomial": latex(model.characteristic_polynomial()),
-        "poles": [latex(p.root()) + (" (pair)" if p.is_pair else "") +
-                  (f", multiplicity {p.multiplicity}" if p.multiplicity > 1 else "")
-                  for p in model.poles],
-        "free": latex(solution.free.time_function.expression(sympy.Symbol("t")))
-        if solution.free else None,
+        "transform": transform,
         "kernels": kernels,
-        "variable": model.variable,
-        "pieces": pieces,
+        "free": free,
+        "superposition": superposition,
+        "time_shift_source": _time_shift_source(),
         "exact": solution.exact,
-        "window": exact_time(derivation.window.until),
+        "pieces": pieces,
+        "converted": converted,
+        "si_units": Math(f"{variable} {escape('in')} " + (
+            inline(unit_latex(si_response_unit)) if unit_latex(si_response_unit)
+            else escape("the case's units"))),
+        "window": units.show(derivation.window.until, time_dimension, ("time",), exact=True),
         "window_note": derivation.window.note,
-        "peak": results.peak,
-        "static": results.static,
-        "dlf": results.dlf,
-        "number": number,
-        "assumptions": ASSUMPTIONS[case.system.model],
+        "results": rows,
+        "results_available": peak is not None,
+        "static_gain": inline(rf"b/a_0 = {_factor(model.input_scale)} / "
+                              rf"{_factor(model.coefficients[-1])}"),
+        "peak_label": peak_label,
+        "figures": {"load": Math(figure_name(stem, "load", figure_suffix)),
+                    "response": Math(figure_name(stem, "response", figure_suffix))}
+        if plotted else None,
+        "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
     }
 
 
-def render_markdown(derivation) -> str:
-    return make_environment().get_template("sheet.md.j2").render(sheet_context(derivation))
+def slug(stem: str) -> str:
+    """A name safe in LaTeX labels, file names and Markdown links (letters, digits, -)."""
+    return re.sub(r"-+", "-", re.sub(r"[^A-Za-z0-9-]+", "-", stem)).strip("-") or "case"
+
+
+def figure_name(stem: str, kind: str, fmt: str) -> str:
+    """The file name of one plot of a sheet: ``<slug>-load.svg``, ``<slug>-response.pdf``."""
+    return f"{slug(stem)}-{kind}.{fmt}"
+
+
+def _digits(value: sympy.Expr, units: Units) -> sympy.Expr:
+    number_ = sympy.N(sympy.sympify(value).subs(units.values), 20)
+    return sympy.S.Zero if number_ == 0 else sympy.Float(number_, REPORT_DIGITS)
+
+
+def _sort_time(units: Units):
+    def key(value):
+        numeric = units.float(value)
+        return (0, numeric) if numeric is not None else (1, sympy.default_sort_key(value))
+    return key
+
+
+def _singularity_term(coefficient: sympy.Expr, basis: sympy.Expr, shift: str) -> str:
+    body = typeset(coefficient * basis)
+    step = rf"H\!\left({shift}\right)"
+    if body == "1":
+        return step
+    if body == "-1":
+        return "-" + step
+    return rf"{body}\,{step}"
+
+
+def _impulse_term(impulse: sympy.Expr, shift: str) -> str:
+    body = typeset(impulse)
+    delta = rf"\delta\!\left({shift}\right)"
+    return delta if body == "1" else rf"{body}\,{delta}"
+
+
+def _simple_fraction(coefficient: str, root: str, order: int) -> str:
+    if order == 1:
+        return rf"\frac{{{coefficient}}}{{s - {root}}}"
+    return rf"\frac{{{coefficient}}}{{(s - {root})^{{{order}}}}}"
+
+
+def _inversion_context(inversion, name: str, variable: sympy.Symbol) -> dict[str, Any]:
+    """One inverse transform as the sheet shows it: the rational function, its partial
+    fractions (roots, orders, coefficients) and the time function."""
+    transform_name = rf"\mathcal{{L}}\{{{name}\}}"
+    symbolic, roots = [], []
+    for index, fraction in enumerate(inversion.fractions, start=1):
+        symbolic.append(_simple_fraction(f"c_{{{index}}}", f"r_{{{index}}}", fraction.order))
+        if fraction.is_pair:
+            symbolic.append(_simple_fraction(rf"\bar{{c}}_{{{index}}}", rf"\bar{{r}}_{{{index}}}",
+                                             fraction.order))
+        real, imaginary = sympy.sympify(fraction.coefficient).as_real_imag()
+        terms = [typeset(term) for term in ordered_terms(real)] if real != 0 else []
+        terms += [typeset(sympy.I * term) for term in ordered_terms(imaginary)] if imaginary != 0 else []
+        lhs = f"c_{{{index}}}"
+        roots.append({
+            "root": inline(rf"r_{{{index}}} = {typeset(fraction.root)}"),
+            "order": fraction.order,
+            "pair": fraction.is_pair,
+            "coefficient": display(lhs, terms or ["0"]),
+        })
+    time_lhs = rf"{name}({sympy.latex(variable)})"
+    return {
+        "name": inline(name),
+        "transform": Display(Math(rf"{transform_name}(s)"),
+                             tuple(join_lines([typeset(inversion.transform.expression())],
+                                              available_width(f"{transform_name}(s)")))),
+        "fractions": display(rf"{transform_name}(s)", symbolic),
+        "roots": roots,
+        "time": display(time_lhs, grouped_terms(polynomial_rows(inversion.time_function),
+                                                variable, available_width(time_lhs))),
+    }
+
+
+def _time_shift_source() -> str:
+    from .laplace import SOURCES
+    return SOURCES.get("time shift", "")
+
+
+def _extra_fields(results) -> dict[str, Any]:
+    from .results import result_fields
+    return dict(result_fields(results))
+
+
+# Reading conventions for result fields whose exact set this module does not know: a
+# "unit" entry applies to the value-like entries beside it, "<name>_unit" to "<name>", and
+# time-like entries are in seconds. Everything else is shown as a plain number or text.
+TIME_KEYS = ("time", "after", "before", "start", "end", "duration", "centroid", "at")
+VALUE_KEYS = ("value", "amplitude")
+
+
+def _field_rows(key: str, value: Any, units: Units, escape) -> list[dict[str, Any]]:
+    """Rows of the results table for one field of ``results.result_fields``."""
+    name = key.replace("_", " ")
+    if isinstance(value, (list, tuple)) and value and all(isinstance(v, Mapping) for v in value):
+        rows = []
+        for i, item in enumerate(value, start=1):
+            label = f"{name}, load {item['load']}" if "load" in item else f"{name} {i}"
+            rest = {k: v for k, v in item.items() if k != "load"}
+            rows.append({"name": label, **_field_text(rest, units, escape)})
+        return rows
+    return [{"name": name, **_field_text(value, units, escape)}]
+
+
+def _field_text(value: Any, units: Units, escape, unit: str | None = None) -> dict[str, Any]:
+    """{"si": …, "shown": …} for a field value of any shape."""
+    if value is None:
+        return {"si": None, "shown": None}
+    if isinstance(value, bool):
+        text = Math(escape("yes" if value else "no"))
+        return {"si": text, "shown": None}
+    if isinstance(value, (int, float)):
+        return _field_number(float(value), unit, units, escape)
+    if isinstance(value, sympy.Basic):
+        return {"si": inline(typeset(value)), "shown": None}
+    if isinstance(value, Mapping):
+        own_unit = value.get("unit") if isinstance(value.get("unit"), str) else None
+        if "value" in value and "time" in value:
+            amount = _field_number(value["value"], own_unit, units, escape)
+            time = _field_number(value["time"], "s", units, escape)
+            at = Math(" " + escape("at t =") + " ")
+            return {"si": _joined(amount["si"], at, time["si"]),
+                    "shown": _joined(amount["shown"] or amount["si"], at, time["shown"] or time["si"])
+                    if amount["shown"] or time["shown"] else None}
+        si_parts, shown_parts, converted = [], [], False
+        for k, v in value.items():
+            if k == "unit" or k.endswith("_unit"):
+                continue
+            part_unit = value.get(f"{k}_unit") if isinstance(value.get(f"{k}_unit"), str) else (
+                "s" if k in TIME_KEYS else own_unit if k in VALUE_KEYS else None)
+            text = _field_text(v, units, escape, part_unit)
+            label = Math(escape(k.replace("_", " ")) + " ")
+            si_parts.append(_joined(label, text["si"] or Math(escape("—"))))
+            shown_parts.append(_joined(label, text["shown"] or text["si"] or Math(escape("—"))))
+            converted = converted or text["shown"] is not None
+        separator = Math("; ")
+        return {"si": Math(separator.join(si_parts)),
+                "shown": Math(separator.join(shown_parts)) if converted else None}
+    if isinstance(value, (list, tuple)):
+        if not value:
+            return {"si": None, "shown": None}
+        parts = [_field_text(v, units, escape)["si"] or Math(escape("—")) for v in value]
+        return {"si": Math("; ".join(parts)), "shown": None}
+    return {"si": Math(escape(str(value))), "shown": None}
+
+
+def _field_number(value: Any, unit: str | None, units: Units, escape) -> dict[str, Any]:
+    if value is None:
+        return {"si": None, "shown": None}
+    if isinstance(value, str):
+        return {"si": Math(escape(value)), "shown": None}
+    if unit is None:
+        return {"si": inline(number(float(value))), "shown": None}
+    try:
+        factor, dimension = quantities.unit_factor(unit, key=None)
+    except ClosedformError:
+        return {"si": Math(inline(number(float(value))) + escape(" " + unit)), "shown": None}
+    si, shown = units.show(float(value) * float(sympy.N(factor, 30)), dimension,
+                           prefer=("time",) if dimension == quantities.dimension("time") else ())
+    return {"si": si, "shown": shown}
+
+
+def _joined(*parts: Math | None) -> Math:
+    return Math("".join(str(p) for p in parts if p is not None))
+
+
+# ----------------------------------------------------------------------------- rendering
+
+
+def render_markdown(derivation, *, stem: str | None = None, section: int | None = None,
+                    level: int = 1) -> str:
+    """The sheet as Markdown with $…$ / $$…$$ math; figures are referenced as SVG files
+    named after ``stem``. ``section`` and ``level`` number and nest it inside an appendix."""
+    context = sheet_context(derivation, "md", stem=stem, section=section)
+    context.update({"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
+                    "label_anchor": f"case-{context['label']}" if section else None})
+    return make_environment("md").get_template("sheet.md.j2").render(context)
+
+
+LATEX_PACKAGES = ("amsmath", "amssymb", "booktabs", "longtable", "array", "graphicx")
+
+
+def latex_preamble() -> str:
+    """The LaTeX preamble every sheet needs (for a document that \\input's fragments)."""
+    return make_environment("tex").get_template("preamble.tex.j2").render(
+        {"packages": LATEX_PACKAGES})
+
+
+def render_latex(derivation, standalone: bool = True, *, stem: str | None = None,
+                 section: int | None = None) -> str:
+    """The sheet as LaTeX: a complete document, or (``standalone=False``) a fragment that
+    starts with \\section and can be \\input into an appendix whose preamble has
+    :func:`latex_preamble`. Figures are referenced as PDF files named after ``stem``."""
+    environment = make_environment("tex")
+    context = sheet_context(derivation, "tex", stem=stem, section=section)
+    body = environment.get_template("sheet.tex.j2").render(context)
+    if not standalone:
+        return body
+    return environment.get_template("document.tex.j2").render(
+        {"preamble": Math(latex_preamble()), "body": Math(body), "title": context["title"],
+         "status": context["status"], "label": context["label"]})
+
+
+def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
+    """The load and response plots of one sheet as ``fmt`` ("svg" or "pdf") files."""
+    if not plots.plottable(derivation):
+        return {}
+    case = derivation.case
+    units = Units(case)
+    time_unit = units.unit_for(quantities.dimension("time"), ("time",))
+    time_axis = plots.Axis(f"t [{time_unit.text if time_unit else 's'}]",
+                           1 / float(sympy.N(time_unit.factor, 30)) if time_unit else 1.0)
+    response_dimension = case.system.response_dimension
+    response_unit = units.unit_for(response_dimension, ("response", "displacement", "voltage",
+                                                       "current"))
+    variable = derivation.model.variable
+    value_axis = plots.Axis(
+        f"{variable} [{response_unit.text if response_unit else quantities.si_unit_text(response_dimension)}]",
+        1 / float(sympy.N(response_unit.factor, 30)) if response_unit else 1.0)
+    load_dimension = case.system.load_dimension
+    load_unit = units.unit_for(load_dimension, {"spring-mass-damper": ("force",),
+                                                "base-excitation": ("acceleration",),
+                                                "series-rlc": ("voltage",)}.get(case.system.model, ()))
+    load_axis = plots.Axis(
+        f"{derivation.model.load_name} [{load_unit.text if load_unit else quantities.si_unit_text(load_dimension)}]",
+        1 / float(sympy.N(load_unit.factor, 30)) if load_unit else 1.0)
+    peak_label = None
+    peak = derivation.results.peak
+    if peak is not None:
+        peak_label = (f"peak {peak.value * value_axis.scale:.4g} "
+                      f"{value_axis.label.split('[')[-1].rstrip(']')} at "
+                      f"{peak.time * time_axis.scale:.4g} {time_axis.label.split('[')[-1].rstrip(']')}")
+    impulse_unit = quantities.si_unit_text(load_dimension * quantities.dimension("time"))
+    impulses = [(units.float(i.at), f"J = {units.float(i.impulse):.4g} {impulse_unit}")
+                for i in derivation.history.impulses]
+    return {
+        figure_name(stem, "load", fmt): plots.load_figure(derivation, fmt, time_axis, load_axis,
+                                                          impulses),
+        figure_name(stem, "response", fmt): plots.response_figure(derivation, fmt, time_axis, value_axis,
+                                                        peak_label),
+    }
+
+
+def render_csv(derivation, points: int = CSV_POINTS) -> str:
+    """The response sampled on an even grid over the window, SI, 17 significant digits."""
+    case = derivation.case
+    if not plots.plottable(derivation):
+        raise CaseError("csv output needs a value for every symbol", file=Path(case.source).name,
+                        key="symbols")
+    units = Units(case)
+    until = units.float(derivation.window.until)
+    starts = [units.float(p.start) for p in derivation.pieces]
+    functions = [p.numeric if getattr(p, "numeric", None) is not None else p.local.numeric(units.values)
+                 for p in derivation.pieces]
+    unit = quantities.si_unit_text(case.system.response_dimension)
+    lines = [f"t [s],{derivation.model.variable} [{unit}]"]
+    index = 0
+    for k in range(points + 1):
+        time = until * k / points
+        while index + 1 < len(starts) and starts[index + 1] <= time:
+            index += 1
+        value = functions[index](time - starts[index])
+        lines.append(f"{time:.17g},{float(value):.17g}")
+    return "\n".join(lines) + "\n"
+
+
+def latex_command() -> list[str] | None:
+    """The command that turns a .tex file into a PDF here (latexmk, else pdflatex)."""
+    if shutil.which("latexmk"):
+        return ["latexmk", "-pdf", "-interaction=nonstopmode", "-halt-on-error"]
+    if shutil.which("pdflatex"):
+        return ["pdflatex", "-interaction=nonstopmode", "-halt-on-error"]
+    return None
+
+
+def require_latex() -> list[str]:
+    """The LaTeX command, or a ClosedformError (exit 1) naming the tool that is missing."""
+    command = latex_command()
+    if command is None:
+        raise ClosedformError("PDF output needs latexmk (or pdflatex) on the PATH, and neither "
+                              "was found; install a TeX distribution with latexmk, or leave "
+                              "pdf out of --format")
+    return command
+
+
+def compile_pdf(tex: str, files: Mapping[str, bytes] | None = None, name: str = "sheet",
+                timeout: float = 600) -> bytes:
+    """Compile a LaTeX document (with its figure files) in a private temporary folder.
+
+    Dates and document ids in the PDF are fixed (SOURCE_DATE_EPOCH), so the same sheet
+    gives the same PDF on a given TeX installation.
+    """
+    command = require_latex()
+    environment = dict(os.environ, SOURCE_DATE_EPOCH="0", FORCE_SOURCE_DATE="1")
+    with tempfile.TemporaryDirectory(prefix="closedform-") as folder:
+        root = Path(folder)
+        for file_name, content in (files or {}).items():
+            (root / file_name).write_bytes(content)
+        (root / f"{name}.tex").write_text(tex, encoding="utf-8")
+        runs = 1 if command[0] == "latexmk" else 3
+        for _ in range(runs):
+            try:
+                finished = subprocess.run([*command, f"{name}.tex"], cwd=root, env=environment,
+                                          stdin=subprocess.DEVNULL, capture_output=True,
+                                          timeout=timeout, check=False)
+            except subprocess.TimeoutExpired:
+                raise ClosedformError(f"LaTeX did not finish within {timeout:.0f} s")
+            if finished.returncode != 0:
+                raise ClosedformError("LaTeX could not compile the sheet: "
+                                      + _latex_error(root / f"{name}.log"))
+            log = (root / f"{name}.log").read_text(encoding="utf-8", errors="replace")
+            if "Rerun to get" not in log and "Label(s) may have changed" not in log:
+                break
+        pdf = root / f"{name}.pdf"
+        if not pdf.exists():
+            raise ClosedformError("LaTeX produced no PDF: " + _latex_error(root / f"{name}.log"))
+        return pdf.read_bytes()
+
+
+def _latex_error(log_path: Path) -> str:
+    try:
+        lines = log_path.read_text(encoding="utf-8", errors="replace").splitlines()
+    except OSError:
+        return "no log was written"
+    for i, line in enumerate(lines):
+        if line.startswith("!"):
+            return " ".join(part.strip() for part in lines[i:i + 3] if part.strip())
+    return "see the LaTeX log (no error line found)"
 
 
 def render_outputs(derivation, formats, stem: str) -> dict[str, str | bytes]:
-    """File name → content for every requested format (nothing is written here)."""
+    """File name → content for every requested format (nothing is written here).
+
+    ``md`` brings its SVG plots along, ``tex`` its PDF plots; ``pdf`` is the compiled sheet
+    (the plots inside it), ``svg`` the SVG plots alone, ``json`` the result contract and
+    ``csv`` the response sampled over the window.
+    """
+    formats = list(formats)
+    if "pdf" in formats:
+        require_latex()   # before any work: name the missing tool
     contents: dict[str, str | bytes] = {}
     if "md" in formats:
-        contents[f"{stem}.md"] = render_markdown(derivation)
+        contents[f"{stem}.md"] = render_markdown(derivation, stem=stem)
+    if "md" in formats or "svg" in formats:
+        contents.update(figure_files(derivation, stem, "svg"))
+    tex = None
+    pdf_figures: dict[str, bytes] = {}
+    if "tex" in formats or "pdf" in formats:
+        tex = render_latex(derivation, standalone=True, stem=stem)
+        pdf_figures = figure_files(derivation, stem, "pdf")
+    if "tex" in formats:
+        contents[f"{stem}.tex"] = tex
+        contents.update(pdf_figures)
+    if "pdf" in formats:
+        contents[f"{stem}.pdf"] = compile_pdf(tex, pdf_figures, name=stem)
     if "json" in formats:
         contents[f"{stem}.json"] = derivation.to_json() + "\n"
+    if "csv" in formats:
+        contents[f"{stem}.csv"] = render_csv(derivation)
     return contents

@@ -60,7 +60,8 @@ def test_derive_writes_sheet_and_json_into_the_folder(tmp_path):
     case = write(tmp_path, GOOD, "skid.toml")
     out = tmp_path / "out"
     assert main(["derive", str(case), "-o", str(out), "--format", "md,json"]) == 0
-    assert sorted(p.name for p in out.iterdir()) == ["skid.json", "skid.md"]
+    assert sorted(p.name for p in out.iterdir()) == ["skid-load.svg", "skid-response.svg",
+                                                     "skid.json", "skid.md"]
     sheet = (out / "skid.md").read_text()
     assert sheet.splitlines()[0] == "# Hammer on a skid"
     assert "CHECKED" in "\n".join(sheet.splitlines()[:4])

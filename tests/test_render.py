@@ -1,0 +1,384 @@
+"""Derivation sheets: golden files for every worked case, escaping, failure banners,
+reproducibility, output files and PDF compilation.
+
+The golden files in tests/golden/ hold the Markdown and LaTeX sheet of every case in
+worked_cases/. After a deliberate change to the engine, the checks or the templates,
+regenerate them from the repository root with
+
+    python -m tests.test_render --update-golden
+
+and review the diff like any other change to the sheets.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import functools
+import math
+import shutil
+import subprocess
+import sys
+import textwrap
+from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
+
+import pytest
+
+import closedform
+from closedform import render
+from closedform.errors import ClosedformError
+from closedform.verify import Check
+
+ROOT = Path(__file__).resolve().parent.parent
+WORKED = ROOT / "worked_cases"
+GOLDEN = Path(__file__).resolve().parent / "golden"
+CASES = sorted(path.stem for path in WORKED.glob("*.toml"))
+REGENERATE = "python -m tests.test_render --update-golden"
+HAS_LATEX = render.latex_command() is not None
+needs_latex = pytest.mark.skipif(not HAS_LATEX, reason="latexmk/pdflatex not on PATH")
+
+
+@functools.cache
+def worked(stem: str) -> closedform.Derivation:
+    return closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+
+
+def sheets(stem: str) -> dict[str, str]:
+    derivation = worked(stem)
+    return {"md": render.render_markdown(derivation, stem=stem),
+            "tex": render.render_latex(derivation, standalone=True, stem=stem)}
+
+
+def derive_text(text: str, name: str = "sheet.toml") -> closedform.Derivation:
+    return closedform.derive(closedform.load_case_text(textwrap.dedent(text), name))
+
+
+STEP = """
+title = "Step on an undamped oscillator"
+reference = "T-1"
+[system]
+model = "spring-mass-damper"
+mass = "1 kg"
+stiffness = "4 N/m"
+[[load]]
+shape = "step"
+amplitude = "1 N"
+[report]
+until = "2 s"
+units = { displacement = "mm", time = "ms" }
+"""
+
+
+# ----------------------------------------------------------------------------- golden files
+
+
+@pytest.mark.parametrize("stem", CASES)
+@pytest.mark.parametrize("suffix", ["md", "tex"])
+def test_sheet_matches_its_golden_file(stem, suffix):
+    golden = GOLDEN / f"{stem}.{suffix}"
+    assert golden.exists(), f"no golden file {golden.name}; run {REGENERATE}"
+    assert sheets(stem)[suffix] == golden.read_text(encoding="utf-8"), \
+        f"{stem}.{suffix} differs from its golden file; if the change is intended, run {REGENERATE}"
+
+
+def test_golden_files_are_exactly_the_worked_cases():
+    golden = {path.stem for path in GOLDEN.glob("*.md")} | {path.stem for path in GOLDEN.glob("*.tex")}
+    assert golden == set(CASES), f"stale or missing golden files; run {REGENERATE}"
+
+
+def update_golden() -> None:
+    GOLDEN.mkdir(exist_ok=True)
+    for stale in [*GOLDEN.glob("*.md"), *GOLDEN.glob("*.tex")]:
+        if stale.stem not in CASES:
+            stale.unlink()
+    for stem in CASES:
+        for suffix, text in sheets(stem).items():
+            (GOLDEN / f"{stem}.{suffix}").write_text(text, encoding="utf-8")
+        print(f"wrote tests/golden/{stem}.md and .tex")
+
+
+# ----------------------------------------------------------------------------- content
+
+
+def test_sheet_states_header_assumptions_and_caution():
+    md = sheets("drop-hammer-skid")["md"]
+    lines = md.splitlines()
+    assert lines[0] == "# Drop-hammer blow on an instrument skid"
+    assert lines[2].startswith("**Status: CHECKED")
+    assert "| Reference | CF-DEMO-001 |" in md
+    assert "| Case file | drop-hammer-skid.toml |" in md
+    assert f"| Tool | closedform {closedform.__version__} |" in md
+    assert "| SHA-256 of the case file | " + worked("drop-hammer-skid").case.sha256 in md
+    assert render.CAUTION in md
+    assert "viscous (velocity-proportional) damping" in md
+    for heading in ("Problem", "Load as singularity terms", "Laplace transform",
+                    "Partial fractions and inverse transforms", "Response on each interval",
+                    "Results", "Independent checks", "Assumptions and caution"):
+        assert heading in md
+    tex = sheets("drop-hammer-skid")["tex"]
+    assert r"\documentclass" in tex and r"\begin{document}" in tex
+    assert r"\includegraphics[width=0.9\linewidth]{drop-hammer-skid-response.pdf}" in tex
+
+
+def test_sheet_shows_every_check_and_every_extra_result_field():
+    derivation = worked("drop-hammer-skid")
+    md = sheets("drop-hammer-skid")["md"]
+    for check in derivation.checks:
+        assert render.markdown_escape(check.name) in md
+    from closedform.results import result_fields
+    for key in result_fields(derivation.results):
+        assert key.replace("_", " ") in md
+
+
+def test_report_units_are_shown_beside_si():
+    md = sheets("drop-hammer-skid")["md"]
+    # peak in mm and its time in ms beside the SI values
+    peak = worked("drop-hammer-skid").results.peak
+    assert f"{peak.value * 1000:.6g}" + r"\,\mathrm{mm}" in md
+    assert f"{peak.time * 1000:.6g}" + r"\,\mathrm{ms}" in md
+    assert r"x(t)\,[\mathrm{mm}]" in md
+
+
+def test_symbolic_case_has_no_numbers_and_no_figures():
+    md = sheets("symbolic-rectangle")["md"]
+    assert "no numbers are reported" in md
+    assert ".svg" not in md
+    assert render.figure_files(worked("symbolic-rectangle"), "s", "svg") == {}
+
+
+def test_no_absolute_paths_in_sheets():
+    for suffix, text in sheets("measured-history").items():
+        assert str(ROOT) not in text, suffix
+        assert "measured-history.toml" in text
+
+
+# ----------------------------------------------------------------------------- escaping
+
+
+HOSTILE = r"Bolts & nuts: 100% of #3_a \ ~x^2 {y} $5 <a|b> -- µ−≤ Müller"
+
+
+def hostile_derivation() -> closedform.Derivation:
+    text = STEP.replace('title = "Step on an undamped oscillator"',
+                        "title = '" + HOSTILE + "'").replace('reference = "T-1"',
+                                                             "reference = 'R&D_1%'")
+    return derive_text(text)
+
+
+def test_latex_escapes_a_hostile_title():
+    tex = render.render_latex(hostile_derivation(), standalone=True, stem="hostile")
+    escaped = (r"Bolts \& nuts: 100\% of \#3\_a \textbackslash{} \textasciitilde{}x\textasciicircum{}2 "
+               r"\{y\} \$5 \textless{}a\textbar{}b\textgreater{} -{}- \ensuremath{\mu}\ensuremath{-}"
+               r"\ensuremath{\le} M\"{u}ller")
+    assert escaped in tex
+    assert r"R\&D\_1\%" in tex
+    assert HOSTILE not in tex
+
+
+def test_latex_escape_of_single_characters():
+    assert render.latex_escape("a_b") == r"a\_b"
+    assert render.latex_escape("50%") == r"50\%"
+    assert render.latex_escape("x\ny") == "x y"
+    assert render.latex_escape("ω") == r"\ensuremath{\omega}"
+    assert render.latex_escape("Ω") == r"\ensuremath{\Omega}"
+    assert render.latex_escape("é") == r"\'{e}"
+    assert render.latex_escape("x⁽ⁿ⁾") == r"x\ensuremath{^{(}}\ensuremath{^{n}}\ensuremath{^{)}}"
+    assert render.latex_escape("☃") == r"\texttt{[U+2603]}"
+
+
+def test_markdown_escapes_a_hostile_title():
+    md = render.render_markdown(hostile_derivation(), stem="hostile")
+    assert md.splitlines()[0] == (r"# Bolts & nuts: 100% of \#3\_a \\ \~x^2 {y} \$5 \<a\|b\> -- µ−≤ Müller")
+
+
+def test_templates_cannot_print_unformatted_values():
+    environment = render.make_environment("tex")
+    with pytest.raises(TypeError, match="format it first"):
+        environment.from_string("((( x )))").render(x=1.5)
+    assert environment.from_string("((( x ))) ((( y )))").render(
+        x="50%", y=render.Math(r"\frac{1}{2}")) == r"50\% \frac{1}{2}"
+    md = render.make_environment("md")
+    assert md.from_string("{{ x }}").render(x="a|b_c") == r"a\|b\_c"
+
+
+def test_math_joins_stay_trusted_only_with_math():
+    assert isinstance(render.Math("a") + render.Math("b"), render.Math)
+    assert not isinstance(render.Math("a") + "b", render.Math)
+    assert not isinstance("a" + render.Math("b"), render.Math)
+
+
+@pytest.mark.parametrize(("unit", "latex"), [
+    ("mm", r"\mathrm{mm}"),
+    ("N*s/m", r"\mathrm{N}\,\mathrm{s}/\mathrm{m}"),
+    ("m/s^2", r"\mathrm{m}/\mathrm{s}^{2}"),
+    ("kg*m^2/s^3", r"\mathrm{kg}\,\mathrm{m}^{2}/\mathrm{s}^{3}"),
+    ("ohm", r"\Omega"),
+    ("1", ""),
+])
+def test_units_are_typeset_upright(unit, latex):
+    assert render.unit_latex(unit) == latex
+
+
+@pytest.mark.parametrize(("value", "text"), [
+    (0.0027853994, "0.0027854"), (1.2e-05, r"1.2 \times 10^{-5}"), (2.6e6, r"2.6 \times 10^{6}"),
+    (-0.0, "0"), (1e-7, "10^{-7}"), (None, None),
+])
+def test_numbers_are_formatted_for_latex(value, text):
+    assert render.number(value) == text
+
+
+# ----------------------------------------------------------------------------- failures
+
+
+def test_failed_derivation_starts_with_the_failure():
+    derivation = dataclasses.replace(worked("drop-hammer-skid"), checks=(
+        Check("ode residual on (0, 0.02)", False, "max |residual|/scale = 3e-4"),))
+    md = render.render_markdown(derivation)
+    lines = md.splitlines()
+    assert lines[0] == "# FAILED — do not use: Drop-hammer blow on an instrument skid"
+    assert lines[2] == ("**FAILED — 1 of 1 independent checks did not pass. Do not use this "
+                        "result.**")
+    assert lines[4] == r"- FAILED: ode residual on (0, 0.02) — max \|residual\|/scale = 3e-4"
+    assert "CHECKED" not in md
+    tex = render.render_latex(derivation, standalone=True)
+    assert tex.startswith("% closedform derivation sheet: FAILED, do not use\n")
+    body = tex[tex.index(r"\begin{document}"):]
+    assert body.splitlines()[1] == (r"\section{FAILED --- do not use: Drop-hammer blow on an "
+                                    r"instrument skid}\label{case:drop-hammer-skid}")
+    assert r"\textbf{FAILED --- 1 of 1 independent checks did not pass. Do not use this result.}" in body
+    assert "CHECKED" not in tex
+
+
+def test_derivation_without_checks_is_not_shown_as_checked():
+    derivation = dataclasses.replace(worked("drop-hammer-skid"), checks=())
+    md = render.render_markdown(derivation)
+    assert md.startswith("# FAILED — do not use:")
+    assert "no independent check was run" in md
+    assert "CHECKED" not in md
+
+
+# ----------------------------------------------------------------------------- reproducibility
+
+
+# Python randomises string hashing per process, so the golden-file tests (files written by
+# one process, compared in another) also check that nothing depends on the hash seed.
+def test_sheets_and_figures_are_identical_across_runs():
+    first = derive_text(STEP)
+    second = derive_text(STEP)
+    outputs = [render.render_outputs(d, ["md", "tex", "json", "csv"], "step")
+               for d in (first, second)]
+    assert outputs[0].keys() == outputs[1].keys()
+    for name in outputs[0]:
+        assert outputs[0][name] == outputs[1][name], name
+    svg = outputs[0]["step-response.svg"].decode()
+    assert "<dc:date>" not in svg
+    assert b"CreationDate" not in outputs[0]["step-response.pdf"]
+
+
+# ----------------------------------------------------------------------------- outputs
+
+
+def test_render_outputs_gives_every_file_of_each_format():
+    derivation = derive_text(STEP)
+    assert set(render.render_outputs(derivation, ["md"], "s")) == {
+        "s.md", "s-load.svg", "s-response.svg"}
+    assert set(render.render_outputs(derivation, ["tex"], "s")) == {
+        "s.tex", "s-load.pdf", "s-response.pdf"}
+    assert set(render.render_outputs(derivation, ["svg", "json", "csv"], "s")) == {
+        "s-load.svg", "s-response.svg", "s.json", "s.csv"}
+    assert set(render.FORMATS) >= {"md", "tex", "pdf", "json", "svg"}
+
+
+def test_pdf_without_latex_names_the_missing_tool(monkeypatch):
+    monkeypatch.setattr(render.shutil, "which", lambda name: None)
+    with pytest.raises(ClosedformError, match="latexmk") as raised:
+        render.render_outputs(derive_text(STEP), ["md", "pdf"], "s")
+    assert raised.value.exit_code == 1
+
+
+def test_csv_and_plot_samples_follow_the_closed_form_step_response():
+    # Undamped oscillator under a suddenly applied constant force F:
+    # x(t) = (F/k)(1 - cos(omega_n t)), omega_n = sqrt(k/m).
+    # Source: Chopra, Dynamics of Structures, 4th ed., section 4.3 (from memory).
+    derivation = derive_text(STEP)
+    lines = render.render_csv(derivation, points=200).splitlines()
+    assert lines[0] == "t [s],x [m]"
+    assert len(lines) == 202
+    for line in lines[1:]:
+        time, value = map(float, line.split(","))
+        assert value == pytest.approx((1 / 4) * (1 - math.cos(2 * time)), abs=1e-15)
+    times, values = closedform.plots.response_samples(derivation)
+    assert times[0] == 0 and times[-1] == pytest.approx(2.0)
+    for time, value in zip(times, values):
+        assert value == pytest.approx((1 / 4) * (1 - math.cos(2 * time)), abs=1e-12)
+
+
+def test_csv_refuses_a_case_with_symbols_without_values():
+    with pytest.raises(closedform.CaseError, match="value for every symbol"):
+        render.render_csv(worked("symbolic-rectangle"))
+
+
+# ----------------------------------------------------------------------------- LaTeX builds
+
+
+def _compiles(stem: str, folder: Path) -> str:
+    """One pdfLaTeX pass over the standalone sheet in its own folder: "" or the error."""
+    derivation = worked(stem)
+    work = folder / stem
+    work.mkdir()
+    (work / f"{stem}.tex").write_text(render.render_latex(derivation, standalone=True, stem=stem),
+                                      encoding="utf-8")
+    for name, content in render.figure_files(derivation, stem, "pdf").items():
+        (work / name).write_bytes(content)
+    finished = subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error",
+                               "-draftmode", f"{stem}.tex"], cwd=work, capture_output=True,
+                              stdin=subprocess.DEVNULL, text=True, errors="replace", check=False)
+    if finished.returncode == 0:
+        return ""
+    return next((line for line in finished.stdout.splitlines() if line.startswith("!")),
+                finished.stdout[-500:])
+
+
+@pytest.mark.slow
+@pytest.mark.skipif(shutil.which("pdflatex") is None, reason="pdflatex not on PATH")
+def test_every_worked_case_compiles_on_its_own(tmp_path):
+    for stem in CASES:      # derive here; the pdfLaTeX runs go two at a time
+        worked(stem)
+    with ThreadPoolExecutor(max_workers=2) as pool:
+        errors = dict(zip(CASES, pool.map(lambda stem: _compiles(stem, tmp_path), CASES)))
+    assert {stem: error for stem, error in errors.items() if error} == {}
+
+
+@pytest.mark.slow
+@needs_latex
+def test_hostile_title_compiles_and_pdf_is_reproducible():
+    derivation = hostile_derivation()
+    files = render.render_outputs(derivation, ["pdf"], "hostile")
+    again = render.render_outputs(derivation, ["pdf"], "hostile")
+    assert files["hostile.pdf"].startswith(b"%PDF")
+    assert files["hostile.pdf"] == again["hostile.pdf"]
+
+
+@needs_latex
+def test_fragment_can_be_input_into_a_host_document(tmp_path):
+    derivation = derive_text(STEP)
+    fragment = render.render_latex(derivation, standalone=False, stem="step")
+    assert r"\documentclass" not in fragment and fragment.startswith(r"\section{")
+    host = ("\\documentclass{article}\n" + render.latex_preamble()
+            + "\\begin{document}\n\\input{step-sheet}\n\\end{document}\n")
+    files = {"step-sheet.tex": fragment.encode(), **render.figure_files(derivation, "step", "pdf")}
+    assert render.compile_pdf(host, files, name="host").startswith(b"%PDF")
+
+
+def test_latex_tool_lookup_prefers_latexmk(monkeypatch):
+    monkeypatch.setattr(render.shutil, "which", lambda name: f"/usr/bin/{name}")
+    assert render.latex_command()[0] == "latexmk"
+    monkeypatch.setattr(render.shutil, "which",
+                        lambda name: "/usr/bin/pdflatex" if name == "pdflatex" else None)
+    assert render.latex_command()[0] == "pdflatex"
+
+
+if __name__ == "__main__":
+    if sys.argv[1:] != ["--update-golden"]:
+        sys.exit(f"usage: {REGENERATE}")
+    update_golden()
