@@ -93,8 +93,8 @@ def unique_stems(files: Sequence[Path]) -> list[str]:
     return stems
 
 
-def prepare_case(path: Path, number: int, stem: str,
-                 formats: tuple[str, ...]) -> CaseEntry | Unusable:
+def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
+                 time_budget: float | None = None) -> CaseEntry | Unusable:
     """Load, derive and render one case for section ``number`` of the appendix.
 
     Returns :class:`Unusable` for a case file that cannot be used (instead of raising, so
@@ -108,7 +108,7 @@ def prepare_case(path: Path, number: int, stem: str,
     except CaseError as error:
         return Unusable(path.name, error.show())
     try:
-        derivation = derive(case)
+        derivation = derive(case, time_budget=time_budget)
     except CaseError as error:
         return Unusable(path.name, error.show())
     except DerivationError as error:
@@ -145,24 +145,25 @@ def summary_cells(derivation, target: str) -> SummaryCells:
 
 
 def build_appendix(folder: Path, formats: Sequence[str],
-                   progress: Callable[[int, int, str], None] | None = None,
+                   progress: Callable[[int, int, str], None] | None = None, *,
+                   jobs: int | None = 1, time_budget: float | None = None,
                    ) -> tuple[dict[str, str | bytes], list[CaseEntry], list[Unusable]]:
     """Every case in ``folder`` as one appendix: (file name → content, entries, unusable).
 
-    The contents are empty when any case file is unusable. Nothing is written here.
+    The cases are derived in up to ``jobs`` processes. The contents are empty when any case
+    file is unusable. Nothing is written here.
     """
+    from .batch import map_cases
+
     formats = tuple(formats)
     if "pdf" in formats:
         render.require_latex()
     files = case_files(folder)
     stems = unique_stems(files)
-    results: list[CaseEntry | Unusable] = []
-    for number, (path, stem) in enumerate(zip(files, stems), start=1):
-        if progress is not None:
-            progress(number - 1, len(files), path.name)
-        results.append(prepare_case(path, number, stem, formats))
-    if progress is not None:
-        progress(len(files), len(files), "")
+    arguments = [(path, number, stem, formats, time_budget)
+                 for number, (path, stem) in enumerate(zip(files, stems), start=1)]
+    results = map_cases(prepare_case, arguments, [p.name for p in files], jobs=jobs,
+                        progress=progress)
     unusable = [r for r in results if isinstance(r, Unusable)]
     entries = [r for r in results if isinstance(r, CaseEntry)]
     if unusable:
@@ -236,42 +237,22 @@ def register(commands) -> None:
     parser.add_argument("--format", default="md,tex",
                         help=f"comma-separated formats ({', '.join(APPENDIX_FORMATS)}); "
                              "default md,tex")
+    parser.add_argument("--jobs", type=int, default=None,
+                        help="processes to derive the cases with (default: all cores)")
+    parser.add_argument("--time-budget", type=float, default=60.0, metavar="SECONDS",
+                        help="stop a case whose derivation runs longer (default 60)")
     parser.set_defaults(run=run_appendix)
 
 
-def parse_formats(text: str) -> list[str]:
-    formats = [f.strip() for f in text.split(",") if f.strip()]
-    unknown = [f for f in formats if f not in APPENDIX_FORMATS]
-    if unknown or not formats:
-        raise CaseError(f"unknown appendix format '{', '.join(unknown) or text}' "
-                        f"(expected some of: {', '.join(APPENDIX_FORMATS)})", file="--format")
-    return formats
-
-
-class TerminalProgress:
-    """A one-line progress bar on standard error, redrawn in place."""
-
-    WIDTH = 24
-
-    def __init__(self, stream) -> None:
-        self.stream = stream
-
-    def __call__(self, done: int, total: int, name: str) -> None:
-        filled = round(self.WIDTH * done / total) if total else self.WIDTH
-        bar = "#" * filled + "-" * (self.WIDTH - filled)
-        line = f"[{bar}] {done}/{total} {name}"
-        self.stream.write("\r" + line[:100].ljust(100))
-        if done == total:
-            self.stream.write("\n")
-        self.stream.flush()
-
-
 def run_appendix(arguments: argparse.Namespace) -> int:
-    from .cli import write_atomically
+    from .batch import TerminalProgress
+    from .cli import parse_formats, write_atomically
 
-    formats = parse_formats(arguments.format)
+    formats = parse_formats(arguments.format, APPENDIX_FORMATS, "appendix format")
     progress = TerminalProgress(sys.stderr) if sys.stderr.isatty() else None
-    contents, entries, unusable = build_appendix(arguments.folder, formats, progress)
+    contents, entries, unusable = build_appendix(arguments.folder, formats, progress,
+                                                 jobs=arguments.jobs,
+                                                 time_budget=arguments.time_budget)
     if unusable:
         for problem in unusable:
             print(problem.message, file=sys.stderr)

@@ -46,26 +46,48 @@ def case_paths(arguments: Sequence[Path]) -> list[Path]:
 
 def run_case(path: str, formats: Sequence[str], time_budget: float | None,
              renderer: Callable | None = None) -> CaseOutcome:
-    """Load, derive and render one case; errors become the outcome, not exceptions."""
-    from .case import load_case
+    """Load, derive and render one case; errors become the outcome, not exceptions.
+
+    The whole task (reading, deriving, rendering) runs under one time budget, so neither a
+    huge table nor a slow sheet can hold up a batch longer than ``time_budget`` seconds.
+    """
+    from .budget import time_budget as budget_for
+    from .case import display_name, load_case
     from .derivation import derive
     from .render import render_outputs
 
+    shown = display_name(str(path))
     try:
-        case = load_case(path)
-        derivation = derive(case, time_budget=time_budget)
-        stem = Path(path).stem or "case"
-        contents = (renderer or render_outputs)(derivation, formats, stem) if formats else {}
-        message = summary_line(derivation)
-        return CaseOutcome(path, 0 if derivation.passed else 1, message, contents,
-                           derivation.to_dict(), derivation.warnings)
+        with budget_for(time_budget, shown) as budget:
+            with budget.stage("reading the case file"):
+                case = load_case(path)
+            derivation = derive(case, time_budget=time_budget)
+            with budget.stage("rendering the sheets"):
+                stem = Path(path).stem or "case"
+                contents = (renderer or render_outputs)(derivation, formats, stem) \
+                    if formats else {}
+            with budget.stage("writing the JSON result"):
+                result = derivation.to_dict()
+                message = summary_line(derivation)
+        return CaseOutcome(path, 0 if derivation.passed else 1, message, contents, result,
+                           derivation.warnings)
     except ClosedformError as error:
-        return CaseOutcome(path, error.exit_code, error.show())
+        return CaseOutcome(path, error.exit_code, one_line(error.show()))
     except RecursionError:
-        return CaseOutcome(path, 2, f"{path}: the input nests too deeply to process")
+        return CaseOutcome(path, 2, f"{shown}: the input nests too deeply to process")
     except Exception as error:  # a defect in closedform itself, reported without a traceback
-        return CaseOutcome(path, 1, f"{path}: internal error ({type(error).__name__}: {error}); "
-                                    "the case was not derived. Please report it with the case file.")
+        return CaseOutcome(path, 1, internal_error(shown, error))
+
+
+def one_line(text: str, limit: int = 2000) -> str:
+    """``text`` on one line: line breaks shown as spaces, shortened past ``limit``."""
+    flat = " ".join(text.splitlines())
+    return flat if len(flat) <= limit else flat[:limit - 3] + "..."
+
+
+def internal_error(shown: str, error: BaseException) -> str:
+    return one_line(f"{shown}: internal error ({type(error).__name__}: {error}); the case was "
+                    "not derived. Please report it with the case file.")
 
 
 def summary_line(derivation) -> str:
@@ -85,33 +107,51 @@ def run_cases(paths: Sequence[Path], formats: Sequence[str], *, time_budget: flo
               jobs: int | None = None, renderer: Callable | None = None,
               progress: bool | None = None) -> list[CaseOutcome]:
     """Every case, in the given order, using up to ``jobs`` processes (default: all cores)."""
-    jobs = max(1, min(jobs or os.cpu_count() or 1, len(paths)))
-    show = sys.stderr.isatty() if progress is None else progress
-    outcomes: list[CaseOutcome] = []
     arguments = [(str(p), tuple(formats), time_budget, renderer) for p in paths]
+    show = sys.stderr.isatty() if progress is None else progress
+    return map_cases(run_case, arguments, [p.name for p in paths], jobs=jobs,
+                     progress=TerminalProgress(sys.stderr) if show else None)
+
+
+def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[str], *,
+              jobs: int | None, progress: Callable[[int, int, str], None] | None = None) -> list:
+    """``function(*a)`` for each tuple of ``arguments``, results in order; with several jobs
+    the calls run in a process pool (``function`` must be a top-level function)."""
+    jobs = max(1, min(jobs or os.cpu_count() or 1, len(arguments) or 1))
+    results = []
+    if progress is not None and arguments:
+        progress(0, len(arguments), names[0])
     if jobs == 1:
-        iterator = (run_case(*a) for a in arguments)
-        for i, outcome in enumerate(iterator, start=1):
-            outcomes.append(outcome)
-            _progress(show, i, len(paths))
-        return outcomes
+        for i, a in enumerate(arguments, start=1):
+            results.append(function(*a))
+            if progress is not None:
+                progress(i, len(arguments), names[i - 1])
+        return results
     with ProcessPoolExecutor(max_workers=jobs) as pool:
-        futures = [pool.submit(run_case, *a) for a in arguments]
+        futures = [pool.submit(function, *a) for a in arguments]
         for i, future in enumerate(futures, start=1):
-            outcomes.append(future.result())
-            _progress(show, i, len(paths))
-    return outcomes
+            results.append(future.result())
+            if progress is not None:
+                progress(i, len(arguments), names[i - 1])
+    return results
 
 
-def _progress(show: bool, done: int, total: int) -> None:
-    if not show:
-        return
-    width = 30
-    filled = width * done // total
-    sys.stderr.write(f"\r[{'#' * filled}{'.' * (width - filled)}] {done}/{total} cases")
-    if done == total:
-        sys.stderr.write("\n")
-    sys.stderr.flush()
+class TerminalProgress:
+    """A one-line progress bar on standard error, redrawn in place."""
+
+    WIDTH = 24
+
+    def __init__(self, stream) -> None:
+        self.stream = stream
+
+    def __call__(self, done: int, total: int, name: str) -> None:
+        filled = round(self.WIDTH * done / total) if total else self.WIDTH
+        bar = "#" * filled + "-" * (self.WIDTH - filled)
+        line = f"[{bar}] {done}/{total} {name}"
+        self.stream.write("\r" + line[:100].ljust(100))
+        if done == total:
+            self.stream.write("\n")
+        self.stream.flush()
 
 
 def worst_exit_code(outcomes: Sequence[CaseOutcome]) -> int:

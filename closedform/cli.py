@@ -17,7 +17,8 @@ from .errors import CaseError, ClosedformError
 
 # Commands that live in modules of their own; each module has register(commands), which
 # adds its sub-parser with set_defaults(run=function returning the exit code).
-COMMAND_MODULES: tuple[str, ...] = ("closedform.audit",)
+COMMAND_MODULES: tuple[str, ...] = ("closedform.audit", "closedform.appendix",
+                                     "closedform.spectrum")
 
 
 def main(argv: Sequence[str] | None = None) -> int:
@@ -76,12 +77,14 @@ def output_formats() -> tuple[str, ...]:
     return FORMATS
 
 
-def parse_formats(text: str) -> list[str]:
-    known = output_formats()
+def parse_formats(text: str, known: Sequence[str] | None = None,
+                  what: str = "output format") -> list[str]:
+    """A comma-separated list of formats, each one of ``known``."""
+    known = tuple(known or output_formats())
     formats = [f.strip() for f in text.split(",") if f.strip()]
     unknown = [f for f in formats if f not in known]
     if unknown or not formats:
-        raise CaseError(f"unknown output format '{', '.join(unknown) or text}' "
+        raise CaseError(f"unknown {what} '{', '.join(unknown) or text}' "
                         f"(expected some of: {', '.join(known)})", file="--format")
     return formats
 

@@ -12,6 +12,7 @@ import pytest
 
 import closedform.derivation
 from closedform import appendix, render
+from closedform.batch import TerminalProgress
 from closedform.cli import main
 from closedform.errors import DerivationError
 from closedform.verify import Check
@@ -93,8 +94,8 @@ def test_appendix_writes_one_document_with_contents_summary_and_sections(cases, 
 def test_failed_cases_come_first_in_the_summary_and_exit_1(cases, tmp_path, capsys, monkeypatch):
     real = closedform.derivation.derive
 
-    def derive(case):
-        derivation = real(case)
+    def derive(case, **options):
+        derivation = real(case, **options)
         if case.title.startswith("Step"):
             return dataclasses.replace(
                 derivation, checks=(Check("initial values", False, "off by 1"),))
@@ -118,10 +119,10 @@ def test_failed_cases_come_first_in_the_summary_and_exit_1(cases, tmp_path, caps
 def test_a_case_that_cannot_be_derived_is_reported_as_failed(cases, tmp_path, monkeypatch, capsys):
     real = closedform.derivation.derive
 
-    def derive(case):
+    def derive(case, **options):
         if case.title.startswith("Tap"):
             raise DerivationError("inverse transform came out empty")
-        return real(case)
+        return real(case, **options)
 
     monkeypatch.setattr(closedform.derivation, "derive", derive)
     out = tmp_path / "out"
@@ -177,7 +178,7 @@ def test_prepared_case_is_picklable_for_a_process_pool(cases):
 
 def test_progress_bar_draws_on_one_line():
     stream = io.StringIO()
-    bar = appendix.TerminalProgress(stream)
+    bar = TerminalProgress(stream)
     bar(1, 4, "a.toml")
     bar(4, 4, "")
     text = stream.getvalue()
