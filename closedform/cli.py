@@ -129,6 +129,13 @@ def write_outputs(derivation, folder: Path, formats: Sequence[str]) -> list[Path
     return write_atomically(folder, render_outputs(derivation, formats, stem))
 
 
+def _umask() -> int:
+    """The process umask (read by setting and restoring it)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
+
+
 def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:
     folder.mkdir(parents=True, exist_ok=True)
     written = []
@@ -139,6 +146,7 @@ def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Pat
         try:
             with os.fdopen(handle, "wb") as stream:
                 stream.write(data)
+            os.chmod(temporary, 0o666 & ~_umask())
             os.replace(temporary, target)
         except BaseException:
             Path(temporary).unlink(missing_ok=True)

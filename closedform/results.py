@@ -1,26 +1,52 @@
-"""The numbers an engineer takes from a response: peak, time of peak, static response, DLF.
+"""The numbers an engineer takes from a response: peaks, times of peaks, static response,
+DLF, forces on the support, residual vibration and the impulse idealization of each pulse.
 
 Extremes are found from the roots of the derivative on each interval plus the interval
 ends — never by taking the largest of sampled values. A fine float grid only brackets the
-sign changes of x'(t); each root is then refined to 30 significant digits with mpmath.
+sign changes of the derivative; the roots are narrowed in float to pick the candidates that
+can hold the maximum, and those are refined to 30 significant digits with mpmath and
+evaluated at that precision.
+
+Values at interval ends are one-sided: an interval [a, b] contributes f(a⁺) and f(b⁻). This
+matters for the acceleration, which jumps where a step load acts (x'' takes the value just
+after the step at a, just before it at b) and contains a Dirac part where an impulse acts;
+the Dirac part itself is not a value and is left out — the reported peak acceleration is the
+largest one-sided value.
+
+Everything is SI; ``result_fields`` gives the JSON fields beyond peak, static and DLF.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping, Sequence
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
 import mpmath
 import numpy
 import sympy
 
-from .basis import ExponentialPolynomial, NumericExponentialPolynomial
-from .response import load_pieces
+from . import quantities
+from .basis import SIN, ExponentialPolynomial, NumericCarrier, NumericExponentialPolynomial
+from .case import PULSE_SHAPES, TAU, LoadSpec
+from .loads import LoadHistory, pulse_points
+from .response import load_pieces, solve
 
 DIGITS = 30
 GRID_PER_SCALE = 64          # grid points per shortest period or decay time
+GRID_MINIMUM = 64            # per interval, however short
 GRID_LIMIT = 400_000         # per interval
 PEAK_TOLERANCE = 1e-9        # "earliest time within 1e-9 (relative) of the maximum"
+PRESELECT_MARGIN = 1e-2      # grid estimates this close to the largest get a float root
+CANDIDATE_MARGIN = 1e-6      # float candidates this close to the float maximum get 30 digits
+FLOAT_ERROR = 1e-14          # relative float64 evaluation error allowed per unit of term size
+FLOAT_ITERATIONS = 30        # Newton/bisection steps for a float root (a starting value)
+NON_OSCILLATORY_SPAN = 40    # slowest time constants searched after a pulse (no oscillation)
+
+# Sources of the closed forms used here (numbers of equations recalled, see each use).
+SOURCE_FREE_VIBRATION = ("Chopra, Dynamics of Structures, 4th ed., section 2.2, eq. 2.2.4 "
+                         "(free vibration of a viscously damped system; from memory)")
+SOURCE_IMPULSE_RESPONSE = ("Chopra, Dynamics of Structures, 4th ed., section 4.1, eq. 4.1.7 "
+                           "(unit impulse response; from memory); peak derived from it")
 
 
 @dataclass(frozen=True)
@@ -30,6 +56,7 @@ class Extreme:
     value: float
     time: float
     value_mp: object = None   # the 30-digit value, for checks that need it
+    time_mp: object = None    # the 30-digit time
 
 
 @dataclass(frozen=True)
@@ -44,37 +71,180 @@ class Interval:
 def numeric_intervals(locals_: Sequence[ExponentialPolynomial | NumericExponentialPolynomial],
                       starts: Sequence[sympy.Expr], until: sympy.Expr,
                       substitutions: Mapping | None = None) -> list[Interval]:
-    """Pieces as numeric functions on [start, end] (the last one ends at ``until``)."""
+    """The functions on [start, next start] (the last to ``until``), at 30 digits; functions
+    already carried in 30-digit arithmetic are taken as they are."""
     subs = dict(substitutions or {})
     with mpmath.workdps(DIGITS + 10):
-        numeric_starts = [mpmath.mpf(str(sympy.N(sympy.sympify(a).subs(subs), DIGITS + 10)))
-                          for a in starts]
-        end = mpmath.mpf(str(sympy.N(sympy.sympify(until).subs(subs), DIGITS + 10)))
+        numeric_starts = [_number(a, subs) for a in starts]
+        end = _number(until, subs)
     bounds = numeric_starts[1:] + [end]
-    return [Interval(a, b, f if isinstance(f, NumericExponentialPolynomial) else f.numeric(subs, DIGITS))
+    return [Interval(a, b, f if isinstance(f, NumericExponentialPolynomial)
+                     else f.numeric(subs, DIGITS))
             for a, b, f in zip(numeric_starts, bounds, locals_)]
+
+
+def piece_functions(pieces) -> list[ExponentialPolynomial | NumericExponentialPolynomial]:
+    """Each piece's function in local time: its 30-digit carried form where it has one."""
+    return [p.numeric if getattr(p, "numeric", None) is not None else p.local for p in pieces]
+
+
+def _number(value: sympy.Expr, subs: Mapping | None = None) -> mpmath.mpf:
+    """A real sympy value as an mpmath number at DIGITS + 10 digits."""
+    with mpmath.workdps(DIGITS + 10):
+        return mpmath.mpf(str(sympy.N(sympy.sympify(value).subs(subs or {}), DIGITS + 10)))
+
+
+# ----------------------------------------------------------------------------- extremes
+
+
+def _groups(rows, convert: Callable = lambda number: number) -> dict[tuple, tuple[list, list]]:
+    """Rows u^k·e^(σu)·cos|sin(ωu)·c gathered by (σ, ω) into polynomial coefficients:
+    Σ_k u^k (A_k cos ωu + B_k sin ωu) e^(σu)."""
+    groups: dict[tuple, tuple[list, list]] = {}
+    for power, rate, frequency, kind, c in rows:
+        cosine, sine = groups.setdefault((convert(rate), convert(frequency)), ([], []))
+        for part in (cosine, sine):
+            part.extend([0] * (power + 1 - len(part)))
+        (sine if kind == SIN else cosine)[power] += convert(c)
+    return groups
+
+
+def _derivatives(groups: dict[tuple, tuple[list, list]], orders: int) -> list[dict]:
+    """The groups of f, f′, … f^(orders−1): d/du of u^k (A cos ωu + B sin ωu) e^(σu) gives
+    A′_k = (k+1)A_(k+1) + σA_k + ωB_k and B′_k = (k+1)B_(k+1) + σB_k − ωA_k."""
+    result = [groups]
+    for _ in range(orders - 1):
+        derived = {}
+        for (rate, frequency), (a, b) in result[-1].items():
+            n = len(a)
+            derived[(rate, frequency)] = (
+                [(k + 1) * a[k + 1] + rate * a[k] + frequency * b[k] if k + 1 < n
+                 else rate * a[k] + frequency * b[k] for k in range(n)],
+                [(k + 1) * b[k + 1] + rate * b[k] - frequency * a[k] if k + 1 < n
+                 else rate * b[k] - frequency * a[k] for k in range(n)])
+        result.append(derived)
+    return result
+
+
+def _horner(coefficients: list, u):
+    total = coefficients[-1]
+    for c in reversed(coefficients[:-1]):
+        total = total * u + c
+    return total
+
+
+class FloatEvaluator:
+    """f, f′, f″ … of a numeric exponential polynomial in float64, for bracketing and for
+    choosing candidates only: the numbers are converted once, and e^(σu)·cos ωu and
+    e^(σu)·sin ωu are computed once per rate and frequency for every order."""
+
+    def __init__(self, function: NumericExponentialPolynomial, orders: int = 3) -> None:
+        self.orders = _derivatives(_groups(function.rows, float), orders)
+        self.scale = function.fastest_scale()
+        self.empty = not function.rows
+
+    def __call__(self, u: numpy.ndarray, orders: int | None = None) -> list[numpy.ndarray]:
+        """[f(u), f′(u), …] (the first ``orders`` of them) on an array of local times."""
+        u = numpy.asarray(u, dtype=float)
+        wanted = self.orders[:orders] if orders else self.orders
+        totals = [numpy.zeros_like(u) for _ in wanted]
+        with numpy.errstate(over="ignore", invalid="ignore"):
+            for rate, frequency in self.orders[0]:
+                growth = numpy.exp(rate * u) if rate != 0 else 1.0
+                if frequency != 0:
+                    angle = frequency * u
+                    cosine, sine = numpy.cos(angle) * growth, numpy.sin(angle) * growth
+                for order, groups in enumerate(wanted):
+                    a, b = groups[(rate, frequency)]
+                    if frequency != 0:
+                        totals[order] = totals[order] + _horner(a, u) * cosine + _horner(b, u) * sine
+                    else:
+                        totals[order] = totals[order] + _horner(a, u) * growth
+        return totals
+
+    def size(self, u: numpy.ndarray) -> numpy.ndarray:
+        """Σ_k (|A_k| + |B_k|) u^k e^(σu) for f: the size of what is added (float error)."""
+        u = numpy.asarray(u, dtype=float)
+        total = numpy.zeros_like(u)
+        with numpy.errstate(over="ignore", invalid="ignore"):
+            for (rate, _frequency), (a, b) in self.orders[0].items():
+                total = total + _horner([abs(x) + abs(y) for x, y in zip(a, b)], u) \
+                    * numpy.exp(rate * u)
+        return total
+
+
+class PreciseEvaluator:
+    """f, f′, f″ … of a numeric exponential polynomial at the working mpmath precision, the
+    exponential and trigonometric factors shared as in FloatEvaluator."""
+
+    def __init__(self, function: NumericExponentialPolynomial, orders: int = 3) -> None:
+        self.orders = _derivatives(_groups(function.rows), orders)
+
+    def __call__(self, u) -> list:
+        """[f(u), f′(u), …] at one local time."""
+        totals = [mpmath.mpf(0)] * len(self.orders)
+        for rate, frequency in self.orders[0]:
+            growth = mpmath.exp(rate * u) if rate != 0 else 1
+            if frequency != 0:
+                cosine, sine = mpmath.cos_sin(frequency * u)
+                cosine, sine = cosine * growth, sine * growth
+            for order, groups in enumerate(self.orders):
+                a, b = groups[(rate, frequency)]
+                if frequency != 0:
+                    totals[order] += _horner(a, u) * cosine + _horner(b, u) * sine
+                else:
+                    totals[order] += _horner(a, u) * growth
+        return totals
+
+
+@dataclass(frozen=True)
+class _Grid:
+    """f and f′ on a float grid over [0, length] and what it tells about the extremes."""
+
+    points: numpy.ndarray
+    values: numpy.ndarray
+    zeros: list                 # grid indices where f′ is exactly 0 (inside)
+    brackets: list              # grid indices i with a sign change of f′ on [i, i + 1]
+
+
+def _grid(evaluator: FloatEvaluator, length) -> _Grid:
+    """Sign changes of f′ on a float grid over (0, length), fine enough (GRID_PER_SCALE
+    points per shortest period or decay time) that a bracket holds one root."""
+    scale = evaluator.scale
+    count = GRID_PER_SCALE * 4 if scale == float("inf") else int(float(length) / scale * GRID_PER_SCALE)
+    count = min(max(count, GRID_MINIMUM), GRID_LIMIT)
+    points = numpy.linspace(0.0, float(length), count + 1)
+    values = evaluator(points, orders=2)
+    signs = numpy.sign(values[1])
+    finite = numpy.isfinite(values[1])
+    zeros, brackets = [], []
+    for i in numpy.flatnonzero(finite[:-1] & finite[1:] & ((signs[:-1] * signs[1:] < 0)
+                                                          | (signs[:-1] == 0))):
+        if signs[i] == 0:
+            if i > 0:
+                zeros.append(int(i))
+        else:
+            brackets.append(int(i))
+    return _Grid(points, values, zeros, brackets)
 
 
 def stationary_points(function: NumericExponentialPolynomial, length: mpmath.mpf) -> list:
     """Roots of the function's derivative on (0, length), refined to 30 digits."""
-    derivative = function.derivative()
-    if not derivative.rows or length <= 0:
+    evaluator = FloatEvaluator(function)
+    if evaluator.empty or length <= 0:
         return []
-    scale = derivative.fastest_scale()
-    count = GRID_PER_SCALE * 4 if scale == float("inf") else int(float(length) / scale * GRID_PER_SCALE)
-    count = min(max(count, 256), GRID_LIMIT)
-    grid = numpy.linspace(0.0, float(length), count + 1)
-    with numpy.errstate(over="ignore", invalid="ignore"):
-        values = derivative.evaluate_float(grid)
-    signs = numpy.where(numpy.isfinite(values), numpy.sign(values), 0.0)
-    roots = [mpmath.mpf(grid[i]) for i in numpy.nonzero(signs[1:-1] == 0)[0] + 1]
-    for i in numpy.nonzero(signs[:-1] * signs[1:] < 0)[0]:
-        roots.append(_refine(derivative, mpmath.mpf(grid[i]), mpmath.mpf(grid[i + 1])))
+    grid = _grid(evaluator, length)
+    roots = [mpmath.mpf(grid.points[i]) for i in grid.zeros]
+    if grid.brackets:
+        brackets = [(grid.points[i], grid.points[i + 1]) for i in grid.brackets]
+        precise = PreciseEvaluator(function)
+        roots += [_polish(precise, guess, bracket)
+                  for guess, bracket in zip(_float_roots(evaluator, brackets), brackets)]
     return sorted(r for r in roots if 0 < r < length)
 
 
-def _refine(function: NumericExponentialPolynomial, low, high):
-    """Bracketed root by the Illinois (modified regula falsi) method, then bisection."""
+def _refine(function: Callable, low, high):
+    """Bracketed root of ``function`` by the Illinois (modified regula falsi) method."""
     with mpmath.workdps(DIGITS + 10):
         f_low, f_high = function(low), function(high)
         side = 0
@@ -102,44 +272,235 @@ def _refine(function: NumericExponentialPolynomial, low, high):
         return (low + high) / 2
 
 
-def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
-    """max |f| over the intervals, signed, at the earliest time it is reached."""
-    candidates = []
+def _polish(evaluator: PreciseEvaluator, guess: float, bracket: tuple):
+    """A root of f′ from its float value to 30 digits: Newton's method on f′, kept inside the
+    bracket; Illinois if it strays. Convergence is quadratic, so once a step is below
+    10^−(DIGITS/2 + 2) of the time the next one would be below 10^−(DIGITS + 4): that step
+    is taken and the root returned (one or two steps from double precision)."""
     with mpmath.workdps(DIGITS + 10):
-        for interval in intervals:
-            length = interval.end - interval.start
-            points = [mpmath.mpf(0)] + stationary_points(interval.function, length)
-            if length > 0:
-                points.append(length)
-            for local in points:
-                candidates.append((interval.start + local, interval.function(local)))
-        if not candidates:
-            return None
+        low, high = mpmath.mpf(bracket[0]), mpmath.mpf(bracket[1])
+        root = mpmath.mpf(guess)
+        tolerance = mpmath.mpf(10) ** (-DIGITS // 2 - 2) * high
+        for _ in range(8):
+            _value, slope, curvature = evaluator(root)[:3]
+            if curvature == 0:
+                break
+            step = slope / curvature
+            if not low <= root - step <= high:
+                break
+            root -= step
+            if abs(step) <= tolerance:
+                return root
+        return _refine(lambda u: evaluator(u)[1], low, high)
+
+
+def _float_roots(evaluator: FloatEvaluator, brackets: list) -> numpy.ndarray:
+    """The roots of f′ in all brackets at once, in float (candidates only): Newton steps on
+    f′ kept inside each bracket, bisection where a step would leave it. Where rounding noise
+    makes f′ change sign (a double root, e.g. x′ ≈ 0 at a start from rest) the bracket only
+    shrinks; FLOAT_ITERATIONS bounds that, the 30-digit refinement decides."""
+    low = numpy.array([b[0] for b in brackets])
+    high = numpy.array([b[1] for b in brackets])
+    sign_low = numpy.sign(evaluator(low)[1])
+    root = (low + high) / 2
+    for _ in range(FLOAT_ITERATIONS):
+        _value, slope, curvature = evaluator(root)
+        same = numpy.sign(slope) == sign_low
+        low = numpy.where(same, root, low)
+        high = numpy.where(same, high, root)
+        with numpy.errstate(divide="ignore", invalid="ignore"):
+            newton = root - slope / curvature
+        inside = numpy.isfinite(newton) & (newton >= low) & (newton <= high)
+        step = numpy.where(inside, newton, (low + high) / 2)
+        done = ((numpy.abs(step - root) <= 4 * numpy.spacing(numpy.abs(root) + high))
+                | (high - low <= 4 * numpy.spacing(high)) | (slope == 0))
+        root = numpy.where(slope == 0, root, step)
+        if numpy.all(done):
+            break
+    return root
+
+
+def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
+    """max |f| over the intervals, signed, at the earliest time it is reached.
+
+    Candidates are the interval ends (one-sided values) and the roots of f′ inside each
+    interval, found in three rounds: (1) on the float grid every bracket of a root gets an
+    estimate of f there (f′ taken linear across the bracket, error ~ (ωh)³ ≈ 1e-4 of the
+    amplitude); (2) brackets within PRESELECT_MARGIN of the largest estimate have their root
+    found in float; (3) candidates within CANDIDATE_MARGIN (plus the float evaluation error)
+    of the largest float value are refined and evaluated at 30 digits, and the earliest
+    within PEAK_TOLERANCE of the 30-digit maximum is reported.
+    """
+    # (interval index, kind, float local time, bracket or None, value, error)
+    found: list[list] = []
+    evaluators: list[FloatEvaluator] = []
+    for index, interval in enumerate(intervals):
+        evaluator = FloatEvaluator(interval.function)
+        evaluators.append(evaluator)
+        length = interval.end - interval.start
+        if length <= 0 or evaluator.empty:
+            value = evaluator(numpy.zeros(1), orders=1)
+            found.append([index, "start", 0.0, None, float(value[0][0]),
+                          float(FLOAT_ERROR * evaluator.size(numpy.zeros(1))[0])])
+            continue
+        grid = _grid(evaluator, length)
+        f, slope = grid.values[0], grid.values[1]
+        points = [(0, "start")] + [(i, "zero") for i in grid.zeros] + \
+            [(len(grid.points) - 1, "end")]
+        errors = FLOAT_ERROR * evaluator.size(grid.points[[i for i, _ in points]])
+        for (i, kind), error in zip(points, errors):
+            found.append([index, kind, float(grid.points[i]), None, float(f[i]), float(error)])
+        if grid.brackets:
+            low = numpy.array(grid.brackets)
+            width = grid.points[low + 1] - grid.points[low]
+            offset = width * slope[low] / (slope[low] - slope[low + 1])
+            estimates = f[low] + slope[low] * offset / 2
+            errors = FLOAT_ERROR * evaluator.size(grid.points[low] + offset)
+            for i, at, estimate, error in zip(low, grid.points[low] + offset, estimates, errors):
+                found.append([index, "bracket", float(at), (grid.points[i], grid.points[i + 1]),
+                              float(estimate), float(error)])
+    if not found:
+        return None
+    if all(numpy.isfinite(item[4]) and numpy.isfinite(item[5]) for item in found):
+        largest = max(abs(item[4]) for item in found)
+        found = [item for item in found
+                 if abs(item[4]) >= largest * (1 - PRESELECT_MARGIN) - 4 * item[5]]
+        for index in sorted({item[0] for item in found if item[1] == "bracket"}):
+            items = [item for item in found if item[0] == index and item[1] == "bracket"]
+            roots = _float_roots(evaluators[index], [item[3] for item in items])
+            values = evaluators[index](roots, orders=1)[0]
+            for item, root, value in zip(items, roots, values):
+                item[1:3], item[4] = ["root", float(root)], float(value)
+        largest = max(abs(item[4]) for item in found)
+        largest_error = max(item[5] for item in found if abs(item[4]) == largest)
+        found = [item for item in found if abs(item[4]) >= largest - CANDIDATE_MARGIN * largest
+                 - 4 * (item[5] + largest_error)]
+    # else: float overflow somewhere — let 30 digits decide among all candidates
+    candidates = []
+    precise: dict[int, PreciseEvaluator] = {}
+    with mpmath.workdps(DIGITS + 10):
+        for index, kind, time, bracket, _value, _error in found:
+            interval = intervals[index]
+            if index not in precise:
+                precise[index] = PreciseEvaluator(interval.function)
+            if kind == "start":
+                local = mpmath.mpf(0)
+            elif kind == "end":
+                local = interval.end - interval.start
+            elif kind == "zero":
+                local = mpmath.mpf(time)
+            else:
+                local = _polish(precise[index], time, bracket)
+            candidates.append((interval.start + local, precise[index](local)[0]))
         largest = max(abs(value) for _time, value in candidates)
         threshold = largest * (1 - mpmath.mpf(PEAK_TOLERANCE))
         time, value = min(((time, value) for time, value in candidates if abs(value) >= threshold),
                           key=lambda pair: pair[0])
-        return Extreme(float(value), float(time), value)
+        return Extreme(float(value), float(time), value, time)
+
+
+# ----------------------------------------------------------------------------- combinations
+
+
+def linear_combination(parts: Sequence[tuple[object, NumericExponentialPolynomial]],
+                       ) -> NumericExponentialPolynomial:
+    """Σ factor · function, numeric (rows are concatenated; evaluation adds them)."""
+    rows = []
+    digits = DIGITS
+    with mpmath.workdps(DIGITS + 10):
+        for factor, function in parts:
+            digits = function.digits
+            rows += [(power, rate, frequency, kind, c * factor)
+                     for power, rate, frequency, kind, c in function.rows]
+    return NumericExponentialPolynomial(tuple(rows), digits)
+
+
+def _mapped(intervals: Sequence[Interval],
+            transform: Callable[[NumericExponentialPolynomial], NumericExponentialPolynomial],
+            ) -> list[Interval]:
+    return [Interval(i.start, i.end, transform(i.function)) for i in intervals]
+
+
+# ----------------------------------------------------------------------------- results
+
+
+@dataclass(frozen=True)
+class QuantityPeak:
+    """The peak of one derived quantity (velocity, support reaction, current …), SI."""
+
+    name: str           # the JSON field, e.g. "peak_support_reaction"
+    description: str    # what it is, in words, for the sheet
+    unit: str           # SI unit text
+    extreme: Extreme | None
+
+
+@dataclass(frozen=True)
+class Residual:
+    """Amplitude of the free vibration left after the last load has ended (SI).
+
+    Under-damped: the coefficient A of x = A·e^(−ζω(t−t₁))·cos(ω_d(t−t₁) − φ) at the instant
+    t₁ the last load ends, A = √(x² + ((x′ + ζωx)/ω_d)²) (undamped: √(x² + (x′/ω)²));
+    first-order: |y(t₁)|, the start of y(t₁)·e^(−(t−t₁)/τ).
+    """
+
+    amplitude: float
+    after: float
+    unit: str
+    formula: str
+    source: str
+
+
+@dataclass(frozen=True)
+class ImpulseIdealization:
+    """One pulse replaced by an impulse of the same area at its centroid (first occurrence).
+
+    The impulse response of a second-order model, J·b/(a₂ω_d)·e^(−ζω(t−t_c))·sin ω_d(t−t_c)
+    (spring-mass-damper: J/(mω_d)…), peaks at ω_d(t − t_c) = arccos ζ with the value
+    J·b/(a₂ω)·exp(−ζ·arccos ζ/√(1−ζ²)); it is compared with the peak of the response to the
+    pulse alone from rest. ``relative_error`` = (|impulse peak| − |pulse peak|)/|pulse peak|:
+    positive where the idealization overestimates.
+    """
+
+    load: int
+    shape: str
+    start: float
+    duration: float
+    duration_ratio: float        # t_d / T_n
+    area: float
+    area_unit: str
+    centroid: float              # absolute time of the centroid of the first occurrence
+    impulse_peak: Extreme | None
+    pulse_peak: Extreme | None
+    relative_error: float | None
+    unit: str
+    source: str = SOURCE_IMPULSE_RESPONSE
 
 
 @dataclass(frozen=True)
 class Results:
-    """Peak response, static response and dynamic load factor, SI, floats for reporting."""
+    """Peak response, static response and dynamic load factor, SI, floats for reporting,
+    with the quantities derived from the response beyond the peak."""
 
     peak: Extreme | None
     static: float | None
     dlf: float | None
     largest_load: Extreme | None
+    quantities: tuple[QuantityPeak, ...] = ()
+    residual: Residual | None = None
+    idealizations: tuple[ImpulseIdealization, ...] = ()
 
 
 def evaluate_results(case, model, history, solution, window) -> Results:
-    """Peak, static response and DLF; None where symbols have no values."""
+    """Peak, static response, DLF and the derived quantities; None where symbols have no
+    values."""
+    definitions = quantity_definitions(case, model)
     if not case.is_fully_valued:
-        return Results(None, None, None, None)
+        return Results(None, None, None, None,
+                       tuple(QuantityPeak(name, text, unit, None)
+                             for name, text, unit, _ in definitions))
     values = case.symbol_values()
     starts = [piece.start for piece in solution.pieces]
-    intervals = numeric_intervals([p.numeric or p.local for p in solution.pieces], starts,
-                                  window.until, values)
+    intervals = numeric_intervals(piece_functions(solution.pieces), starts, window.until, values)
     peak = extreme_magnitude(intervals)
     load_locals = load_pieces(history, starts, exact=solution.exact)
     largest = extreme_magnitude(numeric_intervals(load_locals, starts, window.until, values))
@@ -148,9 +509,285 @@ def evaluate_results(case, model, history, solution, window) -> Results:
     if gain is not None and largest is not None and largest.value != 0:
         static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
     dlf = abs(peak.value) / static if (peak is not None and static) else None
-    return Results(peak, static, dlf, largest)
+    peaks = tuple(QuantityPeak(name, text, unit, extreme_magnitude(_mapped(intervals, transform)))
+                  for name, text, unit, transform in definitions)
+    residual = None
+    if history.rewrites and load_locals and _is_zero(load_locals[-1]):
+        residual = residual_amplitude(case, model, intervals[-1], values)
+    idealizations = impulse_idealizations(case, model, history, solution, values)
+    return Results(peak, static, dlf, largest, peaks, residual, idealizations)
+
+
+def _is_zero(function: ExponentialPolynomial | NumericExponentialPolynomial) -> bool:
+    if isinstance(function, NumericExponentialPolynomial):
+        return all(c == 0 for *_mode, c in function.rows)
+    return function.is_zero()
+
+
+def _area_unit(load_dimension) -> str:
+    """The SI unit of a load's time integral: a named one (N*s, m/s) or the load's unit·s."""
+    area = _unit(load_dimension * quantities.dimension("time"))
+    load = _unit(load_dimension)
+    if "(" in area or area.count("*") > 1:
+        return "s" if load == "1" else f"{load}*s"
+    return area
+
+
+def _unit(dimension) -> str:
+    return quantities.si_unit_text(dimension)
+
+
+def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
+    """(JSON name, description, SI unit, transform of the response) for the model.
+
+    The transform maps the numeric response on one interval to the quantity on it.
+    """
+    model_name = case.system.model
+    response = case.system.response_dimension
+    time = quantities.dimension("time")
+    values = case.symbol_values()
+    if not case.is_fully_valued:
+        values = None
+
+    def number(expr: sympy.Expr):
+        return None if values is None else _number(expr, values)
+
+    def derivative(order: int) -> Callable:
+        def transform(function: NumericExponentialPolynomial) -> NumericExponentialPolynomial:
+            for _ in range(order):
+                function = function.derivative()
+            return function
+        return transform
+
+    def combination(x_factor, v_factor) -> Callable:
+        return lambda f: linear_combination([(factor, g) for factor, g in
+                                             ((x_factor, f), (v_factor, f.derivative()))
+                                             if factor != 0])
+
+    first, second = derivative(1), derivative(2)
+    if model_name in ("spring-mass-damper", "base-excitation"):
+        m, c, k = (number(a) for a in model.coefficients)
+        force = _unit(quantities.dimension("force"))
+        relative = "relative " if model_name == "base-excitation" else ""
+        prefix = "peak_relative_" if relative else "peak_"
+        definitions = [
+            (f"{prefix}velocity", f"{relative}velocity x′", _unit(response / time), first),
+            (f"{prefix}acceleration", f"{relative}acceleration x″ (one-sided values at load "
+             "steps; the Dirac part at an impulse is left out)", _unit(response / time**2),
+             second),
+        ]
+        if model_name == "base-excitation":
+            definitions.append(
+                ("peak_absolute_acceleration", "absolute acceleration of the mass, "
+                 "u″ + a_g = −(k·u + c·u′)/m", _unit(response / time**2),
+                 combination(None if m is None else -k / m, None if m is None else -c / m)))
+        where = "between mass and support" if model_name == "base-excitation" else "on the support"
+        definitions += [
+            ("peak_spring_force", f"spring force k·x ({where})", force,
+             combination(k, 0) if k is not None else None),
+            ("peak_support_reaction", f"support reaction k·x + c·x′ ({where})", force,
+             combination(k, c) if k is not None else None),
+        ]
+        return definitions
+    if model_name == "series-rlc":
+        capacitance = number(case.system.parameters["capacitance"])
+        current = _unit(quantities.dimension("current"))
+        return [
+            ("peak_current", "current i = C·v′", current,
+             combination(0, capacitance) if capacitance is not None else None),
+            ("peak_capacitor_voltage", "capacitor voltage v", _unit(response), derivative(0)),
+        ]
+    if model_name == "first-order":
+        return [("peak_rate", "rate of change y′", _unit(response / time), first)]
+    definitions = [("peak_derivative", "first derivative x′", _unit(response / time), first)]
+    if model.order >= 2:
+        definitions.append(("peak_second_derivative", "second derivative x″ (one-sided values)",
+                            _unit(response / time**2), second))
+    return definitions
+
+
+def residual_amplitude(case, model, free: Interval, values: Mapping) -> Residual | None:
+    """The free vibration amplitude at the start of ``free`` (the interval after the last
+    load has ended): see ``Residual``. None where the free motion does not oscillate."""
+    unit = _unit(case.system.response_dimension)
+    with mpmath.workdps(DIGITS + 10):
+        x = free.function(0)
+        velocity = free.function.derivative()(0)
+        if model.order == 1:
+            return Residual(float(abs(x)), float(free.start), unit, "|y(t₁)|",
+                            "first-order free decay y(t₁)·e^(−(t−t₁)/τ)")
+        if model.order != 2 or model.regime not in ("undamped", "under-damped"):
+            return None
+        omega = _number(model.natural_frequency(), values)
+        zeta = _number(model.damping_ratio(), values)
+        damped = omega * mpmath.sqrt(1 - zeta**2)
+        amplitude = mpmath.sqrt(x**2 + ((velocity + zeta * omega * x) / damped) ** 2)
+        formula = ("√(x² + (x′/ω)²)" if zeta == 0 else "√(x² + ((x′ + ζωx)/ω_d)²)")
+        return Residual(float(amplitude), float(free.start), unit, formula, SOURCE_FREE_VIBRATION)
+
+
+# ----------------------------------------------------------------------------- impulse idealization
+
+
+def pulse_area_and_centroid(load: LoadSpec, values: Mapping) -> tuple[sympy.Expr, sympy.Expr]:
+    """∫ f dτ and the centroid ∫ τ f dτ / ∫ f dτ of one occurrence (τ from its start), exact.
+
+    Polylines (rectangle, triangle, decay, trapezoid, table) segment by segment:
+    ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6; the
+    half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy.
+    """
+    if load.shape == "half-sine":
+        d, amplitude = load.values["duration"], load.values["amplitude"]
+        return (2 * amplitude * d / sympy.pi).subs(values), (d / 2).subs(values)
+    if load.shape == "formula":
+        d = load.values["duration"]
+        expression = load.expression.subs(values)
+        area = sympy.integrate(expression, (TAU, 0, d.subs(values)))
+        moment = sympy.integrate(TAU * expression, (TAU, 0, d.subs(values)))
+    else:
+        area, moment = sympy.S.Zero, sympy.S.Zero
+        points = [(sympy.sympify(t).subs(values), sympy.sympify(f).subs(values))
+                  for t, f in pulse_points(load)]
+        for (t0, f0), (t1, f1) in zip(points, points[1:]):
+            area += (f0 + f1) * (t1 - t0) / 2
+            moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
+    if area == 0:
+        return sympy.S.Zero, sympy.nan
+    return area, moment / area
+
+
+def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[object, object]:
+    """(time after the impulse, signed peak value) of the response to J·δ(t) from rest of
+    a₂x″ + a₁x′ + a₀x = b·f, closed form (mpmath numbers in, out).
+
+    ω = √(a₀/a₂), ζ = a₁/(2√(a₀a₂)), h(t) = bJ/(a₂ω_d)·e^(−ζωt)·sin ω_d t:
+    h′ = 0 where tan ω_d t = ω_d/(ζω), i.e. ω_d t* = arccos ζ, and
+    h(t*) = bJ/(a₂ω)·exp(−ζ·arccos ζ/√(1−ζ²)); later extremes are smaller (decaying).
+    ζ = 1: h = (bJ/a₂)·t·e^(−ωt), peak at 1/ω, bJ/(a₂ωe).
+    ζ > 1: h = (bJ/a₂)(e^(p₁t) − e^(p₂t))/(p₁ − p₂), peak at ln(p₂/p₁)/(p₁ − p₂).
+    """
+    a2, a1, a0 = coefficients
+    with mpmath.workdps(DIGITS + 10):
+        omega = mpmath.sqrt(a0 / a2)
+        zeta = a1 / (2 * mpmath.sqrt(a0 * a2))
+        gain = scale * impulse / a2
+        if zeta < 1:
+            time = mpmath.acos(zeta) / (omega * mpmath.sqrt(1 - zeta**2))
+            return time, gain / omega * mpmath.exp(-zeta * mpmath.acos(zeta) / mpmath.sqrt(1 - zeta**2))
+        if zeta == 1:
+            return 1 / omega, gain / (omega * mpmath.e)
+        root = omega * mpmath.sqrt(zeta**2 - 1)
+        p1, p2 = -zeta * omega + root, -zeta * omega - root
+        time = mpmath.log(p2 / p1) / (p1 - p2)
+        return time, gain * (mpmath.exp(p1 * time) - mpmath.exp(p2 * time)) / (p1 - p2)
+
+
+def impulse_idealizations(case, model, history: LoadHistory, solution,
+                          values: Mapping) -> tuple[ImpulseIdealization, ...]:
+    """The impulse idealization of every pulse of a second-order case (first occurrence)."""
+    if model.order != 2 or model.coefficients[-1] == 0:
+        return ()
+    with mpmath.workdps(DIGITS + 10):
+        coefficients = [_number(a, values) for a in model.coefficients]
+        scale = _number(model.input_scale, values)
+        omega = mpmath.sqrt(coefficients[2] / coefficients[0])
+        zeta = coefficients[1] / (2 * mpmath.sqrt(coefficients[2] * coefficients[0]))
+        if zeta < 1:
+            span = mpmath.pi / (omega * mpmath.sqrt(1 - zeta**2))   # half a damped period
+        else:
+            span = NON_OSCILLATORY_SPAN * _number(model.slowest_time_scale(), values)
+    unit = _unit(case.system.response_dimension)
+    area_unit = _area_unit(case.system.load_dimension)
+    result = []
+    for load in case.loads:
+        if load.shape not in PULSE_SHAPES:
+            continue
+        start = load.starts()[0]
+        duration = load.length()
+        area, centroid = pulse_area_and_centroid(load, values)
+        with mpmath.workdps(DIGITS + 10):
+            start_mp, duration_mp = _number(start, values), _number(duration, values)
+            area_mp = _number(area, values)
+            ratio = duration_mp * omega / (2 * mpmath.pi)
+            end = start_mp + duration_mp
+            pulse = _pulse_alone_peak(case, model, history, solution, load, values, end,
+                                      end + span)
+            impulse_peak = None
+            relative_error = None
+            centroid_mp = None
+            if area_mp != 0:
+                centroid_mp = start_mp + _number(centroid, values)
+                delay, value = impulse_response_peak(coefficients, scale, area_mp)
+                impulse_peak = Extreme(float(value), float(centroid_mp + delay), value,
+                                       centroid_mp + delay)
+                if pulse is not None and pulse.value_mp != 0:
+                    relative_error = float((abs(value) - abs(pulse.value_mp)) / abs(pulse.value_mp))
+        result.append(ImpulseIdealization(
+            load.number, load.shape, float(start_mp), float(duration_mp), float(ratio),
+            float(area_mp), area_unit, None if centroid_mp is None else float(centroid_mp),
+            impulse_peak, pulse, relative_error, unit))
+    return tuple(result)
+
+
+def _pulse_alone_peak(case, model, history: LoadHistory, solution, load: LoadSpec,
+                      values: Mapping, end, until) -> Extreme | None:
+    """Peak of the response to the first occurrence of ``load`` alone, from rest, over
+    [start, until].
+
+    When the case is that one pulse (no other load, no impulse, numbers only) and its pieces
+    run past the pulse's end, the pulse-alone response is the case's response less the free
+    vibration from the initial values (superposition); otherwise the pulse is solved alone.
+    """
+    pieces = solution.pieces
+    bound = sympy.Float(until, DIGITS + 10)
+    reuse = (len(history.rewrites) == 1 and not history.impulses and not case.symbols
+             and abs(_number(pieces[-1].start, values) - end) <= abs(end) * mpmath.mpf(10) ** -DIGITS)
+    if not reuse:
+        rewrite = next(r for r in history.rewrites if r.load_number == load.number)
+        pieces = solve(model, LoadHistory((rewrite,)), None, bound, exact=solution.exact,
+                       ordering=values).pieces
+    pieces = [p for p in pieces if _number(p.start, values) < until]
+    intervals = numeric_intervals(piece_functions(pieces), [p.start for p in pieces], bound, values)
+    if reuse and solution.free is not None:
+        carrier = NumericCarrier(DIGITS)
+        free = carrier.numeric_terms(solution.free.time_function)
+        intervals = [Interval(i.start, i.end, linear_combination(
+            [(1, i.function), (-1, carrier.numeric_polynomial(carrier.shifted(free, i.start)))]))
+            for i in intervals]
+    return extreme_magnitude(intervals)
+
+
+# ----------------------------------------------------------------------------- JSON
+
+
+def _extreme_field(extreme: Extreme | None, unit: str) -> dict | None:
+    if extreme is None:
+        return None
+    return {"value": extreme.value, "time": extreme.time, "unit": unit}
 
 
 def result_fields(results: Results) -> dict:
-    """JSON fields for the results beyond peak, static and DLF (SI)."""
-    return {}
+    """JSON fields for the results beyond peak, static and DLF (SI; times in s).
+
+    Each peak is {"value", "time", "unit"} (signed value at the earliest time its magnitude
+    is reached); ``residual`` is {"amplitude", "after", "unit"} or null; ``impulse_idealization``
+    lists one entry per pulse.
+    """
+    fields: dict = {q.name: _extreme_field(q.extreme, q.unit) for q in results.quantities}
+    residual = results.residual
+    fields["residual"] = None if residual is None else {
+        "amplitude": residual.amplitude, "after": residual.after, "unit": residual.unit}
+    fields["impulse_idealization"] = [{
+        "load": i.load,
+        "shape": i.shape,
+        "start": i.start,
+        "duration": i.duration,
+        "duration_ratio": i.duration_ratio,
+        "area": i.area,
+        "area_unit": i.area_unit,
+        "centroid": i.centroid,
+        "impulse_peak": _extreme_field(i.impulse_peak, i.unit),
+        "pulse_peak": _extreme_field(i.pulse_peak, i.unit),
+        "relative_error": i.relative_error,
+    } for i in results.idealizations]
+    return fields

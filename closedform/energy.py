@@ -1,0 +1,188 @@
+"""Energy balance of a second-order response at every breakpoint, as an extra check.
+
+Multiplying a₂x″ + a₁x′ + a₀x = b·f(t) by x′ and integrating from 0 to t gives
+
+    W(t) = [E(t) − E(0)] + D(t),   E = ½a₂x′² + ½a₀x²,   D(t) = ∫₀ᵗ a₁x′² dt,
+    W(t) = ∫₀ᵗ b·f·x′ dt + Σ b·J·(x′(tᵢ⁻) + x′(tᵢ⁺))/2  over the impulses J at tᵢ < t
+
+(work done by the loads = kinetic + strain energy gained + energy dissipated; an impulse
+does the work b·J times the mean of the velocities before and after it, which is the change
+of ½a₂x′² it causes). For a spring-mass-damper these are joules (a₂ = m, a₁ = c, a₀ = k,
+b = 1); for base excitation b = −m and the work is that of the effective force −m·a_g on
+the relative motion; for a series RLC circuit the equation is multiplied by C first, so that
+E = ½Li² + ½Cv², D = ∫Ri² dt and W = ∫v_s·i dt, again joules.
+
+E(t) is taken from the pieces at the breakpoint (the value just before it), E(0) from the
+case's initial values. The integrals W and D are evaluated independently of the closed
+form: mpmath.quad (Gauss–Legendre) of the pieces' derivative and of the load evaluated from
+each load's own definition (the same independent load model as the verification), over
+spans cut at every breakpoint and at least every natural period. The balance closes when
+|W − ΔE − D| ≤ 1e-12 × (|W| + E(t) + E(0) + D).
+
+Models of other orders have no such energy and get no energy checks.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+
+import mpmath
+import sympy
+
+from .results import Interval, PreciseEvaluator, numeric_intervals, piece_functions
+from .verify import Check, T, _draws, _equation, _load_model, _problem, _resolved_values
+
+DIGITS = 25                          # working precision of the quadrature
+TOLERANCE = mpmath.mpf("1e-12")      # relative closure of the balance
+SPANS_PER_PERIOD = 1                 # quadrature spans per natural period, at least
+
+SOURCE = ("work-energy balance of the equation of motion (multiply by x′ and integrate); "
+          "Chopra, Dynamics of Structures, 4th ed., section 3.8 (energy dissipated in viscous "
+          "damping; from memory)")
+
+
+def energy_checks(derivation) -> list[Check]:
+    """One check per breakpoint (and at the end of the window) that the work done by the
+    loads equals the kinetic and strain energy gained plus the energy dissipated."""
+    case = derivation.case
+    equation = _equation(case.system)
+    if equation.order != 2 or not derivation.pieces:
+        return []
+    try:
+        values = _substitution(derivation)
+        if values is None:
+            return [Check("energy balance", False, "no positive substitution of the symbols "
+                          "without value keeps the order of the pieces and the damping regime")]
+        return _balance(derivation, equation, values)
+    except Exception as error:  # noqa: BLE001 - reported as a failed check, never swallowed
+        return [Check("energy balance", False,
+                      f"could not be evaluated: {type(error).__name__}: {error}")]
+
+
+def _substitution(derivation) -> dict | None:
+    """The symbol values: none for a numeric case, the declared ones, or (symbols without
+    value) the first of the verification's seeded random substitutions."""
+    case = derivation.case
+    if not case.symbols:
+        return {}
+    if case.is_fully_valued:
+        return _resolved_values(case)
+    draws = _draws(case, _problem(derivation))
+    return draws[0] if draws else None
+
+
+def _number(value, values: Mapping) -> mpmath.mpf:
+    number = sympy.N(sympy.sympify(value).subs(values), DIGITS + 15)
+    return mpmath.mpf(str(number))
+
+
+@dataclass(frozen=True)
+class _Balance:
+    """The equation a₂x″ + a₁x′ + a₀x = b·f scaled to energies (×C for a circuit)."""
+
+    a2: object
+    a1: object
+    a0: object
+    b: object
+    unit: str
+
+    def energy(self, x, velocity):
+        return (self.a2 * velocity**2 + self.a0 * x**2) / 2
+
+
+def _scaled_equation(case, equation, values: Mapping) -> _Balance:
+    a2, a1, a0 = (_number(a, values) for a in equation.coefficients)
+    b = _number(equation.scale, values)
+    factor = _number(case.system.parameters["capacitance"], values) \
+        if case.system.model == "series-rlc" else mpmath.mpf(1)
+    unit = "equation units" if case.system.model == "ode" else "J"
+    return _Balance(a2 * factor, a1 * factor, a0 * factor, b * factor, unit)
+
+
+def _independent_loads(case, values: Mapping) -> tuple[list, list]:
+    """The load from each load's own definition (the verification's load model): branches
+    (start, end or None, f(t)) and impulses (at, J), with numbers."""
+    branches, impulses = _load_model(case.loads)
+    segments = [(_number(b.start, values), None if b.end is None else _number(b.end, values),
+                 sympy.lambdify(T, sympy.sympify(b.value).subs(values), modules="mpmath"))
+                for b in branches]
+    return segments, [(_number(i.at, values), _number(i.size, values)) for i in impulses]
+
+
+def _load_function(segments: Sequence, start, end) -> Callable | None:
+    """The load on (start, end): the branches whose span holds the midpoint, summed (None
+    where no load acts)."""
+    middle = (start + end) / 2
+    active = [s[2] for s in segments if s[0] <= middle and (s[1] is None or middle < s[1])]
+    if not active:
+        return None
+    return lambda time: mpmath.fsum(f(time) for f in active)
+
+
+def _balance(derivation, equation, values: Mapping) -> list[Check]:
+    case = derivation.case
+    with mpmath.workdps(DIGITS):
+        scaled = _scaled_equation(case, equation, values)
+        pieces = derivation.pieces
+        intervals: list[Interval] = numeric_intervals(
+            piece_functions(pieces), [p.start for p in pieces], derivation.window.until, values)
+        until = intervals[-1].end
+        starts = [i.start for i in intervals]
+        states = [PreciseEvaluator(i.function, orders=2) for i in intervals]   # x, x′
+        segments, impulses = _independent_loads(case, values)
+        initial = [_number(v, values) for v in case.initial] if case.initial is not None \
+            else [mpmath.mpf(0), mpmath.mpf(0)]
+        energy_start = scaled.energy(*initial)
+        omega = mpmath.sqrt(abs(scaled.a0 / scaled.a2))
+
+        def close(a, c) -> bool:
+            return abs(a - c) <= mpmath.mpf(10) ** (-DIGITS + 5) * max(abs(a), abs(c), until)
+
+        cuts = sorted([mpmath.mpf(0), until] + starts + [t for t, _ in impulses if t < until]
+                      + [t for lo, hi, _f in segments for t in (lo, hi)
+                         if t is not None and 0 < t < until])
+        times = [cuts[0]] + [b for a, b in zip(cuts, cuts[1:]) if not close(a, b)]
+        checkpoints = starts[1:] + [until]
+        work, dissipated = mpmath.mpf(0), mpmath.mpf(0)
+        checks = []
+        for lo, hi in zip(times, times[1:]):
+            index = max(i for i, s in enumerate(starts) if s <= (lo + hi) / 2)
+            start, state = starts[index], states[index]
+            for at, size in impulses:
+                if close(at, lo):    # the engine starts a piece at every impulse
+                    before = initial[1] if index == 0 else \
+                        states[index - 1](lo - starts[index - 1])[1]
+                    work += scaled.b * size * (before + state(lo - start)[1]) / 2
+            count = max(1, int(mpmath.ceil((hi - lo) * omega / (2 * mpmath.pi) * SPANS_PER_PERIOD)))
+            points = [lo + (hi - lo) * k / count for k in range(count + 1)]
+            if scaled.a1 != 0:
+                dissipated += scaled.a1 * mpmath.quad(
+                    lambda time, state=state, start=start: state(time - start)[1] ** 2,
+                    points, method="gauss-legendre")
+            load = _load_function(segments, lo, hi)
+            if load is not None:
+                work += scaled.b * mpmath.quad(
+                    lambda time, state=state, start=start, load=load:
+                    load(time) * state(time - start)[1], points, method="gauss-legendre")
+            if any(close(hi, c) for c in checkpoints):
+                checks.append(_check(hi, work, scaled.energy(*state(hi - start)), energy_start,
+                                     dissipated, scaled.unit))
+        return checks
+
+
+def _check(time, work, energy, energy_start, dissipated, unit: str) -> Check:
+    closure = abs(work - (energy - energy_start) - dissipated)
+    scale = abs(work) + energy + energy_start + dissipated
+    relative = closure / scale if scale != 0 else (0 if closure == 0 else mpmath.inf)
+    passed = relative <= TOLERANCE
+
+    def show(value) -> str:
+        return mpmath.nstr(value, 10, min_fixed=-4, max_fixed=6)
+    detail = (f"work of the loads W = {show(work)} {unit}; kinetic + strain energy E = "
+              f"{show(energy)} {unit} (initially {show(energy_start)}); dissipated D = "
+              f"{show(dissipated)} {unit}; |W − (E − E(0)) − D| = {mpmath.nstr(closure, 3)}, "
+              f"{mpmath.nstr(relative, 3)} of |W| + E + E(0) + D (limit {mpmath.nstr(TOLERANCE, 1)}); "
+              f"W and D by mpmath.quad (Gauss–Legendre, {DIGITS} digits) of the pieces and the "
+              f"loads; {SOURCE}")
+    return Check(f"energy balance at t = {float(time):.6g} s", bool(passed), detail)
