@@ -96,19 +96,22 @@ def response_samples(derivation, count: int = SAMPLES) -> tuple[numpy.ndarray, n
     return numpy.concatenate(times), numpy.concatenate(responses)
 
 
-def _term_value(term, grid: numpy.ndarray, substitutions, inclusive: bool) -> numpy.ndarray:
-    """One singularity term c·g(t − a)·H(t − a) on the grid; H(0) is 1 when inclusive."""
-    at = _float(term.at, substitutions)
-    coefficient = _float(term.coefficient, substitutions)
+def _term_numbers(term, substitutions) -> tuple[float, float, int, float, float, str]:
+    """(at, coefficient, power, rate, frequency, kind) of one singularity term, as floats."""
     mode = term.mode
-    rate = _float(mode.rate, substitutions)
-    frequency = _float(mode.frequency, substitutions)
+    return (_float(term.at, substitutions), _float(term.coefficient, substitutions), mode.power,
+            _float(mode.rate, substitutions), _float(mode.frequency, substitutions), mode.kind)
+
+
+def _term_value(numbers, grid: numpy.ndarray, inclusive: bool) -> numpy.ndarray:
+    """One singularity term c·g(t − a)·H(t − a) on the grid; H(0) is 1 when inclusive."""
+    at, coefficient, power, rate, frequency, kind = numbers
     local = grid - at
     active = local >= 0 if inclusive else local > 0
     local = numpy.where(active, local, 0.0)
-    value = coefficient * local**mode.power * numpy.exp(rate * local)
+    value = coefficient * local**power * numpy.exp(rate * local)
     if frequency != 0:
-        value = value * (numpy.cos(frequency * local) if mode.kind == COS
+        value = value * (numpy.cos(frequency * local) if kind == COS
                          else numpy.sin(frequency * local))
     return numpy.where(active, value, 0.0)
 
@@ -119,21 +122,22 @@ def load_samples(derivation, count: int = SAMPLES) -> tuple[numpy.ndarray, numpy
     history = derivation.history
     values = derivation.case.symbol_values()
     until = _float(derivation.window.until, values)
-    breakpoints = sorted({_float(term.at, values) for term in history.terms
-                          if _float(term.at, values) <= until})
-    grid = numpy.union1d(numpy.linspace(0.0, until, count + 1), numpy.array(breakpoints))
+    terms = [_term_numbers(term, values) for term in history.terms]
+    breakpoints = numpy.array(sorted({numbers[0] for numbers in terms if numbers[0] <= until}))
+    grid = numpy.union1d(numpy.linspace(0.0, until, count + 1), breakpoints)
     with numpy.errstate(over="ignore", invalid="ignore"):
-        right = sum((_term_value(term, grid, values, True) for term in history.terms),
+        right = sum((_term_value(numbers, grid, True) for numbers in terms),
                     numpy.zeros_like(grid))
+        left = sum((_term_value(numbers, breakpoints, False) for numbers in terms),
+                   numpy.zeros_like(breakpoints))
+    left_at = dict(zip(breakpoints.tolist(), left.tolist()))
     times, loads = [], []
-    for time, value in zip(grid, right):
-        if time in breakpoints:
-            left = sum(float(_term_value(term, numpy.array([time]), values, False)[0])
-                       for term in history.terms)
+    for time, value in zip(grid.tolist(), right.tolist()):
+        if time in left_at:
             times.append(time)
-            loads.append(left)
+            loads.append(left_at[time])
         times.append(time)
-        loads.append(float(value))
+        loads.append(value)
     return numpy.array(times), numpy.array(loads)
 
 

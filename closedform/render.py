@@ -62,6 +62,10 @@ REPORT_DIGITS = 6          # significant digits of reported numbers and converte
 LINE_WIDTH = 64            # rough width of one line of display math, in visible characters
 TERMS_INLINE = 4           # load terms written out as a sum up to this many; a table beyond
 CSV_POINTS = 1000          # intervals of the CSV time grid
+# Long histories: a table or list longer than this is shown as its first and last rows,
+# with every row in a coefficient file beside the sheet (<stem>-coefficients.csv).
+EXCERPT_LIMIT = 40
+EXCERPT_HEAD, EXCERPT_TAIL = 12, 3
 
 LESS = {True: r"\le", False: "<"}
 DERIVATIVE_MARKS = {0: "{v}", 1: r"\dot{{{v}}}", 2: r"\ddot{{{v}}}"}
@@ -602,6 +606,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     response_dimension = case.system.response_dimension
     load_dimension = case.system.load_dimension
     stem = stem or (Path(case.source).stem or "case")
+    coefficient_file = coefficient_file_name(stem)
     variable = model.variable
     response_prefer = ("response", "displacement", "voltage", "current")
     load_prefer = {"spring-mass-damper": ("force",), "base-excitation": ("acceleration",),
@@ -674,21 +679,26 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     # loads as singularity terms -------------------------------------------------------
     rewrites = []
     for rewrite in derivation.history.rewrites:
+        written_out = len(rewrite.terms) <= TERMS_INLINE
         terms = []
-        for term in rewrite.terms:
+        for number, term in excerpt(list(enumerate(rewrite.terms, start=1)), lambda _: None):
             shift = Math("t" if term.at == 0 else rf"t - {_factor(term.at)}")
             if hasattr(term, "mode"):
-                basis = term.mode.expression(u)
-                terms.append({"at": inline(typeset(term.at)),
+                terms.append({"number": number, "at": inline(typeset(term.at)),
                               "coefficient": inline(typeset(term.coefficient)),
-                              "basis": inline(typeset(basis)),
+                              "basis": inline(typeset(term.mode.expression(u))),
                               "latex": _singularity_term(term.coefficient, term.mode.expression(
-                                  t_symbol - term.at), shift)})
+                                  t_symbol - term.at), shift) if written_out else None})
             else:
-                terms.append({"at": inline(typeset(term.at)),
+                terms.append({"number": number, "at": inline(typeset(term.at)),
                               "coefficient": inline(typeset(term.impulse)),
                               "basis": inline(r"\delta(u)"),
-                              "latex": _impulse_term(term.impulse, shift)})
+                              "latex": _impulse_term(term.impulse, shift) if written_out else None})
+        if len(rewrite.terms) > EXCERPT_LIMIT:
+            omitted = len(rewrite.terms) - EXCERPT_HEAD - EXCERPT_TAIL
+            terms.insert(EXCERPT_HEAD, {
+                "number": "…", "at": Math(r"\ldots"), "basis": Math(r"\ldots"),
+                "coefficient": Math(escape(f"{omitted} more terms in {coefficient_file}"))})
         load_name = model.load_name
         rewrites.append({
             "load": rewrite.load_number, "shape": rewrite.shape, "rule": rewrite.rule,
@@ -702,16 +712,18 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
 
     # Laplace transform ------------------------------------------------------------------
     load_transform_name = rf"\mathcal{{L}}\{{{model.load_name}\}}(s)"
-    transform_short = typeset(solution.transform)
+    transform_short = typeset(solution.transform) if solution.transform is not None else None
     transform = {
         "polynomial": display("P(s)", [typeset(t) for t in ordered_terms(
             model.characteristic_polynomial())]),
         "initial": display("Q(s)", [typeset(t) for t in ordered_terms(solution.initial_numerator)]),
         "load": display(load_transform_name, [typeset(t) for t in ordered_terms(
-            solution.load_transform)]),
+            solution.load_transform)]) if solution.load_transform is not None else None,
+        "terms": len(derivation.history.terms) + len(derivation.history.impulses),
         "scale": typeset(model.input_scale),
         "full": Display(Math("X(s)"), (transform_short,))
-        if visible_width(transform_short) <= available_width("X(s)") else None,
+        if transform_short is not None
+        and visible_width(transform_short) <= available_width("X(s)") else None,
         "poles": [inline(typeset(p.root())) + Math(escape(
             (" and its conjugate" if p.is_pair else "")
             + (f", multiplicity {p.multiplicity}" if p.multiplicity > 1 else "")))
@@ -734,16 +746,18 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     if solution.free is not None:
         free = _inversion_context(solution.free, variable + r"_{0}", t_symbol)
 
-    superposition = []
-    for term in derivation.history.terms:
-        superposition.append({"load": term.load_number,
-                              "coefficient": inline(typeset(term.coefficient)),
-                              "at": inline(typeset(term.at)),
-                              "kernel": inline(kernel_names.get(term.mode, "?"))})
-    for impulse in derivation.history.impulses:
-        superposition.append({"load": impulse.load_number,
-                              "coefficient": inline(typeset(impulse.impulse)),
-                              "at": inline(typeset(impulse.at)), "kernel": inline("h")})
+    active = [(term.load_number, term.coefficient, term.at, kernel_names.get(term.mode, "?"))
+              for term in derivation.history.terms]
+    active += [(impulse.load_number, impulse.impulse, impulse.at, "h")
+               for impulse in derivation.history.impulses]
+    superposition = [{"load": load, "coefficient": inline(typeset(coefficient)),
+                      "at": inline(typeset(at)), "kernel": inline(kernel)}
+                     for load, coefficient, at, kernel in excerpt(active, lambda _: None)]
+    if len(active) > EXCERPT_LIMIT:
+        superposition.insert(EXCERPT_HEAD, {
+            "load": "…", "at": Math(r"\ldots"), "kernel": Math(r"\ldots"),
+            "coefficient": Math(escape(f"{len(active) - EXCERPT_HEAD - EXCERPT_TAIL} more "
+                                       f"terms in {coefficient_file}"))})
 
     # pieces --------------------------------------------------------------------------------
     response_unit = units.unit_for(response_dimension, response_prefer)
@@ -753,7 +767,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
                       or time_unit is not None and time_unit.factor != 1))
     si_response_unit = quantities.si_unit_text(response_dimension)
     pieces = []
-    for i, piece in enumerate(derivation.pieces, start=1):
+    for i, piece in excerpt(list(enumerate(derivation.pieces, start=1)), lambda omitted: None):
         end = piece.end if piece.end is not None else derivation.window.until
         last = piece.end is None
         start_si, start_shown = units.show(piece.start, time_dimension, ("time",), exact=True)
@@ -788,6 +802,10 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
                 shown_lhs, grouped_terms(shown_rows, local, available_width(shown_lhs)))
             entry["shown_time"] = inline(rf"\hat{{t}}\,[{unit_latex(time_text)}]")
         pieces.append(entry)
+        if len(derivation.pieces) > EXCERPT_LIMIT and i == EXCERPT_HEAD:
+            pieces.append({"gap": Math(escape(
+                f"Intervals {EXCERPT_HEAD + 1} to {len(derivation.pieces) - EXCERPT_TAIL} are "
+                f"not printed; the coefficients of every interval are in {coefficient_file}."))})
 
     # results -----------------------------------------------------------------------------
     rows = []
@@ -880,6 +898,56 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
     }
+
+
+def excerpt(rows: list, gap: Callable[[int], Any]) -> list:
+    """The first and last rows of a long list, with ``gap(omitted)`` between them (dropped
+    when it is None); short lists are returned whole."""
+    if len(rows) <= EXCERPT_LIMIT:
+        return rows
+    omitted = len(rows) - EXCERPT_HEAD - EXCERPT_TAIL
+    middle = gap(omitted)
+    return rows[:EXCERPT_HEAD] + ([middle] if middle is not None else []) + rows[-EXCERPT_TAIL:]
+
+
+def is_long_history(derivation) -> bool:
+    history = derivation.history
+    return max(len(derivation.pieces), len(history.terms) + len(history.impulses)) > EXCERPT_LIMIT
+
+
+def coefficient_file_name(stem: str) -> str:
+    return f"{slug(stem)}-coefficients.csv"
+
+
+def render_coefficients(derivation) -> str:
+    """Every load term and every interval's coefficients, SI, for long histories."""
+    rows = ["# closedform: load terms c*g(t-a)*H(t-a) and J*delta(t-a), then the response on "
+            "each interval as sum of coefficient * local_time^power * exp(rate*local_time) "
+            "* cos|sin(frequency*local_time); SI units, local_time = t - start"]
+    rows.append("kind,number,start_s,end_s,coefficient,power,rate_1_per_s,frequency_rad_per_s,"
+                "function")
+    values = derivation.case.symbol_values()
+
+    def text(value) -> str:
+        if isinstance(value, sympy.Float):
+            return format(float(value), ".17g")
+        value = sympy.sympify(value).subs(values)
+        return format(float(sympy.N(value, 30)), ".17g") if not value.free_symbols else str(value)
+
+    history = derivation.history
+    for number, term in enumerate(history.terms, start=1):
+        rows.append(f"load term,{number},{text(term.at)},,{text(term.coefficient)},"
+                    f"{term.mode.power},{text(term.mode.rate)},{text(term.mode.frequency)},"
+                    f"{term.mode.kind}")
+    for number, impulse in enumerate(history.impulses, start=1):
+        rows.append(f"impulse,{number},{text(impulse.at)},,{text(impulse.impulse)},,,,delta")
+    for number, piece in enumerate(derivation.pieces, start=1):
+        end = text(piece.end) if piece.end is not None else text(derivation.window.until)
+        for mode in piece.local.modes():
+            rows.append(f"interval,{number},{text(piece.start)},{end},"
+                        f"{text(piece.local.terms[mode])},{mode.power},{text(mode.rate)},"
+                        f"{text(mode.frequency)},{mode.kind}")
+    return "\n".join(rows) + "\n"
 
 
 def slug(stem: str) -> str:
@@ -1226,6 +1294,8 @@ def render_outputs(derivation, formats, stem: str) -> dict[str, str | bytes]:
     if "pdf" in formats:
         require_latex()   # before any work: name the missing tool
     contents: dict[str, str | bytes] = {}
+    if is_long_history(derivation) and {"md", "tex", "pdf"} & set(formats):
+        contents[coefficient_file_name(stem)] = render_coefficients(derivation)
     if "md" in formats:
         contents[f"{stem}.md"] = render_markdown(derivation, stem=stem)
     if "md" in formats or "svg" in formats:

@@ -382,3 +382,36 @@ if __name__ == "__main__":
     if sys.argv[1:] != ["--update-golden"]:
         sys.exit(f"usage: {REGENERATE}")
     update_golden()
+
+
+def test_a_long_history_sheet_prints_an_excerpt_and_puts_every_coefficient_in_a_csv(tmp_path):
+    """A 60-segment table: the sheet shows the first and last intervals and names the
+    coefficient file, which holds every load term and every interval (common practice for
+    long tabulated results: summary in the sheet, full table beside it)."""
+    import closedform as cf
+
+    points = ", ".join(f"[{i * 0.002:.3f}, {0 if i in (0, 60) else 1000 + 100 * ((i * i) % 13)}]"
+                       for i in range(61))
+    case = cf.load_case_text(f"""
+title = "Long history"
+[system]
+model = "spring-mass-damper"
+mass = "100 kg"
+stiffness = "1 MN/m"
+damping_ratio = 0.05
+[[load]]
+shape = "table"
+points = [{points}]
+[report]
+until = "0.2 s"
+""", "long.toml")
+    derivation = cf.derive(case)
+    assert derivation.status == "verified"
+    contents = render.render_outputs(derivation, ["md"], "long")
+    sheet = contents["long.md"]
+    assert "not printed; the coefficients of every interval are in long-coefficients.csv" in sheet
+    assert sheet.count("Interval ") <= render.EXCERPT_HEAD + render.EXCERPT_TAIL + 1
+    rows = contents["long-coefficients.csv"].splitlines()
+    intervals = {row.split(",")[1] for row in rows if row.startswith("interval,")}
+    assert len(intervals) == len(derivation.pieces)
+    assert sum(row.startswith("load term,") for row in rows) == len(derivation.history.terms)
