@@ -14,6 +14,7 @@ import sympy
 
 from . import __version__
 from .case import Case
+from .energy import energy_checks
 from .loads import LoadHistory, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve, t
 from .results import Extreme, Results, evaluate_results, result_fields
@@ -117,6 +118,8 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
         partial = Derivation(case, model, history, window, solution, results, ())
         with budget.stage("verification"):
             checks = tuple(verify(partial))
+        with budget.stage("energy balance"):
+            checks += tuple(energy_checks(partial))
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window))
 
