@@ -23,6 +23,16 @@ The checks, each of which fails with a figure when the pieces are wrong:
   breakpoints and compared with the pieces at 64 or more points.
 * **impulse of load[N]**: for pulses given by their area, ∫ shape dt equals that area.
 
+Long histories (more than LONG_HISTORY pieces, numeric cases: measured tables, many repeats)
+get the same checks on numbers, without sympy differentiation or substitution per piece:
+each piece is parsed once into its exp·cos/sin·polynomial terms, the load is evaluated with
+numbers from each load's own definition, and the residual and the breakpoint conditions are
+one check each, **ode residual on N pieces** and **breakpoint conditions at N − 1
+boundaries**, with the worst figure and where it occurs (residual at 3 points per interval
+between load breakpoints). The integration is compared at one or more points inside every
+load interval, at most LONG_SAMPLES, never on a breakpoint; steps of equal length share
+their matrix exponential. See "long histories" below.
+
 Symbolic cases get the residual, initial and breakpoint checks symbolically, and the numeric
 checks with the declared values (all symbols valued) or at three seeded random positive
 substitutions (some symbols without value).
@@ -275,6 +285,18 @@ class _Problem:
                 times.append(segment.end)
         times.extend(impulse.at for impulse in self.impulses)
         return times
+
+    sample_cap = None             # compare the integration at every sample point
+
+    def integration_loads(self) -> _SymbolicLoads:
+        return _SymbolicLoads(self)
+
+    def piece_starts(self, dps: int) -> list[mpmath.mpf]:
+        return [_mp(p.start, None, dps) for p in self.pieces]
+
+    def value_function(self, index: int) -> Callable[[mpmath.mpf], mpmath.mpf]:
+        function = _function([self.pieces[index].x])
+        return lambda time: function(time)[0]
 
     def subs(self, values: Mapping) -> _Problem:
         if not values:
@@ -537,37 +559,39 @@ def _spans(problem: _Problem, lo_expr: sympy.Expr, hi_expr: sympy.Expr,
 # ----------------------------------------------------------------------------- coverage
 
 
-def _coverage_check(problem: _Problem, values: Mapping) -> Check:
+def _coverage_check(problem: Any, values: Mapping,
+                    number: Callable[[sympy.Expr], mpmath.mpf] | None = None) -> Check:
     def run() -> tuple[bool, str]:
         pieces = problem.pieces
         if not pieces:
             return False, "the derivation has no pieces"
-        until = _mp(problem.until, values)
+        convert = number if number is not None else (lambda value: _mp(value, values))
+        until = convert(problem.until)
         problems = []
-        start = _mp(pieces[0].start, values)
+        start = convert(pieces[0].start)
         if start != 0:
             problems.append(f"the first piece starts at {_short(start)} s, not 0")
         previous = None
         for index, piece in enumerate(pieces):
-            here = _mp(piece.start, values)
+            here = convert(piece.start)
             if previous is not None and not here > previous:
                 problems.append(f"piece {index + 1} starts at {_short(here)} s, not after "
                                 f"{_short(previous)} s")
             if piece.end is not None:
-                end = _mp(piece.end, values)
+                end = convert(piece.end)
                 if index + 1 == len(pieces):
                     if end < until and not _same_time(end, until, until):
                         problems.append(f"the last piece ends at {_short(end)} s, before "
                                         f"until = {_short(until)} s")
                 else:
-                    following = _mp(pieces[index + 1].start, values)
+                    following = convert(pieces[index + 1].start)
                     if not _same_time(end, following, until):
                         problems.append(f"piece {index + 1} ends at {_short(end)} s but piece "
                                         f"{index + 2} starts at {_short(following)} s")
             elif index + 1 != len(pieces):
                 problems.append(f"piece {index + 1} is open-ended but not the last")
             previous = here
-        if not _mp(pieces[-1].start, values) < until:
+        if not convert(pieces[-1].start) < until:
             problems.append(f"the last piece starts at or after until = {_short(until)} s")
         if problems:
             return False, "; ".join(problems)
@@ -834,6 +858,17 @@ def _matvec(matrix: list[list[mpmath.mpf]], vector: list[mpmath.mpf]) -> list[mp
     return [mpmath.fsum(row[k] * vector[k] for k in range(len(vector))) for row in matrix]
 
 
+def _matvec_plain(matrix: list[list[mpmath.mpf]], vector: list[mpmath.mpf]) -> list[mpmath.mpf]:
+    """The same product summed left to right (long histories: thousands of steps)."""
+    result = []
+    for row in matrix:
+        total = row[0] * vector[0]
+        for k in range(1, len(vector)):
+            total += row[k] * vector[k]
+        result.append(total)
+    return result
+
+
 def _expm(matrix: list[list[mpmath.mpf]], h: mpmath.mpf) -> list[list[mpmath.mpf]]:
     return [list(row) for row in _expm_kept(tuple(tuple(row) for row in matrix), h, mpmath.mp.prec)]
 
@@ -864,7 +899,51 @@ def _rates(a: list[mpmath.mpf], rho: mpmath.mpf) -> tuple[mpmath.mpf, mpmath.mpf
     return oscillation, decay
 
 
-def _integrate(problem: _Problem) -> _Trajectory:
+class _SymbolicLoads:
+    """The load as the integrator sees it, from the problem's sympy segments (short histories:
+    the load on an interval is the sympy sum of the branches active there)."""
+
+    long_history = False
+
+    def __init__(self, problem: _Problem) -> None:
+        self.problem = problem
+        self.kicks = [(_mp(i.at, None, INTEGRATION_DIGITS), _mp(i.size, None, INTEGRATION_DIGITS))
+                      for i in problem.impulses]
+
+    def cuts(self, until: mpmath.mpf) -> list[mpmath.mpf]:
+        cuts = [mpmath.mpf(0), until]
+        for time in self.problem.breakpoints():
+            number = _mp(time, None, INTEGRATION_DIGITS)
+            if 0 < number < until and not any(_same_time(number, c, until) for c in cuts):
+                cuts.append(number)
+        cuts.sort()
+        return cuts
+
+    def kicks_at(self, time: mpmath.mpf, until: mpmath.mpf) -> list[mpmath.mpf]:
+        return [size for at, size in self.kicks if _same_time(at, time, until)]
+
+    def on(self, lo: mpmath.mpf, hi: mpmath.mpf) -> tuple:
+        """("free",), ("polynomial", p, [load⁽q⁾(lo) for q ≤ p]) or ("general", f, rates)."""
+        load = _load_on(self.problem, lo, hi, {})
+        if load == 0:
+            return ("free",)
+        if load.is_polynomial(T):
+            p = sympy.Poly(load, T).degree()
+            values = []
+            derivative = load
+            for _ in range(p + 1):
+                values.append(_polynomial_value(derivative, lo))
+                derivative = sympy.diff(derivative, T)
+            return ("polynomial", p, values)
+        mid = (lo + hi) / 2
+        rates = [_mp(s.rate, None, INTEGRATION_DIGITS) for s in self.problem.segments
+                 if s.rate is not None and s.value.has(T) and _mp(s.start, None) <= mid
+                 and (s.end is None or mid < _mp(s.end, None))]
+        function = _function([load])
+        return ("general", lambda time: function(time)[0], rates)
+
+
+def _integrate(problem: Any, loads: Any = None) -> _Trajectory:
     """Integrate a_n x⁽ⁿ⁾ + … + a_0 x = b·load(t) at 40 digits (numeric problem only).
 
     Method (chosen to share nothing with the Laplace route of the derivation): the state
@@ -885,7 +964,13 @@ def _integrate(problem: _Problem) -> _Trajectory:
     Impulses add b·J/a_n to x⁽ⁿ⁻¹⁾ at their instant. Every interval is cut into at least two
     sample divisions and, in proportion to its length, enough more that the interior division
     nodes (never a breakpoint) give at least SAMPLES comparison points over the window.
+    Steps of equal length share their matrix exponentials (for long histories the lengths are
+    compared to INTEGRATION_DIGITS − 5 digits, so that the thousands of equal table intervals
+    need only a few).
+
+    ``loads`` gives the load on each interval (default: from the problem's sympy segments).
     """
+    loads = loads if loads is not None else _SymbolicLoads(problem)
     with mpmath.workdps(INTEGRATION_DIGITS):
         equation = problem.equation
         n = equation.order
@@ -907,14 +992,8 @@ def _integrate(problem: _Problem) -> _Trajectory:
         z = [_mp(problem.initial[i], None, INTEGRATION_DIGITS) / rho ** i for i in range(n)]
         oscillation, decay = None, None
 
-        cuts = [mpmath.mpf(0), until]
-        for time in problem.breakpoints():
-            number = _mp(time, None, INTEGRATION_DIGITS)
-            if 0 < number < until and not any(_same_time(number, c, until) for c in cuts):
-                cuts.append(number)
-        cuts.sort()
-        kicks = [(_mp(i.at, None, INTEGRATION_DIGITS), _mp(i.size, None, INTEGRATION_DIGITS))
-                 for i in problem.impulses]
+        cuts = loads.cuts(until)
+        multiply = _matvec_plain if loads.long_history else _matvec
 
         cache: dict[tuple, Any] = {}
         samples: list[tuple[mpmath.mpf, mpmath.mpf]] = []
@@ -922,25 +1001,21 @@ def _integrate(problem: _Problem) -> _Trajectory:
         steps = 0
         capped = False
         for lo, hi in zip(cuts, cuts[1:]):
-            for at, size in kicks:
-                if _same_time(at, lo, until):
-                    z[n - 1] += b * size / a[n] / rho ** (n - 1)
+            for size in loads.kicks_at(lo, until):
+                z[n - 1] += b * size / a[n] / rho ** (n - 1)
             largest = max(largest, abs(z[0]))
             length = hi - lo
-            load = _load_on(problem, lo, hi, {})
+            load = loads.on(lo, hi)
             divisions = max(2, int(mpmath.ceil(SAMPLES * length / until)) + 1)
             per_division = 1
-            if load == 0:
+            if load[0] == "free":
                 kind: tuple = ("free",)
-            elif load.is_polynomial(T):
-                kind = ("polynomial", sympy.Poly(load, T).degree())
+            elif load[0] == "polynomial":
+                kind = ("polynomial", load[1])
             else:
                 if oscillation is None:
                     oscillation, decay = _rates(a, rho)
-                mid = (lo + hi) / 2
-                rates = [_mp(s.rate, None, INTEGRATION_DIGITS) for s in problem.segments
-                         if s.rate is not None and s.value.has(T) and _mp(s.start, None) <= mid
-                         and (s.end is None or mid < _mp(s.end, None))]
+                rates = load[2]
                 nu = max(rates) if rates else 32 / length
                 needed = int(mpmath.ceil(length * (abs(nu) + oscillation) / 2))
                 per_division = max(1, -(-needed // divisions))
@@ -949,6 +1024,8 @@ def _integrate(problem: _Problem) -> _Trajectory:
                 kind = ("general",)
             count = divisions * per_division
             h = length / count
+            if loads.long_history:                     # equal lengths to 35 digits: one step
+                h = mpmath.mpf(mpmath.nstr(h, INTEGRATION_DIGITS - 5, strip_zeros=False))
             key = kind + (h,)
             if kind[0] == "polynomial":
                 p = kind[1]
@@ -961,11 +1038,9 @@ def _integrate(problem: _Problem) -> _Trajectory:
                     for q in range(p):
                         M[n + q][n + q + 1] = rho      # w_q' = ρ·w_(q+1)
                     cache[key] = _expm(M, h)
-                derivative = load
                 state = list(z)
                 for q in range(p + 1):                 # w_q = β·load⁽q⁾(lo)/ρ^(q+1)
-                    state.append(beta * _polynomial_value(derivative, lo) / rho ** (q + 1))
-                    derivative = sympy.diff(derivative, T)
+                    state.append(beta * load[2][q] / rho ** (q + 1))
             else:
                 state = list(z)
                 if key not in cache:
@@ -973,15 +1048,15 @@ def _integrate(problem: _Problem) -> _Trajectory:
                         (_expm(A, h), _quadrature_vectors(A, beta, h, decay))
             if kind[0] == "general":
                 propagator, vectors = cache[key]
-                load_function = _function([load])
+                load_function = load[1]
             else:
                 propagator = cache[key]
             for k in range(1, count + 1):
                 start = lo + (k - 1) * h
-                state = _matvec(propagator, state)
+                state = multiply(propagator, state)
                 if kind[0] == "general":
                     for s, vector in vectors:
-                        value = load_function(start + s)[0]
+                        value = load_function(start + s)
                         for i in range(n):
                             state[i] += vector[i] * value
                 steps += 1
@@ -1017,20 +1092,28 @@ def _polynomial_value(polynomial: sympy.Expr, time: mpmath.mpf) -> mpmath.mpf:
     return mpmath.polyval(coefficients, time)
 
 
-def _integration_check(problem: _Problem, label: str = "", peak: Any = None) -> Check:
+def _spread(samples: list, cap: int | None) -> list:
+    """At most ``cap`` of the samples, evenly spread over the list (all of them without cap)."""
+    if cap is None or len(samples) <= cap:
+        return samples
+    return [samples[(i * (len(samples) - 1)) // (cap - 1)] for i in range(cap)]
+
+
+def _integration_check(problem: Any, label: str = "", peak: Any = None) -> Check:
     def run() -> tuple[bool, str]:
-        trajectory = _integrate(problem)
-        starts = [_mp(p.start, None, INTEGRATION_DIGITS) for p in problem.pieces]
+        trajectory = _integrate(problem, problem.integration_loads())
+        samples = _spread(trajectory.samples, problem.sample_cap)
+        starts = problem.piece_starts(INTEGRATION_DIGITS)
         functions: dict[int, Callable] = {}
         worst, where = mpmath.mpf(0), None
         with mpmath.workdps(INTEGRATION_DIGITS):
-            for time, value in trajectory.samples:
+            for time, value in samples:
                 index = bisect.bisect_right(starts, time) - 1
                 if index < 0:
                     return False, f"no piece covers t = {_short(time)} s"
                 if index not in functions:
-                    functions[index] = _function([problem.pieces[index].x])
-                difference = abs(functions[index](time)[0] - value)
+                    functions[index] = problem.value_function(index)
+                difference = abs(functions[index](time) - value)
                 if where is None or difference > worst:
                     worst, where = difference, time
             scale = max(trajectory.largest, TINY)
@@ -1039,7 +1122,7 @@ def _integration_check(problem: _Problem, label: str = "", peak: Any = None) -> 
         return passed, (f"max |x − x_integrated| = {_figure(worst)} at t = {_short(where)} s, "
                         f"{_figure(worst / scale)} of max |x_integrated| = {_figure(scale)}"
                         f"{peak_note} (limit {_figure(INTEGRATION_TOLERANCE)}; "
-                        f"{len(trajectory.samples)} points, {trajectory.steps} steps, "
+                        f"{len(samples)} points, {trajectory.steps} steps, "
                         f"{INTEGRATION_DIGITS}-digit matrix exponential and Gauss–Legendre"
                         + ("; step limit reached on a stiff interval, quadrature accuracy not "
                            "assured" if trajectory.capped else "") + ")")
@@ -1183,6 +1266,903 @@ def _describe(values: Mapping) -> str:
                      sorted(values.items(), key=lambda item: str(item[0])))
 
 
+# ----------------------------------------------------------------------------- long histories
+#
+# A table load with hundreds of rows gives hundreds of pieces. Checking each of them through
+# sympy (derivatives, substitution, compilation) costs far more than the derivation, so
+# beyond LONG_HISTORY pieces the same checks run on numbers:
+#
+# * every piece is read once into its exp·cos/sin·polynomial structure, Σ Re[C·P(v)·e^{λv+μ}]
+#   (P a product of linear factors, λ and μ complex where cos/sin appear), by a small
+#   parser of its sympy expression; derivatives then follow from Leibniz's rule,
+#   (P e^{λv})⁽ⁱ⁾ = e^{λv} Σ_r C(i, r)·λ^{i−r}·P⁽ʳ⁾ (no sympy differentiation). A piece
+#   outside that structure is differentiated by sympy as for short histories;
+# * a piece that carries its form in its own local time u = t − start (``piece.local``,
+#   Σ c·mode(u): the coefficient table the sheet prints for long histories) is read in that
+#   form, each distinct mode through its own ``expression(u)`` once, which spares building
+#   and re-substituting thousands of sympy expressions; other pieces are read through
+#   ``piece.expression(t)`` as always;
+# * the load is evaluated from each load's own definition with numbers (table rows as
+#   linear interpolation, other shapes from the shape table), found by bisection in the
+#   sorted breakpoints;
+# * the residual and the breakpoint conditions are reported as one check each, with the
+#   worst figure and where it occurs; the integration is compared at a spread of at most
+#   LONG_SAMPLES points, one or more inside every load interval, never on a breakpoint.
+
+LONG_HISTORY = 40                  # more pieces than this: aggregated checks, numeric route
+LONG_SAMPLES = 2000                # comparison points of the integration, at most
+LONG_POINT_FRACTIONS = ("0.07", "0.41", "0.77")   # residual points per interval
+PARSE_DIGITS = EXACT_DIGITS + 20   # numbers of the parsed pieces and loads
+_U = sympy.Dummy("u", real=True)   # a piece's local time
+_FALLING = [[math.perm(i, r) for r in range(i + 1)] for i in range(8)]   # i!/(i−r)!
+
+
+with mpmath.workdps(PARSE_DIGITS):
+    _SAME = mpmath.mpf("1e-30")        # _same_time's tolerance, made once
+
+
+def _close(a: mpmath.mpf, b: mpmath.mpf, scale: mpmath.mpf) -> bool:
+    """_same_time for the long route (the tolerance made once, not per call)."""
+    return abs(a - b) <= _SAME * max(abs(a), abs(b), scale)
+
+
+class _OutsideStructure(Exception):
+    """The expression is not a sum of C·polynomial·exp·cos/sin terms of linear arguments."""
+
+
+@dataclass(frozen=True)
+class _Term:
+    """coefficient · Π (s·v + q)^k · e^{rate·v + offset}; the real part of it unless ``real``."""
+
+    coefficient: Any
+    factors: tuple[tuple[mpmath.mpf, mpmath.mpf, int], ...]
+    rate: Any
+    offset: Any
+    real: bool
+
+    def times(self, other: _Term) -> list[_Term]:
+        factors = self.factors + other.factors
+        if self.real or other.real:
+            return [_Term(self.coefficient * other.coefficient, factors, self.rate + other.rate,
+                          self.offset + other.offset, self.real and other.real)]
+        # Re(z₁)·Re(z₂) = ½ Re(z₁ z₂) + ½ Re(z₁ z̄₂)
+        half = mpmath.mpf(1) / 2
+        return [_Term(half * self.coefficient * other.coefficient, factors,
+                      self.rate + other.rate, self.offset + other.offset, False),
+                _Term(half * self.coefficient * mpmath.conj(other.coefficient), factors,
+                      self.rate + mpmath.conj(other.rate), self.offset + mpmath.conj(other.offset),
+                      False)]
+
+
+def _constant_term(value: Any) -> _Term:
+    return _Term(value, (), mpmath.mpf(0), mpmath.mpf(0), True)
+
+
+class _Parser:
+    """Reads sympy expressions of one variable into _Term lists (numbers at PARSE_DIGITS);
+    keeps what it read, since the pieces of one history share most sub-expressions."""
+
+    def __init__(self, variable: sympy.Symbol) -> None:
+        self.variable = variable
+        self.numbers: dict[sympy.Expr, tuple[mpmath.mpf, bool]] = {}
+        self.kept: dict[sympy.Expr, tuple[list[_Term], bool]] = {}
+        self.modes: dict[Any, tuple[list[_Term], bool]] = {}
+        self.ready: dict[int, tuple[_Term, _Prepared]] = {}
+        self.floats = False            # a 30-digit float was read (since last reset)
+
+    def number(self, expr: sympy.Expr) -> mpmath.mpf:
+        if expr.is_Float:
+            self.floats = True
+            return mpmath.mpf(expr._mpf_)
+        if expr.is_Rational:
+            return mpmath.mpf(int(expr.p)) / int(expr.q)
+        if expr in self.numbers:
+            number, floats = self.numbers[expr]
+            self.floats = self.floats or floats
+            return number
+        floats = expr.has(sympy.Float)
+        self.floats = self.floats or floats
+        if expr.free_symbols:
+            raise ValueError(f"no numeric value for {', '.join(sorted(map(str, expr.free_symbols)))}")
+        value = sympy.N(expr, PARSE_DIGITS + 5)
+        real, imaginary = value.as_real_imag()
+        if imaginary != 0:
+            raise _OutsideStructure(f"{expr} is not real")
+        number = mpmath.mpf(real._mpf_) if real.is_Float else mpmath.mpf(str(real))
+        self.numbers[expr] = (number, floats)
+        return number
+
+    def linear(self, expr: sympy.Expr) -> tuple[mpmath.mpf, mpmath.mpf]:
+        """(s, q) with expr = s·v + q."""
+        if expr == self.variable:
+            return mpmath.mpf(1), mpmath.mpf(0)
+        if expr.is_number:
+            return mpmath.mpf(0), self.number(expr)
+        if expr.is_Add:
+            s, q = mpmath.mpf(0), mpmath.mpf(0)
+            for part in expr.args:
+                ds, dq = self.linear(part)
+                s, q = s + ds, q + dq
+            return s, q
+        if expr.is_Mul:
+            s, q = mpmath.mpf(0), mpmath.mpf(1)
+            for part in expr.args:
+                ds, dq = self.linear(part)
+                if s != 0 and ds != 0:
+                    raise _OutsideStructure(f"{expr} is not linear")
+                s, q = s * dq + q * ds, q * dq
+            return s, q
+        raise _OutsideStructure(f"{expr} is not linear in {self.variable}")
+
+    def terms(self, expr: sympy.Expr) -> list[_Term]:
+        with mpmath.workdps(PARSE_DIGITS):
+            return self._terms(expr)
+
+    def prepared(self, term: _Term, weights: Sequence[mpmath.mpf]) -> _Prepared:
+        """_prepare(term), once per term read from a mode (kept with the term)."""
+        kept = self.ready.get(id(term))
+        if kept is None or kept[0] is not term:
+            kept = self.ready[id(term)] = (term, _prepare(term, weights))
+        return kept[1]
+
+    def mode(self, mode: Any) -> list[_Term]:
+        """The terms of ``mode.expression(u)`` (each distinct mode read once)."""
+        if mode not in self.modes:
+            before, self.floats = self.floats, False
+            terms = self.terms(sympy.sympify(mode.expression(self.variable)))
+            self.modes[mode] = (terms, self.floats)
+            self.floats = before
+        terms, floats = self.modes[mode]
+        self.floats = self.floats or floats
+        return terms
+
+    def _terms(self, expr: sympy.Expr) -> list[_Term]:
+        if expr.is_Add:
+            return [term for part in expr.args for term in self._terms(part)]
+        if expr.is_Mul:
+            result = [_constant_term(mpmath.mpf(1))]
+            for part in expr.args:
+                result = [product for left in result for right in self._terms(part)
+                          for product in left.times(right)]
+            return result
+        if expr.is_number:
+            return [_constant_term(self.number(expr))]
+        if expr == self.variable:
+            return [_Term(mpmath.mpf(1), ((mpmath.mpf(1), mpmath.mpf(0), 1),), mpmath.mpf(0),
+                          mpmath.mpf(0), True)]
+        if expr in self.kept:
+            result, floats = self.kept[expr]
+            self.floats = self.floats or floats
+            return result
+        before, self.floats = self.floats, False
+        result = self._function(expr)
+        self.kept[expr] = (result, self.floats)
+        self.floats = self.floats or before
+        return result
+
+    def _function(self, expr: sympy.Expr) -> list[_Term]:
+        zero = mpmath.mpf(0)
+        if expr.is_Pow:
+            base, exponent = expr.args
+            if not (exponent.is_Integer and 0 < exponent <= 12):
+                raise _OutsideStructure(f"{expr}: not a polynomial power")
+            try:
+                s, q = self.linear(base)
+                return [_Term(mpmath.mpf(1), ((s, q, int(exponent)),), zero, zero, True)]
+            except _OutsideStructure:
+                pass
+            result = [_constant_term(mpmath.mpf(1))]
+            for _ in range(int(exponent)):
+                result = [product for left in result for right in self._terms(base)
+                          for product in left.times(right)]
+            return result
+        if len(expr.args) != 1:
+            raise _OutsideStructure(f"{expr}: outside the exp·cos/sin·polynomial structure")
+        s, q = self.linear(expr.args[0])
+        i = mpmath.mpc(0, 1)
+        half = mpmath.mpf(1) / 2
+        if isinstance(expr, sympy.exp):
+            return [_Term(mpmath.mpf(1), (), s, q, True)]
+        if isinstance(expr, sympy.cos):                   # cos θ = Re e^{iθ}
+            return [_Term(mpmath.mpf(1), (), i * s, i * q, False)]
+        if isinstance(expr, sympy.sin):                   # sin θ = Re(−i e^{iθ})
+            return [_Term(-i, (), i * s, i * q, False)]
+        if isinstance(expr, (sympy.cosh, sympy.sinh)):
+            sign = 1 if isinstance(expr, sympy.cosh) else -1
+            return [_Term(half, (), s, q, True), _Term(sign * half, (), -s, -q, True)]
+        raise _OutsideStructure(f"{expr}: outside the exp·cos/sin·polynomial structure")
+
+
+@lru_cache(maxsize=1024)
+def _powers(rate: Any, orders: int) -> tuple:
+    """λ⁰ … λ^orders at PARSE_DIGITS (the pieces of one history share their λ)."""
+    with mpmath.workdps(PARSE_DIGITS):
+        return tuple(rate ** i for i in range(orders + 1))
+
+
+@dataclass(frozen=True)
+class _Prepared:
+    """A term made ready for points, per derivative order i (``plain``) and per order with
+    a_i ≠ 0 times a_i (``weighted``, for the residual):
+
+    * ``kind`` "exp": C·λ^i, to multiply by e^{λv+μ} (pairs (real, imaginary) where the
+      real part is taken);
+    * ``kind`` "poly" (no exponential): the coefficients of the i-th derivative of the
+      polynomial, lowest power first;
+    * ``kind`` "general" (polynomial factors and an exponential): C, the λ^i, the factors.
+    """
+
+    kind: str
+    exponent: tuple | None
+    real: bool
+    plain: list | None
+    weighted: list | None
+    coefficient: Any = None
+    powers: tuple = ()
+    factors: tuple = ()
+
+
+def _prepare(term: _Term, weights: Sequence[mpmath.mpf]) -> _Prepared:
+    orders = len(weights) - 1
+    exponent = (term.rate, term.offset) if term.rate != 0 or term.offset != 0 else None
+    with mpmath.workdps(PARSE_DIGITS):
+        powers = _powers(term.rate, orders)
+        if term.factors and exponent is not None:
+            return _Prepared("general", exponent, term.real, None, None, term.coefficient, powers,
+                             term.factors)
+        if term.factors:                       # C·Π(s·v + q)^k, expanded; then differentiated
+            coefficients = [term.coefficient]
+            for s, q, k in term.factors:
+                for _ in range(k):
+                    grown = [c * q for c in coefficients] + [mpmath.mpf(0)]
+                    for r, c in enumerate(coefficients):
+                        grown[r + 1] += c * s
+                    coefficients = grown
+            plain = []
+            for _ in range(orders + 1):
+                plain.append(coefficients or [mpmath.mpf(0)])
+                coefficients = [r * c for r, c in enumerate(coefficients)][1:]
+            weighted = [[a * c for c in row] for a, row in zip(weights, plain) if a != 0]
+            return _Prepared("poly", None, True, plain, weighted)
+        plain = [term.coefficient * power for power in powers]
+        weighted = [a * c for a, c in zip(weights, plain) if a != 0]
+        if not term.real:
+            plain = [(mpmath.re(c), mpmath.im(c)) for c in plain]
+            weighted = [(mpmath.re(c), mpmath.im(c)) for c in weighted]
+    return _Prepared("exp", exponent, term.real, plain, weighted)
+
+
+class _Smooth:
+    """A piece as Σ scale·term (prepared terms) in v = t − origin: the values of each term's
+    derivatives at a point, for one exponential per distinct λ and a few multiplications
+    per term."""
+
+    def __init__(self, entries: Sequence[tuple[mpmath.mpf, _Prepared]], origin: mpmath.mpf,
+                 floats: bool, weights: Sequence[mpmath.mpf]) -> None:
+        self.origin = origin
+        self.floats = floats
+        self.weights = list(weights)                    # a_0 … a_n
+        self.nonzero = sum(1 for a in weights if a != 0)
+        self.exponents: list[tuple[Any, Any]] = []      # distinct (λ, μ)
+        slots: dict[tuple, int] = {}
+        self.entries: list[tuple] = []     # (prepared, slot, scale·plain, scale·weighted, scale)
+        with mpmath.workdps(PARSE_DIGITS):
+            for scale, prepared in entries:
+                if scale == 0:
+                    continue
+                slot = None
+                if prepared.exponent is not None:
+                    slot = slots.get(prepared.exponent)
+                    if slot is None:
+                        slot = slots[prepared.exponent] = len(self.exponents)
+                        self.exponents.append(prepared.exponent)
+                plain = weighted = None
+                if prepared.kind == "poly":
+                    plain = [[scale * c for c in row] for row in prepared.plain]
+                    weighted = [[scale * c for c in row] for row in prepared.weighted]
+                elif prepared.kind == "exp" and prepared.real:
+                    plain = [scale * c for c in prepared.plain]
+                    weighted = [scale * c for c in prepared.weighted]
+                elif prepared.kind == "exp":
+                    plain = [(scale * x, scale * y) for x, y in prepared.plain]
+                    weighted = [(scale * x, scale * y) for x, y in prepared.weighted]
+                self.entries.append((prepared, slot, plain, weighted, scale))
+
+    def terms_at(self, time: mpmath.mpf, orders: int) -> list[list[mpmath.mpf]]:
+        """[[d^i/dt^i of each term at ``time``] for i = 0 … orders], working precision."""
+        return self._evaluate(time, orders, False)
+
+    def residual_terms(self, time: mpmath.mpf) -> list[mpmath.mpf]:
+        """a_i · d^i/dt^i of each term, for every i with a_i ≠ 0 (one list)."""
+        return [v for values in self._evaluate(time, len(self.weights) - 1, True) for v in values]
+
+    def _evaluate(self, time: mpmath.mpf, orders: int, weighted: bool) -> list[list[mpmath.mpf]]:
+        v = time - self.origin
+        exponentials = []
+        for rate, offset in self.exponents:
+            value = mpmath.exp(rate * v + offset) if offset != 0 else mpmath.exp(rate * v)
+            exponentials.append((value.real, value.imag) if isinstance(value, mpmath.mpc) else value)
+        count = self.nonzero if weighted else orders + 1
+        result: list[list[mpmath.mpf]] = [[] for _ in range(count)]
+        for prepared, slot, plain, scaled, scale in self.entries:
+            constants = scaled if weighted else plain
+            if prepared.kind == "poly":        # Horner on the i-th derivative's coefficients
+                for i in range(count):
+                    row = constants[i]
+                    total = row[-1]
+                    for c in row[-2::-1]:
+                        total = total * v + c
+                    result[i].append(total)
+            elif prepared.kind == "exp":       # C·e^{λv+μ}: the i-th derivative is C·λ^i·e^{…}
+                if slot is None:
+                    for i in range(count):
+                        result[i].append(constants[i] if prepared.real else constants[i][0])
+                elif prepared.real:
+                    exponential = exponentials[slot]
+                    for i in range(count):
+                        result[i].append(constants[i] * exponential)
+                else:
+                    re, im = exponentials[slot]
+                    for i in range(count):
+                        c_re, c_im = constants[i]
+                        result[i].append(c_re * re - c_im * im)
+            else:                              # Leibniz: (P e^{λv})⁽ⁱ⁾ = e^{λv} Σ C(i,r) λ^{i−r} P⁽ʳ⁾
+                self._general(prepared, exponentials[slot], scale, v, orders, weighted, result)
+        return result
+
+    def _general(self, prepared: _Prepared, exponential: Any, scale: mpmath.mpf, v: mpmath.mpf,
+                 orders: int, weighted: bool, result: list[list[mpmath.mpf]]) -> None:
+        if not prepared.real:
+            exponential = mpmath.mpc(*exponential)
+        powers = prepared.powers
+        top = len(self.weights) - 1 if weighted else orders
+        taylor = [mpmath.mpf(1)]               # P(v + h) = Σ taylor[r]·h^r
+        for s, q, k in prepared.factors:
+            value = s * v + q
+            for _ in range(k):
+                grown = [c * value for c in taylor] + [mpmath.mpf(0)]
+                for r, c in enumerate(taylor):
+                    grown[r + 1] += c * s
+                taylor = grown[:top + 1]
+        product = scale * prepared.coefficient * exponential
+        index = 0
+        for i in range(top + 1):
+            if weighted and self.weights[i] == 0:
+                continue
+            total = taylor[0] * powers[i]
+            for r in range(1, min(i, len(taylor) - 1) + 1):
+                total += _FALLING[i][r] * powers[i - r] * taylor[r]
+            value = product * total
+            if not prepared.real:
+                value = value.real
+            result[index].append(self.weights[i] * value if weighted else value)
+            index += 1
+
+
+class _Differentiated:
+    """A piece outside the parsed structure: sympy derivatives, compiled (as for short
+    histories), in v = t − origin."""
+
+    def __init__(self, expr: sympy.Expr, variable: sympy.Symbol, origin: mpmath.mpf,
+                 weights: Sequence[mpmath.mpf]) -> None:
+        self.origin = origin
+        self.floats = _has_float(expr)
+        self.weights = list(weights)
+        derivatives = [expr]
+        for _ in range(len(weights) - 1):
+            derivatives.append(sympy.diff(derivatives[-1], variable))
+        self.functions = [_function(list(_terms(d)), variable) for d in derivatives]
+
+    def terms_at(self, time: mpmath.mpf, orders: int) -> list[list[mpmath.mpf]]:
+        v = time - self.origin
+        return [self.functions[i](v) for i in range(orders + 1)]
+
+    def residual_terms(self, time: mpmath.mpf) -> list[mpmath.mpf]:
+        values = self.terms_at(time, len(self.weights) - 1)
+        return [a * v for a, terms in zip(self.weights, values) if a != 0 for v in terms]
+
+
+def _long_number(value: sympy.Expr) -> mpmath.mpf:
+    """A real number at PARSE_DIGITS (exact rationals directly, anything else through sympy)."""
+    return _long_number_kept(sympy.sympify(value))
+
+
+@lru_cache(maxsize=1 << 16)
+def _long_number_kept(value: sympy.Expr) -> mpmath.mpf:
+    with mpmath.workdps(PARSE_DIGITS):
+        if value.is_Rational:
+            return mpmath.mpf(int(value.p)) / int(value.q)
+        if value.is_Float:
+            return +mpmath.mpf(value._mpf_)
+        return +_mp(value, None, PARSE_DIGITS)
+
+
+@dataclass
+class _LongPiece:
+    start: sympy.Expr
+    end: sympy.Expr | None
+    lo: mpmath.mpf
+    function: Any                  # _Smooth or _Differentiated
+
+
+@dataclass(frozen=True)
+class _Branch:
+    """One branch of one occurrence of a load, with numbers: on start ≤ t < end the load is
+    Σ poly[j]·(t − origin)^j, or function(t − origin) where it is not a polynomial."""
+
+    load: str
+    start: mpmath.mpf
+    end: mpmath.mpf
+    origin: mpmath.mpf
+    poly: tuple[mpmath.mpf, ...] | None
+    function: Callable | None
+    rate: mpmath.mpf | None
+
+    def value(self, time: mpmath.mpf) -> mpmath.mpf:
+        tau = time - self.origin
+        if self.poly is None:
+            return self.function(tau)[0]
+        total = self.poly[-1]
+        for c in self.poly[-2::-1]:
+            total = total * tau + c
+        return total
+
+    def derivatives(self, time: mpmath.mpf, count: int) -> list[mpmath.mpf]:
+        """load, load', … (``count`` of them) at ``time`` (polynomial branches)."""
+        tau = time - self.origin
+        coefficients = list(self.poly)
+        values = []
+        for _ in range(count):
+            values.append(mpmath.polyval(coefficients[::-1], tau) if coefficients else mpmath.mpf(0))
+            coefficients = [j * c for j, c in enumerate(coefficients)][1:]
+        return values
+
+
+def _numeric_branches(loads: Sequence[LoadSpec]) -> tuple[list[_Branch], list[_Impulse]]:
+    """The loads from their own definitions (the shape table; table rows interpolated)."""
+    branches: list[_Branch] = []
+    impulses: list[_Impulse] = []
+    infinity = mpmath.inf
+    for load in loads:
+        local: list[tuple] = []                 # (from, to, origin offset, poly, function, rate)
+        if load.shape == "table":
+            points = [(_long_number(t), _long_number(v)) for t, v in load.points]
+            with mpmath.workdps(PARSE_DIGITS):
+                for (t0, v0), (t1, v1) in zip(points, points[1:]):
+                    if t1 == t0:
+                        continue                               # a jump: two rows at one time
+                    local.append((t0, t1, t0, (v0, (v1 - v0) / (t1 - t0)), None, None))
+            kicks: list = []
+        else:
+            shape_branches, kicks = _local_shape(load)
+            for lo, hi, value, rate in shape_branches:
+                value = sympy.sympify(value)
+                if value.free_symbols - {TAU}:
+                    raise ValueError(f"no numeric value for {value}")
+                top = infinity if hi is None else _long_number(hi)
+                if value.is_polynomial(TAU):
+                    poly = tuple(_long_number(c) for c in reversed(sympy.Poly(value, TAU).all_coeffs()))
+                    local.append((_long_number(lo), top, mpmath.mpf(0), poly, None, None))
+                else:
+                    local.append((_long_number(lo), top, mpmath.mpf(0), None,
+                                  _function([value], TAU), _long_number(rate)))
+        for start in load.starts():
+            origin = _long_number(start)
+            with mpmath.workdps(PARSE_DIGITS):
+                for lo, hi, offset, poly, function, rate in local:
+                    branches.append(_Branch(load.key, origin + lo, origin + hi, origin + offset,
+                                            poly, function, rate))
+            for at, size in kicks:
+                impulses.append(_Impulse(load.key, start + at, size))
+    return branches, impulses
+
+
+class _NumericLoads:
+    """The load history with numbers: sorted breakpoints and, for each elementary interval
+    between two of them, the branches acting there (found by bisection)."""
+
+    long_history = True        # the integrator shares steps of equal length, sums plainly
+
+    def __init__(self, branches: list[_Branch], impulses: list[tuple[mpmath.mpf, mpmath.mpf]],
+                 until: mpmath.mpf) -> None:
+        with mpmath.workdps(PARSE_DIGITS):
+            self._build(branches, impulses, until)
+
+    def _build(self, branches: list[_Branch], impulses: list[tuple[mpmath.mpf, mpmath.mpf]],
+               until: mpmath.mpf) -> None:
+        self.until = until
+        times = sorted([b.start for b in branches] + [b.end for b in branches if b.end != mpmath.inf]
+                       + [at for at, _ in impulses])
+        self.breakpoints: list[mpmath.mpf] = []
+        for time in times:
+            if not self.breakpoints or not _close(time, self.breakpoints[-1], until):
+                self.breakpoints.append(time)
+        cuts = self.breakpoints
+        self.shadow = [float(time) for time in cuts]
+        middles = ([cuts[0] - 1] if cuts else [mpmath.mpf(0)]) + \
+            [(x + y) / 2 for x, y in zip(cuts, cuts[1:])] + ([cuts[-1] + 1] if cuts else [])
+        ordered = sorted(branches, key=lambda b: b.start)
+        self.active: list[tuple[_Branch, ...]] = []
+        current: list[_Branch] = []
+        index = 0
+        for middle in middles:
+            while index < len(ordered) and ordered[index].start <= middle:
+                current.append(ordered[index])
+                index += 1
+            current = [b for b in current if middle < b.end]
+            self.active.append(tuple(current))
+        self.impulses = sorted(impulses, key=lambda item: item[0])
+        self.impulse_times = [at for at, _ in self.impulses]
+
+    def position(self, time: mpmath.mpf, right: bool = True) -> int:
+        """bisect_right (bisect_left if not ``right``) of ``time`` in the breakpoints: by
+        floats first, then corrected with the exact comparisons."""
+        points = self.breakpoints
+        index = bisect.bisect_right(self.shadow, float(time))
+        if right:
+            while index > 0 and points[index - 1] > time:
+                index -= 1
+            while index < len(points) and points[index] <= time:
+                index += 1
+        else:
+            while index > 0 and points[index - 1] >= time:
+                index -= 1
+            while index < len(points) and points[index] < time:
+                index += 1
+        return index
+
+    def acting(self, time: mpmath.mpf) -> tuple[_Branch, ...]:
+        """The branches acting at ``time`` (a time inside an elementary interval)."""
+        return self.active[self.position(time)]
+
+    def inside(self, lo: mpmath.mpf, hi: mpmath.mpf) -> list[mpmath.mpf]:
+        """The breakpoints strictly inside (lo, hi), not at its ends."""
+        scale = max(abs(lo), abs(hi))
+        first = self.position(lo)
+        last = self.position(hi, right=False)
+        return [time for time in self.breakpoints[first:last]
+                if not _close(time, lo, scale) and not _close(time, hi, scale)]
+
+    def kicks_at(self, time: mpmath.mpf, until: mpmath.mpf) -> list[mpmath.mpf]:
+        return [size for _, size in self.near(self.impulses, self.impulse_times, time, until)]
+
+    @staticmethod
+    def near(items: list, times: list[mpmath.mpf], time: mpmath.mpf, until: mpmath.mpf) -> list:
+        """The items whose time (sorted ``times``) is the same as ``time`` (to 1e-30)."""
+        if not times:
+            return []
+        with mpmath.workdps(PARSE_DIGITS):
+            reach = _SAME * max(abs(time), abs(until)) * 2
+            first = bisect.bisect_left(times, time - reach)
+            last = bisect.bisect_right(times, time + reach)
+        return [item for item, at in zip(items[first:last], times[first:last])
+                if _close(at, time, until)]
+
+    # the integrator's view
+
+    def cuts(self, until: mpmath.mpf) -> list[mpmath.mpf]:
+        cuts = [mpmath.mpf(0)]
+        for time in self.breakpoints:
+            if 0 < time < until and not _close(time, cuts[-1], until) \
+                    and not _close(time, until, until):
+                cuts.append(+time)
+        return cuts + [until]
+
+    def on(self, lo: mpmath.mpf, hi: mpmath.mpf) -> tuple:
+        acting = self.acting((lo + hi) / 2)
+        if not acting:
+            return ("free",)
+        if all(b.poly is not None for b in acting):
+            count = max(len(b.poly) for b in acting)
+            values = [mpmath.fsum(column) for column in
+                      zip(*[b.derivatives(lo, count) for b in acting])]
+            while values and values[-1] == 0:
+                values.pop()
+            if not values:
+                return ("free",)
+            return ("polynomial", len(values) - 1, values)
+        rates = [b.rate for b in acting if b.poly is None and b.rate is not None]
+        return ("general", lambda time: mpmath.fsum(b.value(time) for b in acting), rates)
+
+
+@dataclass
+class _LongProblem:
+    """A numeric case with many pieces: equation, loads and pieces with numbers."""
+
+    equation: _Equation
+    impulses: tuple[_Impulse, ...]
+    initial: tuple[sympy.Expr, ...]
+    until: sympy.Expr
+    pieces: list[_LongPiece]
+    loads: _NumericLoads
+    a: list[mpmath.mpf]            # a_0 … a_n at PARSE_DIGITS
+    b: mpmath.mpf
+
+    sample_cap = LONG_SAMPLES
+
+    def integration_loads(self) -> _NumericLoads:
+        return self.loads
+
+    def piece_starts(self, dps: int) -> list[mpmath.mpf]:
+        return [piece.lo for piece in self.pieces]
+
+    def value_function(self, index: int) -> Callable[[mpmath.mpf], mpmath.mpf]:
+        function = self.pieces[index].function
+        return lambda time: mpmath.fsum(function.terms_at(time, 0)[0])
+
+    def impulses_at(self, time: mpmath.mpf) -> list[_Impulse]:
+        """The impulses acting at ``time`` (to 1e-30 of the window)."""
+        if not hasattr(self, "_kicks"):
+            ordered = sorted(((_long_number(i.at), i) for i in self.impulses),
+                             key=lambda item: item[0])
+            self._kicks = ([i for _, i in ordered], [at for at, _ in ordered],
+                           _long_number(self.until))
+        impulses, times, until = self._kicks
+        return _NumericLoads.near(impulses, times, time, until)
+
+
+def _read_piece(piece: Any, start: mpmath.mpf, local_parser: _Parser, global_parser: _Parser,
+                weights: Sequence[mpmath.mpf]) -> Any:
+    """A piece ready for numbers: its parsed structure (or its sympy derivatives).
+
+    A piece that carries its local form Σ c·mode(u), u = t − start (``piece.local``: a mapping
+    ``terms`` of modes, each with its own ``expression(u)``, to coefficients) is read from
+    that form, each distinct mode once; else from ``piece.local.expression(u)``; else, as
+    for short histories, from ``piece.expression(t)``."""
+    local = getattr(piece, "local", None)
+    terms = getattr(local, "terms", None)
+    expr = None
+    if isinstance(terms, Mapping) and all(callable(getattr(m, "expression", None)) for m in terms):
+        parser, origin, variable = local_parser, start, _U
+        try:
+            parser.floats = False
+            entries = []
+            with mpmath.workdps(PARSE_DIGITS):
+                for mode, coefficient in terms.items():
+                    c = parser.number(sympy.sympify(coefficient))
+                    entries += [(c, parser.prepared(term, weights)) for term in parser.mode(mode)]
+            return _Smooth(entries, origin, parser.floats, weights)
+        except _OutsideStructure:
+            expr = sympy.Add(*[sympy.sympify(c) * m.expression(_U) for m, c in terms.items()])
+    elif callable(getattr(local, "expression", None)):
+        parser, origin, variable = local_parser, start, _U
+        expr = sympy.sympify(local.expression(_U))
+    else:
+        parser, origin, variable = global_parser, mpmath.mpf(0), T
+        expr = sympy.sympify(piece.expression(T))
+    try:
+        parser.floats = False
+        entries = [(mpmath.mpf(1), _prepare(term, weights)) for term in parser.terms(expr)]
+        return _Smooth(entries, origin, parser.floats, weights)
+    except _OutsideStructure:
+        return _Differentiated(expr, variable, origin, weights)
+
+
+def _is_long(case: Case, derivation: Any) -> bool:
+    return not case.symbols and len(derivation.pieces) > LONG_HISTORY
+
+
+def _long_problem(derivation: Any) -> _LongProblem:
+    case: Case = derivation.case
+    equation = _equation(case.system)
+    n = equation.order
+    a = [_long_number(equation.a(i)) for i in range(n + 1)]
+    b = _long_number(equation.scale)
+    initial = tuple(sympy.sympify(v) for v in case.initial) if case.initial is not None \
+        else (sympy.S.Zero,) * n
+    if len(initial) != n:
+        raise ValueError(f"{len(initial)} initial values for an equation of order {n}")
+    until = sympy.sympify(derivation.window.until)
+    until_number = _long_number(until)
+    branches, impulses = _numeric_branches(case.loads)
+    kicks = [(_long_number(i.at), _long_number(i.size)) for i in impulses]
+    loads = _NumericLoads(branches, kicks, until_number)
+    local_parser, global_parser = _Parser(_U), _Parser(T)
+    pieces = []
+    for piece in derivation.pieces:
+        start = sympy.sympify(piece.start)
+        end = None if piece.end is None else sympy.sympify(piece.end)
+        lo = _long_number(start)
+        pieces.append(_LongPiece(start, end, lo, _read_piece(piece, lo, local_parser,
+                                                              global_parser, a)))
+    return _LongProblem(equation, tuple(impulses), initial, until, pieces, loads, a, b)
+
+
+def _digits(floats: bool) -> tuple[int, mpmath.mpf]:
+    return (FLOAT_DIGITS, FLOAT_TOLERANCE) if floats else (EXACT_DIGITS, EXACT_TOLERANCE)
+
+
+def _cancellation(values: Sequence[mpmath.mpf]) -> mpmath.mpf:
+    """|Σ values| relative to Σ |values| (working precision)."""
+    return abs(mpmath.fsum(values)) / max(mpmath.fsum(values, absolute=True), TINY)
+
+
+def _mismatch(left: Sequence[mpmath.mpf], right: Sequence[mpmath.mpf],
+              jump: mpmath.mpf) -> mpmath.mpf:
+    """|Σ right − Σ left − jump| relative to the sum of the magnitudes (working precision)."""
+    mismatch = abs(mpmath.fsum(right) - mpmath.fsum(left) - jump)
+    magnitude = mpmath.fsum(right, absolute=True) + mpmath.fsum(left, absolute=True) + abs(jump)
+    return mismatch / max(magnitude, TINY)
+
+
+def _route(kinds: set[bool], points: str) -> str:
+    """How the numbers were made (``kinds``: pieces with float coefficients or not)."""
+    if kinds == {True}:
+        return f"{FLOAT_DIGITS}-digit evaluation{points}; coefficients are 30-digit floats"
+    if kinds == {False}:
+        return f"{EXACT_DIGITS}-digit evaluation{points}; exact coefficients, evaluated numerically"
+    return (f"{FLOAT_DIGITS}-digit evaluation of the pieces with 30-digit float coefficients "
+            f"(limit {_figure(FLOAT_TOLERANCE)}), {EXACT_DIGITS}-digit of the exact ones (limit "
+            f"{_figure(EXACT_TOLERANCE)}){points}")
+
+
+def _long_ends(problem: _LongProblem) -> list[mpmath.mpf]:
+    """Where each piece ends: its stated end, or the end of the window for the last."""
+    if not hasattr(problem, "_ends"):
+        until = _long_number(problem.until)
+        problem._ends = [_long_number(p.end) if p.end is not None else until
+                         for p in problem.pieces]
+    return problem._ends
+
+
+def _long_residual_check(problem: _LongProblem) -> Check:
+    count = len(problem.pieces)
+
+    def run() -> tuple[bool, str]:
+        b = problem.b
+        worst = None                         # (ratio / limit, ratio, limit, time, index)
+        over: list[int] = []
+        kinds: set[bool] = set()
+        changes: dict[int, list[mpmath.mpf]] = {}
+        for index, (piece, hi) in enumerate(zip(problem.pieces, _long_ends(problem))):
+            lo = piece.lo
+            if not hi > lo:
+                return False, (f"piece {index + 1}: the interval ({_short(lo)}, {_short(hi)}) is "
+                               "empty or reversed")
+            floats = piece.function.floats
+            kinds.add(floats)
+            dps, limit = _digits(floats)
+            inside = problem.loads.inside(lo, hi)
+            if inside:
+                changes[index] = inside
+            bounds = [lo] + inside + [hi]
+            largest, where = mpmath.mpf(0), None
+            with mpmath.workdps(dps):
+                for x, y in zip(bounds, bounds[1:]):
+                    acting = problem.loads.acting((x + y) / 2)
+                    for fraction in LONG_POINT_FRACTIONS:
+                        time = x + (y - x) * mpmath.mpf(fraction)
+                        values = piece.function.residual_terms(time)
+                        values += [-b * branch.value(time) for branch in acting]
+                        ratio = _cancellation(values)
+                        if where is None or ratio > largest:
+                            largest, where = ratio, time
+            if largest > limit:
+                over.append(index)
+            if worst is None or largest / limit > worst[0]:
+                worst = (largest / limit, largest, limit, where, index)
+        _, largest, limit, where, index = worst
+        ends = _long_ends(problem)
+
+        def interval(i: int) -> str:
+            text = f"({_short(problem.pieces[i].lo)}, {_short(ends[i])})"
+            if i in changes:
+                text += " where the load changes inside the piece at t = " + \
+                    ", ".join(_short(t) for t in changes[i][:5])
+            return text
+        failed = ""
+        if over:
+            failed = (f"{len(over)} of {count} pieces over the limit, the first on "
+                      f"{interval(over[0])}; ")
+        return not over, (f"{failed}max |residual|/scale = {_figure(largest)} at t = "
+                          f"{_short(where)} s on {interval(index)} (limit {_figure(limit)}; "
+                          + _route(kinds, f" at {len(LONG_POINT_FRACTIONS)} points per interval "
+                                          f"between load breakpoints") + ")")
+    return _guard(f"ode residual on {count} pieces", run)
+
+
+def _jump(problem: _LongProblem, kicks: Sequence[_Impulse]) -> mpmath.mpf:
+    """b·ΣJ/a_n (numbers)."""
+    with mpmath.workdps(PARSE_DIGITS):
+        return problem.b * mpmath.fsum(_long_number(k.size) for k in kicks) / \
+            problem.a[problem.equation.order]
+
+
+def _long_initial_check(problem: _LongProblem) -> Check:
+    def run() -> tuple[bool, str]:
+        n = problem.equation.order
+        function = problem.pieces[0].function
+        kicks = problem.impulses_at(mpmath.mpf(0))
+        jump = _jump(problem, kicks)
+        dps, limit = _digits(function.floats)
+        worst, label = mpmath.mpf(0), ""
+        with mpmath.workdps(dps):
+            derivatives = function.terms_at(mpmath.mpf(0), n - 1)
+            for j in range(n):
+                expected = _long_number(problem.initial[j]) + (jump if j == n - 1 else 0)
+                ratio = _mismatch([], derivatives[j], expected)
+                if ratio > worst or not label:
+                    worst, label = ratio, f"{_name_of_derivative(j)}(0+)"
+        given = "at rest" if all(_is_zero(v) for v in problem.initial) else "as given"
+        extra = f"; impulse of {', '.join(k.load for k in kicks)} at t = 0" if kicks else ""
+        return worst <= limit, (f"initial state {given}{extra}: max |mismatch|/scale = "
+                                f"{_figure(worst)} in {label} (limit {_figure(limit)}; "
+                                f"{dps}-digit evaluation)")
+    return _guard("initial values", run)
+
+
+def _long_breakpoint_checks(problem: _LongProblem) -> list[Check]:
+    n = problem.equation.order
+    pieces = problem.pieces
+    count = len(pieces) - 1
+    names = [_name_of_derivative(j) for j in range(n)]
+
+    def run() -> tuple[bool, str]:
+        worst = None                          # (ratio / limit, ratio, limit, label)
+        over: list[str] = []
+        kinds: set[bool] = set()
+        jumps: list[tuple[mpmath.mpf, list[_Impulse]]] = []
+        for index in range(count):
+            time = pieces[index + 1].lo
+            kicks = problem.impulses_at(time)
+            jump = _jump(problem, kicks)
+            if kicks:
+                jumps.append((time, kicks))
+            left, right = pieces[index].function, pieces[index + 1].function
+            floats = left.floats or right.floats
+            kinds.add(floats)
+            dps, limit = _digits(floats)
+            with mpmath.workdps(dps):
+                before = left.terms_at(time, n - 1)
+                after = right.terms_at(time, n - 1)
+                largest, label = mpmath.mpf(0), ""
+                for j in range(n):
+                    ratio = _mismatch(before[j], after[j], jump if j == n - 1 else mpmath.mpf(0))
+                    if ratio > largest or not label:
+                        largest, label = ratio, f"{names[j]} at t = {_short(time)}"
+            if largest > limit:
+                over.append(label)
+            if worst is None or largest / limit > worst[0]:
+                worst = (largest / limit, largest, limit, label)
+        if worst is None:
+            return True, "one piece, no boundary"
+        _, largest, limit, label = worst
+        rule = f"{', '.join(names)} continuous"
+        if jumps:
+            shown = ", ".join(_short(time) for time, _ in jumps[:5]) + (", …" if len(jumps) > 5 else "")
+            loads = sorted({k.load for _, kicks in jumps for k in kicks})
+            rule = (f"{', '.join(names[:-1])} continuous; " if n > 1 else "") + \
+                f"{names[-1]} jumps by b·J/a_n at t = {shown} (impulse of {', '.join(loads)})"
+        failed = f"{len(over)} of {count} boundaries fail, the first in {over[0]}; " if over else ""
+        return not over, (f"{rule}: {failed}max |mismatch|/scale = {_figure(largest)} in {label} "
+                          f"(limit {_figure(limit)}; " + _route(kinds, "") + ")")
+    checks = [_guard(f"breakpoint conditions at {count} boundaries", run)] if count else []
+
+    # An impulse inside the window must sit on a piece boundary.
+    until = _long_number(problem.until)
+    known = [piece.lo for piece in pieces[1:]]
+    for impulse in problem.impulses:
+        def run_impulse(impulse: _Impulse = impulse) -> tuple[bool, str]:
+            at = _long_number(impulse.at)
+            if at <= 0 or at >= until or _NumericLoads.near(known, known, at, until):
+                return True, ""
+            return False, (f"the impulse of {impulse.load} acts at t = {_short(at)} s, where no "
+                           f"piece ends: {_name_of_derivative(n - 1)} cannot jump there")
+        check = _guard(f"breakpoint conditions at t = {_short(impulse.at)}", run_impulse)
+        if not check.passed:
+            checks.append(check)
+    return checks
+
+
+def _long_checks(case: Case, problem: _LongProblem, peak: Any) -> list[Check]:
+    checks = [_coverage_check(problem, {}, _long_number)]
+    checks.append(_long_residual_check(problem))
+    checks.append(_long_initial_check(problem))
+    checks += _long_breakpoint_checks(problem)
+    checks.append(_integration_check(problem, peak=peak))
+    return checks + _impulse_area_checks(case, [{}])
+
+
 # ----------------------------------------------------------------------------- entry point
 
 
@@ -1202,13 +2182,16 @@ def verify(derivation: Any) -> list[Check]:
     """
     try:
         case: Case = derivation.case
-        problem = _problem(derivation)
+        long = _is_long(case, derivation)
+        problem: Any = _long_problem(derivation) if long else _problem(derivation)
     except Exception as error:  # noqa: BLE001 - reported as a failed check
         return [Check("verification set-up", False,
                       f"could not read the case or the pieces: {type(error).__name__}: {error}")]
     results = getattr(derivation, "results", None)
     peak = getattr(getattr(results, "peak", None), "value", None)
     try:
+        if long:
+            return _long_checks(case, problem, peak)
         return _checks(case, problem, peak)
     except Exception as error:  # noqa: BLE001 - reported as a failed check
         return [Check("verification", False,

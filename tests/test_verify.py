@@ -10,6 +10,11 @@ Three kinds of test:
   decay rate, a wrong impulse jump, a spurious constant). Every mutant must fail at least one
   check; each parametrized id names the case and the kind of mutant, and every position
   of that kind (each piece, each term) is tried.
+
+Long histories (more than LONG_HISTORY pieces) take the numeric route with one aggregated
+residual and one breakpoint check: a 48-row table with an impulse passes, read from the
+engine's local forms and from piece.expression(t) alike, and the same kinds of mutant, at
+the first loaded piece, a middle one and the last (and in the local coefficient form), fail.
 """
 
 from __future__ import annotations
@@ -25,6 +30,7 @@ from functools import cache
 import pytest
 import sympy
 
+import closedform.verify as verify_module
 from closedform.case import load_case
 from closedform.derivation import derive
 from closedform.verify import Check, T, verify
@@ -762,3 +768,256 @@ def test_single_pulse_case_verifies_in_well_under_a_second():
     elapsed = time.perf_counter() - began
     assert not failures(checks)
     assert elapsed < 1.0, f"verification took {elapsed:.2f} s"
+
+
+# ----------------------------------------------------------------------------- long histories
+#
+# Beyond LONG_HISTORY pieces the same checks run on numbers (parsed pieces, the loads with
+# numbers) and the residual and breakpoint conditions come as one check each. The same
+# mutants must fail there too.
+
+
+def long_case_text(rows: int = 48) -> str:
+    """An invented, measured-looking force history (1 ms rows, zero at both ends) on the
+    damped oscillator of the scale benchmark, and an impulse between two rows."""
+    values = [0.0 if i in (0, rows) else
+              round(6 + 5 * math.sin(i / 7) + 2 * math.sin(i / 2.3) + 0.3 * (-1) ** i, 3)
+              for i in range(rows + 1)]
+    points = ", ".join(f"[{i / 1000!r}, {1000 * v!r}]" for i, v in enumerate(values))
+    return f"""
+        title = "long table"
+        [system]
+        model = "spring-mass-damper"
+        mass = "750 kg"
+        stiffness = "3.1 MN/m"
+        damping_ratio = 0.05
+        [[load]]
+        shape = "table"
+        points = [{points}]
+        [[load]]
+        shape = "impulse"
+        at = "20.5 ms"
+        impulse = "30 N*s"
+        [report]
+        until = "120 ms"
+        """
+
+
+@cache
+def long_derivation():
+    return derive(case_of(long_case_text(), name="long-table.toml"))
+
+
+def test_long_history_gets_one_aggregated_check_of_each_kind():
+    derivation = long_derivation()
+    count = len(derivation.pieces)
+    assert count > verify_module.LONG_HISTORY
+    checks = verify(derivation)
+    assert not failures(checks), explain(checks)
+    assert [c.name for c in checks] == [
+        "pieces cover the analysis window", f"ode residual on {count} pieces", "initial values",
+        f"breakpoint conditions at {count - 1} boundaries", "independent integration"]
+    assert {(c.name, c.detail) for c in checks} <= {(c.name, c.detail) for c in derivation.checks}
+    residual = check_named(checks, "ode residual")[0].detail
+    assert "coefficients are 30-digit floats)" in residual
+    assert "x' jumps by b·J/a_n at t = 0.0205 (impulse of load[2])" in checks[3].detail
+    points = int(check_named(checks, "independent integration")[0].detail.split(" points")[0]
+                 .rsplit(" ", 1)[1])
+    assert 50 <= points <= verify_module.LONG_SAMPLES
+
+
+def test_long_history_is_read_from_the_local_form_without_substitution():
+    """Pieces that carry their local form are read from it: piece.expression(t) (a sympy
+    substitution per piece) is not called."""
+    derivation = long_derivation()
+    calls = []
+
+    class Watched:
+        def __init__(self, piece):
+            self.start, self.end, self.local = piece.start, piece.end, piece.local
+
+        def expression(self, time=T):
+            calls.append(time)
+            raise AssertionError("expression(t) called")
+    checks = verify(with_pieces(derivation, [Watched(p) for p in derivation.pieces]))
+    assert not failures(checks) and not calls, explain(checks)
+
+
+def test_long_history_read_through_expressions_passes_the_same_checks():
+    derivation = long_derivation()
+    checks = verify(with_pieces(derivation, pieces_of(derivation)))
+    assert not failures(checks), explain(checks)
+    assert [c.name for c in checks] == [c.name for c in verify(derivation)]
+
+
+def test_long_history_piece_outside_the_parsed_structure_goes_through_sympy():
+    """x·(2/π)(atan t + atan 1/t) = x for t > 0: not an exp·cos/sin·polynomial form, so the
+    piece is differentiated by sympy; right, it passes; scaled by 1 + 1e-6, it fails."""
+    derivation = long_derivation()
+    pieces = pieces_of(derivation)
+    last = pieces[-1]
+    one = 2 * (sympy.atan(T) + sympy.atan(1 / T)) / sympy.pi
+    disguised = pieces[:-1] + [FakePiece(last.start, last.end, last.expr * one)]
+    checks = verify(with_pieces(derivation, disguised))
+    assert not failures(checks), explain(checks)
+    wrong = pieces[:-1] + [FakePiece(last.start, last.end, last.expr * one * (1 + EPSILON))]
+    assert failures(verify(with_pieces(derivation, wrong)))
+
+
+def test_long_history_residual_failure_names_the_piece():
+    derivation = long_derivation()
+    pieces = pieces_of(derivation)
+    i = len(pieces) // 2
+    wrong = list(pieces)
+    wrong[i] = FakePiece(pieces[i].start, pieces[i].end, pieces[i].expr * (1 + EPSILON))
+    residual = check_named(verify(with_pieces(derivation, wrong)), "ode residual")[0]
+    assert not residual.passed
+    assert residual.detail.startswith(f"1 of {len(pieces)} pieces over the limit, the first on "
+                                      f"({float(pieces[i].start):.6g}, {float(pieces[i].end):.6g})")
+
+
+def test_long_history_impulse_inside_a_piece_is_reported():
+    derivation = long_derivation()
+    pieces = pieces_of(derivation)
+    (k,) = [i for i, p in enumerate(pieces) if p.start == sympy.Rational(41, 2000)]
+    merged = pieces[:k - 1] + [FakePiece(pieces[k - 1].start, pieces[k].end, pieces[k - 1].expr)] \
+        + pieces[k + 1:]
+    reported = check_named(verify(with_pieces(derivation, merged)), "breakpoint conditions at t = 0.0205")
+    assert reported and not reported[0].passed and "no piece ends" in reported[0].detail
+
+
+def test_long_history_coverage_and_initial_values_can_fail():
+    derivation = long_derivation()
+    checks = verify(with_pieces(derivation, pieces_of(derivation)[:-1]))
+    assert not check_named(checks, "pieces cover")[0].passed
+    case = dataclasses.replace(derivation.case, initial=(sympy.Rational(1, 10**6), sympy.S.Zero))
+    checks = verify(types.SimpleNamespace(case=case, pieces=derivation.pieces,
+                                          window=derivation.window, results=derivation.results))
+    initial = check_named(checks, "initial values")[0]
+    assert not initial.passed and "x(0+)" in initial.detail
+    assert not check_named(checks, "independent integration")[0].passed
+
+
+def _long_positions(pieces: list[FakePiece]) -> list[int]:
+    """The first loaded piece, one in the middle, the last (free vibration)."""
+    return sorted({1, len(pieces) // 2, len(pieces) - 1})
+
+
+def _negligible(values: list[sympy.Expr], at) -> list[bool]:
+    """Which terms are below 1e-20 of the largest at ``at``: the 30-digit rounding noise the
+    engine leaves (e.g. a polynomial part of 1e-46 in a free vibration); corrupting those
+    changes nothing the checks could or should see."""
+    sizes = [abs(float(sympy.N(v.subs(T, at), 30))) for v in values]
+    return [size < 1e-20 * max(sizes) for size in sizes]
+
+
+def _long_term_mutants(pieces, i) -> list[Mutant]:
+    mutants = []
+    terms = sympy.Add.make_args(pieces[i].expr)
+    noise = _negligible(list(terms), pieces[i].start + _length(pieces[i], long_derivation().window.until) / 3)
+    for j, term in enumerate(terms):
+        if term != 0 and not noise[j]:
+            mutants += [(f"piece {i + 1} term {j + 1} × (1 + 1e-6)",
+                         _replace_term(pieces, i, j, term * (1 + EPSILON))),
+                        (f"piece {i + 1} term {j + 1} negated", _replace_term(pieces, i, j, -term)),
+                        (f"piece {i + 1} term {j + 1} dropped",
+                         _replace_term(pieces, i, j, sympy.S.Zero))]
+    return mutants
+
+
+def _long_other_mutants(pieces, i) -> list[Mutant]:
+    derivation = long_derivation()
+    until = derivation.window.until
+    piece = pieces[i]
+    mutants = []
+    natural = piece.expr.replace(lambda e: isinstance(e, (sympy.sin, sympy.cos, sympy.exp))
+                                 and e.args[0].has(T), lambda e: e.func(e.args[0] * (1 + EPSILON)))
+    mutants.append((f"piece {i + 1} natural rates × (1 + 1e-6)",
+                    [FakePiece(piece.start, piece.end, natural) if k == i else p
+                     for k, p in enumerate(pieces)]))
+    size = sympy.Rational(repr(abs(derivation.results.peak.value)))
+    mutants.append((f"piece {i + 1} + 1e-6·peak",
+                    [FakePiece(p.start, p.end, p.expr + size * EPSILON) if k == i else p
+                     for k, p in enumerate(pieces)]))
+    delta = EPSILON * _length(piece, until)
+    mutants.append((f"piece {i + 1} delayed by 1e-6 of its length",
+                    [FakePiece(p.start, p.end, p.expr.subs(T, T - delta)) if k == i else p
+                     for k, p in enumerate(pieces)]))
+    if i + 1 < len(pieces):
+        delta = EPSILON * _length(pieces[i + 1], until)
+        moved = list(pieces)
+        moved[i] = FakePiece(pieces[i].start, pieces[i].end + delta, pieces[i].expr)
+        moved[i + 1] = FakePiece(pieces[i + 1].start + delta, pieces[i + 1].end, pieces[i + 1].expr)
+        mutants.append((f"boundary {i + 1} moved by 1e-6 of the next piece", moved))
+    return mutants
+
+
+@dataclasses.dataclass(frozen=True)
+class StretchedMode:
+    """A mode of the engine read at (1 + 1e-6)·u: all its rates off by 1e-6."""
+
+    mode: object
+
+    def expression(self, u):
+        return self.mode.expression(u * (1 + EPSILON))
+
+
+def _long_local_mutants(derivation, i) -> list[tuple[str, list]]:
+    """Mutants of the engine's own pieces, in their local form (coefficient table)."""
+    piece = derivation.pieces[i]
+    terms = dict(piece.local.terms)
+
+    def replaced(new_terms) -> list:
+        local = types.SimpleNamespace(terms=new_terms)
+        return [types.SimpleNamespace(start=p.start, end=p.end, local=local) if k == i else p
+                for k, p in enumerate(derivation.pieces)]
+    mutants = []
+    u = sympy.Symbol("u", real=True)
+    end = piece.end if piece.end is not None else derivation.window.until
+    noise = _negligible([c * mode.expression(u).subs(u, T - piece.start) for mode, c in terms.items()],
+                        piece.start + (end - piece.start) / 3)
+    for (mode, c), negligible in zip(terms.items(), noise):
+        if negligible:
+            continue
+        mutants.append((f"piece {i + 1} coefficient of {mode} × (1 + 1e-6)",
+                        replaced({**terms, mode: c * (1 + EPSILON)})))
+        if mode.rate != 0 or mode.frequency != 0:
+            stretched = {m: v for m, v in terms.items() if m != mode}
+            stretched[StretchedMode(mode)] = c
+            mutants.append((f"piece {i + 1} {mode} at (1 + 1e-6)·u", replaced(stretched)))
+    return mutants
+
+
+def _long_jump_mutants(pieces) -> list[Mutant]:
+    """The piece that starts at the impulse with its sine terms × 1.001 (a wrong jump)."""
+    (k,) = [i for i, p in enumerate(pieces) if p.start == sympy.Rational(41, 2000)]
+    changed = pieces[k].expr.replace(lambda e: isinstance(e, sympy.sin) and e.has(T),
+                                     lambda e: e * (1 + sympy.Rational(1, 1000)))
+    return [(f"piece {k + 1} (after the impulse) sine terms × 1.001",
+             [FakePiece(p.start, p.end, changed) if i == k else p for i, p in enumerate(pieces)])]
+
+
+LONG_KINDS = ["terms", "rates-constant-delay-boundary-jump", "local-form"]
+
+
+@pytest.mark.parametrize("kind", LONG_KINDS, ids=[f"long-table-{k}" for k in LONG_KINDS])
+def test_every_long_history_mutant_fails_verification(kind):
+    derivation = long_derivation()
+    pieces = pieces_of(derivation)
+    mutants: list = []
+    for i in _long_positions(pieces):
+        if kind == "terms":
+            mutants += _long_term_mutants(pieces, i)
+        elif kind == "rates-constant-delay-boundary-jump":
+            mutants += _long_other_mutants(pieces, i)
+        else:
+            mutants += _long_local_mutants(derivation, i)
+    if kind == "rates-constant-delay-boundary-jump":
+        mutants += _long_jump_mutants(pieces)
+    assert mutants
+    survivors = []
+    for label, mutated in mutants:
+        checks = verify(with_pieces(derivation, mutated))
+        if not failures(checks):
+            survivors.append(f"{label}:\n{explain(checks)}")
+    assert not survivors, f"{len(survivors)} of {len(mutants)} mutants passed:\n" + "\n".join(survivors)
