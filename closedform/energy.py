@@ -112,14 +112,28 @@ def _independent_loads(case, values: Mapping) -> tuple[list, list]:
     return segments, [(_number(i.at, values), _number(i.size, values)) for i in impulses]
 
 
-def _load_function(segments: Sequence, start, end) -> Callable | None:
-    """The load on (start, end): the branches whose span holds the midpoint, summed (None
-    where no load acts)."""
-    middle = (start + end) / 2
-    active = [s[2] for s in segments if s[0] <= middle and (s[1] is None or middle < s[1])]
-    if not active:
-        return None
-    return lambda time: mpmath.fsum(f(time) for f in active)
+class _LoadSweep:
+    """The load on successive intervals (start, end), taken in increasing time: the branches
+    whose span holds the interval's midpoint, summed (None where no load acts). A sweep keeps
+    the work linear in the number of branches."""
+
+    def __init__(self, segments: Sequence) -> None:
+        self.segments = sorted(segments, key=lambda s: s[0])
+        self.next = 0
+        self.active: list = []
+
+    def __call__(self, start, end) -> Callable | None:
+        middle = (start + end) / 2
+        while self.next < len(self.segments) and self.segments[self.next][0] <= middle:
+            self.active.append(self.segments[self.next])
+            self.next += 1
+        self.active = [s for s in self.active if s[1] is None or middle < s[1]]
+        functions = [s[2] for s in self.active]
+        if not functions:
+            return None
+        if len(functions) == 1:
+            return functions[0]
+        return lambda time: mpmath.fsum(f(time) for f in functions)
 
 
 def _balance(derivation, equation, values: Mapping) -> list[Check]:
@@ -149,6 +163,7 @@ def _balance(derivation, equation, values: Mapping) -> list[Check]:
         work, dissipated = mpmath.mpf(0), mpmath.mpf(0)
         checks = []
         next_checkpoint = 0
+        load_on = _LoadSweep(segments)
         for lo, hi in zip(times, times[1:]):
             index = bisect.bisect_right(starts, (lo + hi) / 2) - 1
             start, state = starts[index], states[index]
@@ -163,7 +178,7 @@ def _balance(derivation, equation, values: Mapping) -> list[Check]:
                 dissipated += scaled.a1 * mpmath.quad(
                     lambda time, state=state, start=start: state(time - start)[1] ** 2,
                     points, method="gauss-legendre")
-            load = _load_function(segments, lo, hi)
+            load = load_on(lo, hi)
             if load is not None:
                 work += scaled.b * mpmath.quad(
                     lambda time, state=state, start=start, load=load:
