@@ -12,7 +12,10 @@ import csv
 import difflib
 import hashlib
 import io
+import json
+import os
 import re
+import stat
 import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field
@@ -23,8 +26,8 @@ from typing import Any
 import sympy
 
 from . import quantities
-from .errors import CaseError
-from .expressions import parse_expression
+from .errors import CaseError, ExpressionError
+from .expressions import parse_expression, parse_number, quote
 
 MODELS = ("spring-mass-damper", "base-excitation", "first-order", "series-rlc", "ode")
 SHAPES = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half-sine",
@@ -60,6 +63,32 @@ _DISPLAY_QUANTITIES = ("displacement", "velocity", "acceleration", "force", "tim
                        "current", "response")
 _INITIAL_KEYS = ("values", "displacement", "velocity")
 _CLAIM_KEYS = ("peak", "peak_time", "dlf", "static", "residual", "response", "tolerance")
+
+# Limits that keep a hostile or mistaken case cheap to refuse, each named in its message.
+#: Largest case file read, in bytes.
+MAX_CASE_BYTES = 1_000_000
+#: Largest CSV file read for a table load, in bytes.
+MAX_CSV_BYTES = 2_000_000
+#: Most points in one table load (inline or CSV).
+MAX_TABLE_POINTS = 10_000
+#: Most breakpoints (starts, corners and ends of every occurrence of every load) in one case.
+MAX_BREAKPOINTS = 10_000
+#: Longest title, reference or label, in characters.
+MAX_TEXT = 500
+#: Most [[load]] tables in one case.
+MAX_LOADS = 1000
+#: Most names declared under [symbols].
+MAX_SYMBOLS = 100
+# Characters refused in free text: controls (a tab is fine) and the bidirectional overrides
+# that make text display in an order other than the one it is read in.
+_HIDDEN_CHARACTERS = frozenset(chr(c) for c in (*range(0, 9), *range(10, 32), 127,
+                                                *range(0x80, 0xA0), *range(0x202A, 0x202F),
+                                                *range(0x2066, 0x206A)))
+#: Names the formulas of a case reserve for themselves (time, local time, the Laplace
+#: variable, the constants), in addition to the functions.
+_RESERVED_SYMBOLS = ("t", "tau", "s", "u", "v", "pi", "e", "I", "E")
+_SYMBOL_NAME_RE = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,30}")
+_BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")
 
 
 @dataclass(frozen=True)
@@ -178,20 +207,61 @@ def load_case(source: str | Path | Mapping[str, Any], *, text: str | None = None
               name: str | None = None) -> Case:
     """Read a case from a path, a TOML string (``text=``) or an already parsed mapping."""
     if isinstance(source, Mapping):
-        return _Reader(name or "<dict>", "", Path.cwd()).case(source)
+        return _Reader(display_name(name or "<dict>"), "", Path.cwd()).case(source)
     if text is None:
         path = Path(source)
-        try:
-            raw = path.read_bytes()
-        except OSError as error:
-            raise CaseError(f"cannot read the case file ({error.strerror})", file=str(path))
+        shown = display_name(name or str(path))
+        raw = read_limited(path, MAX_CASE_BYTES, shown, "the case file")
         try:
             text = raw.decode("utf-8")
         except UnicodeDecodeError as error:
-            raise CaseError(f"the case file is not UTF-8 text (byte {error.start})", file=str(path))
-        return _parse(text, name or str(path), path.parent, hashlib.sha256(raw).hexdigest())
-    return _parse(text, name or "<string>", Path.cwd(),
-                  hashlib.sha256(text.encode("utf-8")).hexdigest())
+            line = raw[:error.start].count(b"\n") + 1
+            raise CaseError(f"the case file is not UTF-8 text (expected UTF-8, got byte "
+                            f"0x{raw[error.start]:02X})", file=shown, line=line)
+        return _parse(text, shown, path.parent, hashlib.sha256(raw).hexdigest())
+    return _parse(text, display_name(name or "<string>"), Path.cwd(),
+                  hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest())
+
+
+def display_name(path: str) -> str:
+    """A file name as it may appear in a one-line message: unchanged when printable,
+    otherwise with control and invisible characters escaped (a file name from someone else
+    must not break the line or drive the terminal)."""
+    if path.isprintable():
+        return path
+    return "".join(c if c.isprintable() else ascii(c)[1:-1] for c in path)
+
+
+def read_limited(path: Path, limit: int, shown: str, what: str, *, key: str | None = None,
+                 line: int | None = None, file: str | None = None) -> bytes:
+    """The bytes of a regular file of at most ``limit`` bytes, else a CaseError.
+
+    The file is opened without blocking and checked to be a regular file before anything is
+    read, so a FIFO, a device or a folder given as a case or CSV file cannot hang the tool or
+    feed it endless data. Errors name ``file`` (default: ``shown``), ``key`` and ``line``.
+    """
+    where = {"file": file or shown, "key": key, "line": line}
+    try:
+        descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
+    except (OSError, ValueError) as error:
+        reason = getattr(error, "strerror", None) or "the name holds a NUL character"
+        raise CaseError(f"cannot read {what} ({reason})", **where)
+    info = os.fstat(descriptor)
+    if not stat.S_ISREG(info.st_mode):
+        os.close(descriptor)
+        kind = "a folder" if stat.S_ISDIR(info.st_mode) else "a special file"
+        raise CaseError(f"cannot read {what} (expected a regular file, got {kind})", **where)
+    with os.fdopen(descriptor, "rb") as stream:
+        if info.st_size > limit:
+            raise CaseError(f"{what} is too large (at most {limit} bytes, got {info.st_size})",
+                            **where)
+        try:
+            raw = stream.read(limit + 1)
+        except OSError as error:
+            raise CaseError(f"cannot read {what} ({error.strerror})", **where)
+    if len(raw) > limit:
+        raise CaseError(f"{what} is too large (at most {limit} bytes)", **where)
+    return raw
 
 
 def load_case_text(text: str, name: str = "<string>") -> Case:
@@ -210,7 +280,11 @@ def quantity_reader(case: Case) -> _Reader:
 
 def _parse(text: str, file: str, folder: Path, digest: str) -> Case:
     if "\x00" in text:
-        raise CaseError("the case file contains a NUL byte", file=file)
+        line = text[:text.index("\x00")].count("\n") + 1
+        raise CaseError("the case file contains a NUL byte (expected text)", file=file, line=line)
+    if len(text) > MAX_CASE_BYTES:
+        raise CaseError(f"the case file is too large (at most {MAX_CASE_BYTES} characters, "
+                        f"got {len(text)})", file=file)
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as error:
@@ -218,7 +292,11 @@ def _parse(text: str, file: str, folder: Path, digest: str) -> Case:
         match = re.search(r"\(at line (\d+), column (\d+)\)", message)
         line = int(match.group(1)) if match else None
         message = re.sub(r"\s*\(at line \d+, column \d+\)", "", message)
-        raise CaseError(f"TOML syntax error: {message}", file=file, line=line)
+        # tomllib names a table by its Python tuple, ('load', 'repeat'): show load.repeat
+        message = re.sub(r"\((?:'[^']*'(?:, )?)+,?\)",
+                         lambda m: ".".join(re.findall(r"'([^']*)'", m.group())), message)
+        column = f" (column {match.group(2)})" if match else ""
+        raise CaseError(f"TOML syntax error: {message}{column}", file=file, line=line)
     except RecursionError:
         raise CaseError("TOML nesting is too deep", file=file)
     return _Reader(file, text, folder, digest).case(data)
@@ -278,8 +356,8 @@ class _Reader:
                 close = difflib.get_close_matches(name, allowed, n=1)
                 hint = f"; did you mean '{close[0]}'?" if close else \
                     f" (expected one of: {', '.join(allowed)})"
-                key = f"{prefix}.{name}" if prefix else name
-                raise self.error(key, f"unknown key '{name}'{hint}")
+                key = f"{prefix}.{_key_part(name)}" if prefix else _key_part(name)
+                raise self.error(key, f"unknown key {quote(name)}{hint}")
 
     # -- values ------------------------------------------------------------------------
     def quantity(self, value: Any, expected: str | Any, key: str) -> sympy.Expr:
@@ -295,16 +373,22 @@ class _Reader:
         except CaseError as error:
             raise error.located(file=self.file, key=key, line=self.line_of(key))
 
-    def positive(self, value: sympy.Expr, key: str, what: str = "a positive value") -> sympy.Expr:
+    def positive(self, value: sympy.Expr, key: str, what: str = "a positive value",
+                 dimension: str | Any | None = None) -> sympy.Expr:
+        """``value`` if it is positive (or symbolic); ``dimension`` gives the SI unit the
+        offending value is shown in."""
         if value.is_positive is False or value.is_zero:
-            raise self.error(key, f"must be positive (expected {what}, got {_plain(value)})")
+            raise self.error(key, f"must be positive (expected {what}, got "
+                                  f"{_plain(value, dimension)})")
         if value.is_positive is None and not value.free_symbols:
-            raise self.error(key, f"must be positive (got {_plain(value)})")
+            raise self.error(key, f"must be positive (got {_plain(value, dimension)})")
         return value
 
-    def non_negative(self, value: sympy.Expr, key: str) -> sympy.Expr:
+    def non_negative(self, value: sympy.Expr, key: str,
+                     dimension: str | Any | None = None) -> sympy.Expr:
         if value.is_negative:
-            raise self.error(key, f"must not be negative (got {_plain(value)})")
+            raise self.error(key, f"must not be negative (expected 0 or more, got "
+                                  f"{_plain(value, dimension)})")
         return value
 
     # -- tables ------------------------------------------------------------------------
@@ -313,9 +397,11 @@ class _Reader:
         title = data.get("title")
         if not isinstance(title, str) or not title.strip():
             raise self.error("title", "a non-empty title string is required")
+        self.free_text(title, "title")
         reference = data.get("reference", "")
         if not isinstance(reference, str):
             raise self.error("reference", f"expected a string, got {_toml_type(reference)}")
+        self.free_text(reference, "reference")
         symbols = self.symbols(data.get("symbols", {}))
         if "system" not in data:
             raise self.error("system", "the [system] table is required")
@@ -323,8 +409,12 @@ class _Reader:
         loads_data = data.get("load", [])
         if not isinstance(loads_data, list):
             raise self.error("load", "loads are given as [[load]] tables")
+        if len(loads_data) > MAX_LOADS:
+            raise self.error("load", f"too many loads (at most {MAX_LOADS} [[load]] tables, got "
+                                     f"{len(loads_data)})")
         loads = tuple(self.load(self.table(item, f"load[{i}]"), i, system.load_dimension)
                       for i, item in enumerate(loads_data, start=1))
+        self.breakpoint_limit(loads)
         initial = self.initial(data.get("initial"), system)
         report = self.report(self.table(data.get("report", {}), "report"))
         claims = self.table(data.get("claims", {}), "claims")
@@ -338,15 +428,43 @@ class _Reader:
             raise self.error(key, f"expected a table, got {_toml_type(value)}")
         return value
 
+    def free_text(self, text: str, key: str) -> None:
+        """A title, reference or label: any printable text of sensible length."""
+        if len(text) > MAX_TEXT:
+            raise self.error(key, f"text too long (at most {MAX_TEXT} characters, got {len(text)})")
+        for column, character in enumerate(text, start=1):
+            if character in _HIDDEN_CHARACTERS:
+                raise self.error(key, f"character not allowed at column {column} (expected "
+                                      f"printable text, got U+{ord(character):04X})")
+
+    def breakpoint_limit(self, loads: tuple[LoadSpec, ...]) -> None:
+        """Refuse load histories with more breakpoints than any derivation could handle,
+        before a single term is built."""
+        total = 0
+        for load in loads:
+            occurrences = load.repeat.count if load.repeat is not None else 1
+            total += occurrences * _corners(load)
+            if total > MAX_BREAKPOINTS:
+                raise self.error(load.key, f"too many breakpoints (expected at most "
+                                           f"{MAX_BREAKPOINTS} in all loads, got {total} up to "
+                                           f"this load)")
+
     def symbols(self, data: Any) -> tuple[SymbolDeclaration, ...]:
         data = self.table(data, "symbols")
+        if len(data) > MAX_SYMBOLS:
+            raise self.error("symbols", f"too many symbols (at most {MAX_SYMBOLS}, got {len(data)})")
         declarations = []
-        reserved = {"t", "tau", "s", "u", "v", "pi", "e", "I", "E"} | set(_function_names())
+        functions = _function_names()
         for name, spec in data.items():
-            key = f"symbols.{name}"
-            if not re.fullmatch(r"[A-Za-z][A-Za-z0-9_]{0,30}", name) or name in reserved:
-                raise self.error(key, f"'{name}' cannot be a symbol name (expected a letter "
-                                      "followed by letters, digits or _, not a reserved name)")
+            key = f"symbols.{_key_part(name)}"
+            if not _SYMBOL_NAME_RE.fullmatch(name) or "__" in name:
+                raise self.error(key, f"not a valid symbol name (expected a letter followed by "
+                                      f"at most 30 letters, digits or single underscores, got "
+                                      f"{quote(name)})")
+            if name in _RESERVED_SYMBOLS or name in functions:
+                raise self.error(key, f"reserved name (expected a name that is not a function "
+                                      f"or one of {', '.join(_RESERVED_SYMBOLS)}, got "
+                                      f"{quote(name)})")
             if isinstance(spec, str):
                 unit, value_text = spec, None
             elif isinstance(spec, Mapping):
@@ -367,7 +485,8 @@ class _Reader:
             value = None
             if value_text is not None:
                 value = self.quantity(value_text, dimension, f"{key}.value")
-                self.positive(value, f"{key}.value", "a positive value: symbols are positive reals")
+                self.positive(value, f"{key}.value", "a positive value: symbols are positive reals",
+                              dimension)
             declarations.append(SymbolDeclaration(name, symbol, unit, dimension, value))
             self.names[name] = symbol
             self.name_dimensions[name] = dimension
@@ -375,6 +494,8 @@ class _Reader:
 
     def system(self, data: Mapping[str, Any]) -> SystemSpec:
         model = data.get("model")
+        if model is None:
+            raise self.error("system.model", f"missing (expected one of: {', '.join(MODELS)})")
         if model not in MODELS:
             close = difflib.get_close_matches(str(model), MODELS, n=1)
             hint = f"; did you mean '{close[0]}'?" if close else ""
@@ -391,7 +512,7 @@ class _Reader:
             if name not in data:
                 raise self.error(f"system.{name}", f"missing (the {model} model needs {name})")
             return self.positive(self.quantity(data[name], dimension, f"system.{name}"),
-                                 f"system.{name}")
+                                 f"system.{name}", dimension=dimension)
 
         if model in ("spring-mass-damper", "base-excitation"):
             parameters["mass"] = required("mass", "mass")
@@ -400,7 +521,8 @@ class _Reader:
                 raise self.error("system.damping_ratio", "give damping or damping_ratio, not both")
             if "damping" in data:
                 parameters["damping"] = self.non_negative(
-                    self.quantity(data["damping"], "damping", "system.damping"), "system.damping")
+                    self.quantity(data["damping"], "damping", "system.damping"), "system.damping",
+                    "damping")
             elif "damping_ratio" in data:
                 ratio = self.non_negative(self.quantity(data["damping_ratio"], "dimensionless",
                                                         "system.damping_ratio"),
@@ -433,7 +555,7 @@ class _Reader:
             parameters["inductance"] = required("inductance", "inductance")
             parameters["resistance"] = self.non_negative(
                 self.quantity(data.get("resistance", 0), "resistance", "system.resistance"),
-                "system.resistance")
+                "system.resistance", "resistance")
             parameters["capacitance"] = required("capacitance", "capacitance")
         else:
             coefficients = data.get("coefficients")
@@ -472,10 +594,12 @@ class _Reader:
             raise self.error(f"{key}.shape", f"unknown shape {_shown(shape)} (expected one of: "
                                              f"{', '.join(SHAPES)}){hint}")
         self.check_keys(data, _LOAD_KEYS[shape] + _COMMON_LOAD_KEYS, key)
-        at = self.non_negative(self.quantity(data.get("at", 0), "time", f"{key}.at"), f"{key}.at")
+        at = self.non_negative(self.quantity(data.get("at", 0), "time", f"{key}.at"), f"{key}.at",
+                               "time")
         label = data.get("label", "")
         if not isinstance(label, str):
             raise self.error(f"{key}.label", f"expected a string, got {_toml_type(label)}")
+        self.free_text(label, f"{key}.label")
         values: dict[str, sympy.Expr] = {}
         time = quantities.dimension("time")
         per_time = load_dimension / time
@@ -487,7 +611,7 @@ class _Reader:
                     raise self.error(f"{key}.{name}", f"missing (a {shape} load needs {name})")
                 return
             values[name] = self.positive(self.quantity(data[name], time, f"{key}.{name}"),
-                                         f"{key}.{name}", "a positive time")
+                                         f"{key}.{name}", "a positive time", time)
 
         def amplitude_or_impulse(area_factor: sympy.Expr | None) -> None:
             has_amplitude, has_impulse = "amplitude" in data, "impulse" in data
@@ -522,8 +646,9 @@ class _Reader:
                 peak_at = self.quantity(data.get("peak_at", "0.5"), "dimensionless",
                                         f"{key}.peak_at")
                 if peak_at.is_negative or (peak_at - 1).is_positive:
-                    raise self.error(f"{key}.peak_at", "must lie between 0 and 1 (a fraction of "
-                                                       f"the duration), got {_plain(peak_at)}")
+                    raise self.error(f"{key}.peak_at", "must lie between 0 and 1 (expected a "
+                                                       "fraction of the duration, got "
+                                                       f"{_plain(peak_at)})")
                 values["peak_at"] = peak_at
             factor = {"rectangle": sympy.S.One, "decay": sympy.Rational(1, 2),
                       "triangle": sympy.Rational(1, 2),
@@ -534,9 +659,10 @@ class _Reader:
                 if name not in data:
                     raise self.error(f"{key}.{name}", f"missing (a trapezoid load needs {name})")
                 values[name] = self.non_negative(self.quantity(data[name], time, f"{key}.{name}"),
-                                                 f"{key}.{name}")
+                                                 f"{key}.{name}", time)
             if (values["rise"] + values["hold"] + values["fall"]).is_zero:
-                raise self.error(f"{key}.hold", "rise + hold + fall must be positive")
+                raise self.error(f"{key}.hold", "rise + hold + fall must be positive (expected a "
+                                                "pulse that lasts, got 0 s in all)")
             amplitude_or_impulse(None)
         elif shape == "table":
             points = self.table_points(data, key, load_dimension)
@@ -587,14 +713,16 @@ class _Reader:
         if "every" not in data:
             raise self.error(f"{key}.every", "missing (the time between repeats)")
         every = self.positive(self.quantity(data["every"], "time", f"{key}.every"),
-                              f"{key}.every", "a positive time")
+                              f"{key}.every", "a positive time", "time")
         return Repeat(count, every)
 
     def table_points(self, data: Mapping[str, Any], key: str,
                      load_dimension: Any) -> tuple[tuple[sympy.Expr, sympy.Expr], ...]:
         has_points, has_csv = "points" in data, "csv" in data
-        if has_points == has_csv:
-            raise self.error(f"{key}.points", "give exactly one of points or csv")
+        if not has_points and not has_csv:
+            raise self.error(f"{key}.points", "missing (a table load needs points or csv)")
+        if has_points and has_csv:
+            raise self.error(f"{key}.csv", "give points or csv, not both")
         time_factor, value_factor = sympy.S.One, sympy.S.One
         if "units" in data:
             units = data["units"]
@@ -619,6 +747,9 @@ class _Reader:
             raw = data["points"]
             if not isinstance(raw, list) or len(raw) < 2:
                 raise self.error(f"{key}.points", "expected a list of at least two [t, value] pairs")
+            if len(raw) > MAX_TABLE_POINTS:
+                raise self.error(f"{key}.points", f"too many points (at most {MAX_TABLE_POINTS}, "
+                                                  f"got {len(raw)})")
             for i, pair in enumerate(raw):
                 item_key = f"{key}.points[{i}]"
                 if not isinstance(pair, list) or len(pair) != 2:
@@ -627,27 +758,32 @@ class _Reader:
                 v = self.table_number(pair[1], load_dimension, value_factor, item_key)
                 rows.append((t, v))
                 where.append(item_key)
-            file_for_errors = None
+            csv_file = None
         else:
-            rows, where, file_for_errors = self.csv_points(data["csv"], key, load_dimension,
-                                                           time_factor, value_factor)
+            rows, where, csv_file = self.csv_points(data["csv"], key, load_dimension,
+                                                    time_factor, value_factor)
+        csv_key = f"{key}.csv"
         for i in range(1, len(rows)):
             step = rows[i][0] - rows[i - 1][0]
             if step.is_negative:
-                message = f"times must not decrease (got {_plain(rows[i][0])} s after {_plain(rows[i - 1][0])} s)"
-                raise self._row_error(where[i], message, file_for_errors)
+                message = (f"times must not decrease (got {_plain(rows[i][0])} s after "
+                           f"{_plain(rows[i - 1][0])} s)")
+                raise self._row_error(where[i], message, csv_file, csv_key)
             if step.is_zero and i >= 2 and (rows[i - 1][0] - rows[i - 2][0]).is_zero:
                 raise self._row_error(where[i], f"duplicate time {_plain(rows[i][0])} s (a jump "
-                                      "takes exactly two rows at the same time)", file_for_errors)
+                                      "takes exactly two rows at the same time)", csv_file, csv_key)
         if rows[0][0].is_negative:
-            raise self._row_error(where[0], "times start at 0 or later (local to 'at')", file_for_errors)
+            raise self._row_error(where[0], "times start at 0 or later (local to 'at')", csv_file,
+                                  csv_key)
         if (rows[-1][0] - rows[0][0]).is_zero:
-            raise self.error(f"{key}.points", "the table spans no time")
+            raise self.error(f"{key}.points" if csv_file is None else csv_key,
+                             "the table spans no time")
         return tuple(rows)
 
-    def _row_error(self, where: str, message: str, csv_file: str | None) -> CaseError:
+    def _row_error(self, where: str, message: str, csv_file: str | None,
+                   csv_key: str) -> CaseError:
         if csv_file is not None:
-            return CaseError(message, file=csv_file, line=int(where))
+            return CaseError(message, file=csv_file, key=csv_key, line=int(where))
         return self.error(where, message)
 
     def table_number(self, value: Any, dimension: Any, factor: sympy.Expr, key: str) -> sympy.Expr:
@@ -657,47 +793,95 @@ class _Reader:
             raise self.error(key, f"expected a number, got {_toml_type(value)}")
         return self.quantity(value, "dimensionless", key) * factor
 
+    def csv_path(self, name: Any, key: str) -> tuple[Path, str]:
+        """The CSV file a table names, refused unless it lies in the case file's folder or
+        below it: no absolute paths, no '..', no symbolic link leading elsewhere."""
+        if not isinstance(name, str) or not name.strip():
+            raise self.error(key, f"expected a file name, got {_shown(name)}")
+        if not name.isprintable():
+            raise self.error(key, f"expected a file name of printable characters, got "
+                                  f"{quote(name)}")
+        relative = Path(name)
+        if relative.is_absolute() or relative.drive or relative.root:
+            raise self.error(key, f"absolute paths are refused (expected a file name relative "
+                                  f"to the case file's folder, got {quote(name)})")
+        if ".." in relative.parts:
+            raise self.error(key, f"paths leaving the case folder are refused (expected a file "
+                                  f"in the case file's folder or below it, got {quote(name)})")
+        path = self.folder / relative
+        try:
+            inside = path.resolve().is_relative_to(self.folder.resolve())
+        except (OSError, RuntimeError, ValueError):   # a loop of links, say
+            inside = False
+        if not inside:
+            raise self.error(key, f"{quote(name)} leads outside the case folder through a "
+                                  "symbolic link (expected a file in the case file's folder "
+                                  "or below it)")
+        return path, display_name(str(path))
+
     def csv_points(self, name: Any, key: str, load_dimension: Any, time_factor: sympy.Expr,
                    value_factor: sympy.Expr) -> tuple[list, list, str]:
-        if not isinstance(name, str) or not name.strip():
-            raise self.error(f"{key}.csv", f"expected a file name, got {_shown(name)}")
-        path = (self.folder / name)
-        try:
-            content = path.read_text(encoding="utf-8")
-        except (OSError, UnicodeDecodeError) as error:
-            reason = getattr(error, "strerror", None) or "not UTF-8 text"
-            raise self.error(f"{key}.csv", f"cannot read {name} ({reason})")
-        if "\x00" in content:
-            raise CaseError("the CSV file contains a NUL byte", file=str(path))
-        rows, where = [], []
-        header_seen = False
-        for number, row in enumerate(csv.reader(io.StringIO(content)), start=1):
-            if not row or all(not cell.strip() for cell in row) or row[0].lstrip().startswith("#"):
-                continue
-            if len(row) != 2:
-                raise CaseError(f"expected two columns (time, value), got {len(row)}",
-                                file=str(path), line=number)
-            cells = [cell.strip() for cell in row]
-            if not header_seen and not rows and not _looks_numeric(cells[0]):
-                header_seen = True
-                time_factor, value_factor = self.csv_header(cells, path, number, load_dimension,
-                                                            time_factor, value_factor)
-                continue
-            try:
-                t = self.quantity(cells[0], "dimensionless", "time") * time_factor
-                v = self.quantity(cells[1], "dimensionless", "value") * value_factor
-            except CaseError as error:
-                raise CaseError(error.message, file=str(path), line=number)
-            rows.append((t, v))
-            where.append(str(number))
-            if len(rows) > 200000:
-                raise CaseError("more than 200000 rows", file=str(path), line=number)
-        if len(rows) < 2:
-            raise self.error(f"{key}.csv", f"{name} holds fewer than two data rows")
-        return rows, where, str(path)
+        """The rows of a two-column CSV (time, value), with the CSV line of each row."""
+        csv_key = f"{key}.csv"
+        path, shown = self.csv_path(name, csv_key)
+        raw = read_limited(path, MAX_CSV_BYTES, shown, quote(name), key=csv_key,
+                           line=self.line_of(csv_key), file=self.file)
 
-    def csv_header(self, cells: list[str], path: Path, number: int, load_dimension: Any,
-                   time_factor: sympy.Expr, value_factor: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
+        def problem(message: str, line: int | None) -> CaseError:
+            return CaseError(message, file=shown, key=csv_key, line=line)
+
+        if b"\x00" in raw:
+            raise problem("the CSV file contains a NUL byte (expected text)",
+                          raw[:raw.index(b"\x00")].count(b"\n") + 1)
+        try:
+            content = raw.decode("utf-8-sig")
+        except UnicodeDecodeError as error:
+            offset = error.start + (3 if raw.startswith(b"\xef\xbb\xbf") else 0)
+            raise problem(f"not UTF-8 text (expected UTF-8, got byte 0x{raw[offset]:02X})",
+                          raw[:offset].count(b"\n") + 1)
+        reader = csv.reader(io.StringIO(content, newline=""))
+        cells_by_line: list[tuple[int, list[str]]] = []
+        header: tuple[int, list[str]] | None = None
+        try:
+            for row in reader:
+                number = reader.line_num
+                if not row or all(not cell.strip() for cell in row) \
+                        or row[0].lstrip().startswith("#"):
+                    continue
+                if len(row) != 2:
+                    raise problem(f"expected two columns (time, value), got {len(row)}", number)
+                cells = [cell.strip() for cell in row]
+                if header is None and not cells_by_line and not _looks_numeric(cells[0]):
+                    header = (number, cells)
+                    continue
+                cells_by_line.append((number, cells))
+                if len(cells_by_line) > MAX_TABLE_POINTS:
+                    raise problem(f"too many rows (at most {MAX_TABLE_POINTS} data rows)", number)
+        except csv.Error as error:
+            raise problem(f"not a readable CSV row ({error})", reader.line_num)
+        if header is not None:
+            time_factor, value_factor = self.csv_header(header[1], shown, csv_key, header[0],
+                                                        load_dimension, time_factor,
+                                                        value_factor)
+        if len(cells_by_line) < 2:
+            raise self.error(csv_key, f"{quote(name)} holds fewer than two data rows "
+                                      f"(expected at least two rows of time, value)")
+        rows, where = [], []
+        factors = (time_factor, value_factor)
+        for number, cells in cells_by_line:
+            values = []
+            for column, cell in enumerate(cells, start=1):
+                try:
+                    values.append(_csv_number(cell, column) * factors[column - 1])
+                except CaseError as error:
+                    raise problem(error.message, number)
+            rows.append((values[0], values[1]))
+            where.append(str(number))
+        return rows, where, shown
+
+    def csv_header(self, cells: list[str], shown: str, csv_key: str, number: int,
+                   load_dimension: Any, time_factor: sympy.Expr,
+                   value_factor: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
         """A header row such as ``t [ms], F [kN]`` may carry the units."""
         factors = [time_factor, value_factor]
         expected = [quantities.dimension("time"), load_dimension]
@@ -709,11 +893,13 @@ class _Reader:
             try:
                 factor, dimension = quantities.unit_factor(unit, key="header")
             except CaseError as error:
-                raise CaseError(error.message, file=str(path), line=number)
+                raise CaseError(f"column {i + 1}: {error.message}", file=shown, key=csv_key,
+                                line=number)
             if dimension != expected[i]:
-                raise CaseError(f"column {i + 1}: expected a unit of "
+                raise CaseError(f"column {i + 1}: wrong unit in the header (expected a unit of "
                                 f"{quantities.describe(expected[i])}, got "
-                                f"{quantities.describe(dimension)}", file=str(path), line=number)
+                                f"{quantities.describe(dimension)})", file=shown, key=csv_key,
+                                line=number)
             factors[i] = factor
         return factors[0], factors[1]
 
@@ -748,7 +934,7 @@ class _Reader:
         until = None
         if "until" in data:
             until = self.positive(self.quantity(data["until"], "time", "report.until"),
-                                  "report.until", "a positive time")
+                                  "report.until", "a positive time", "time")
         units: dict[str, str] = {}
         if "units" in data:
             table = self.table(data["units"], "report.units")
@@ -792,18 +978,66 @@ def _looks_numeric(cell: str) -> bool:
     return bool(re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", cell))
 
 
+def _csv_number(cell: str, column: int) -> sympy.Expr:
+    """The exact value of one CSV cell: a plain number, nothing else."""
+    if _looks_numeric(cell):
+        try:
+            return parse_number(cell, key=None)
+        except ExpressionError as error:
+            message = re.sub(r" at column \d+", "", error.message)
+            raise CaseError(f"column {column}: {message}")
+    if re.fullmatch(r"[-+]?[0-9.]+([eE][-+]?\d+)?\s*\S.*", cell):
+        raise CaseError(f"column {column}: not a plain number (expected a number, with the "
+                        f"units in the header such as 'time [ms], force [kN]', got {quote(cell)})")
+    raise CaseError(f"column {column}: not a number (expected a number such as 0.25 or "
+                    f"-1.5e3, got {quote(cell)})")
+
+
 def _toml_type(value: Any) -> str:
     return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
             list: "an array", dict: "a table"}.get(type(value), type(value).__name__)
 
 
 def _shown(value: Any) -> str:
-    text = repr(value)
+    """A TOML value for a one-line message: its repr, ASCII only (so a look-alike letter
+    shows as an escape), shortened."""
+    try:
+        text = ascii(value)
+    except RecursionError:
+        text = f"<{_toml_type(value)} nested too deeply>"
+    return _shown_text(text)
+
+
+def _plain(value: sympy.Expr, dimension: str | Any | None = None) -> str:
+    """A value for a message: 6 significant digits, with its SI unit when ``dimension`` is
+    given and the value is not zero (zero is zero in every unit)."""
+    if value.free_symbols:
+        return _shown_text(str(value))
+    number = sympy.N(value, 6)
+    text = f"{float(number):g}"
+    if dimension is None or value.is_zero:
+        return text
+    if isinstance(dimension, str):
+        dimension = quantities.dimension(dimension)
+    unit = quantities.si_unit_text(dimension)
+    return text if unit == "1" else f"{text} {unit}"
+
+
+def _key_part(name: str) -> str:
+    """A TOML key as written in a message: bare when it can be, else quoted and escaped;
+    shortened past 40 characters."""
+    shown = name if len(name) <= 40 else name[:40]
+    if not _BARE_KEY_RE.fullmatch(shown):
+        shown = json.dumps(shown, ensure_ascii=True)
+    return shown + ("..." if len(name) > 40 else "")
+
+
+def _shown_text(text: str) -> str:
     return text if len(text) <= 60 else text[:57] + "..."
 
 
-def _plain(value: sympy.Expr) -> str:
-    if value.free_symbols:
-        return str(value)
-    number = sympy.N(value, 6)
-    return f"{float(number):g}"
+def _corners(load: LoadSpec) -> int:
+    """How many breakpoints one occurrence of a load brings (start, corners, end)."""
+    if load.shape == "table":
+        return len(load.points)
+    return {"step": 1, "impulse": 1, "ramp": 2, "triangle": 3, "trapezoid": 4}.get(load.shape, 2)
