@@ -677,7 +677,9 @@ def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[objec
         if zeta == 1:
             return 1 / omega, gain / (omega * mpmath.e)
         root = omega * mpmath.sqrt(zeta**2 - 1)
-        p1, p2 = -zeta * omega + root, -zeta * omega - root
+        # p1 p2 = ω²: the slow root from the product, which does not cancel for large ζ.
+        p2 = -zeta * omega - root
+        p1 = omega**2 / p2
         time = mpmath.log(p2 / p1) / (p1 - p2)
         return time, gain * (mpmath.exp(p1 * time) - mpmath.exp(p2 * time)) / (p1 - p2)
 
