@@ -34,14 +34,11 @@ def case_paths(arguments: Sequence[Path]) -> list[Path]:
     paths: list[Path] = []
     for argument in arguments:
         if argument.is_dir():
-            paths.extend(sorted(argument.rglob("*.toml")))
+            # a folder that happens to be called *.toml is not a case
+            paths.extend(sorted(p for p in argument.rglob("*.toml") if not p.is_dir()))
         else:
             paths.append(argument)
-    unique: list[Path] = []
-    for path in paths:
-        if path not in unique:
-            unique.append(path)
-    return unique
+    return list(dict.fromkeys(paths))
 
 
 def run_case(path: str, formats: Sequence[str], time_budget: float | None,
@@ -52,7 +49,7 @@ def run_case(path: str, formats: Sequence[str], time_budget: float | None,
     huge table nor a slow sheet can hold up a batch longer than ``time_budget`` seconds.
     """
     from .budget import time_budget as budget_for
-    from .case import display_name, load_case
+    from .case import display_name, load_case, locate
     from .derivation import derive
     from .render import render_outputs
 
@@ -71,6 +68,8 @@ def run_case(path: str, formats: Sequence[str], time_budget: float | None,
                 message = summary_line(derivation)
         return CaseOutcome(path, 0 if derivation.passed else 1, message, contents, result,
                            derivation.warnings)
+    except CaseError as error:
+        return CaseOutcome(path, error.exit_code, one_line(locate(error, path).show()))
     except ClosedformError as error:
         return CaseOutcome(path, error.exit_code, one_line(error.show()))
     except RecursionError:

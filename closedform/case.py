@@ -4,11 +4,20 @@ A ``Case`` holds exact SI numbers (sympy Rationals) or expressions in declared s
 never floats and never raw strings that still need interpreting. Every problem in a case
 file becomes a ``CaseError`` naming the file, the TOML key and, where it can be found, the
 line.
+
+Case files are untrusted text. Nothing read here is ever evaluated: values go through the
+whitelisted grammar of ``expressions`` and the unit reader of ``quantities``. Sizes are
+limited before any work is done (the ``MAX_*`` constants: file sizes, points, breakpoints,
+loads, symbols, free text), a CSV named by a table load must be a regular file in the case
+file's folder or below it (no absolute paths, no '..', no symbolic link leading out), and
+file names and keys from the file are escaped where they appear in a message, so a message
+stays one line and cannot drive the terminal.
 """
 
 from __future__ import annotations
 
 import csv
+import datetime
 import difflib
 import hashlib
 import io
@@ -223,6 +232,27 @@ def load_case(source: str | Path | Mapping[str, Any], *, text: str | None = None
                   hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest())
 
 
+def locate(error: CaseError, path: str | Path) -> CaseError:
+    """``error`` about the case file at ``path``, with the file and (where its key can be
+    found in the file) the line filled in.
+
+    Later stages (the model, the load rewrite, the window) raise CaseErrors that know the
+    key but not the file; the command line shows them located like those of loading. An
+    error about another file (a CSV, an option) is returned as it is.
+    """
+    shown = display_name(str(path))
+    if error.file not in (None, "<case>", shown):
+        return error
+    line = error.line
+    if line is None and error.key:
+        try:
+            text = read_limited(Path(path), MAX_CASE_BYTES, shown, "the case file").decode()
+        except (CaseError, UnicodeDecodeError):
+            text = ""
+        line = _Reader(shown, text, Path(path).parent).line_of(error.key)
+    return CaseError(error.message, file=shown, key=error.key, line=line)
+
+
 def display_name(path: str) -> str:
     """A file name as it may appear in a one-line message: unchanged when printable,
     otherwise with control and invisible characters escaped (a file name from someone else
@@ -321,7 +351,7 @@ class _Reader:
         """Best-effort line of a dotted key such as ``load[2].duration`` in the TOML text."""
         if not self.text or not key:
             return None
-        lines = self.text.splitlines()
+        lines = self.text.split("\n")     # TOML's newlines only, as tomllib counts them
         header = re.compile(r"\s*\[")
         parts = key.split(".")
         start, end = 0, len(lines)
@@ -333,7 +363,7 @@ class _Reader:
             if len(found) >= int(match.group(2)):
                 table_line = found[int(match.group(2)) - 1]
         else:
-            pattern = re.compile(rf"\s*\[\s*{re.escape(parts[0])}\s*\]")
+            pattern = re.compile(rf"\s*\[\[?\s*{re.escape(parts[0])}\s*\]")
             table_line = next((i for i, line in enumerate(lines) if pattern.match(line)), None)
         if table_line is not None:
             parts = parts[1:]
@@ -995,7 +1025,9 @@ def _csv_number(cell: str, column: int) -> sympy.Expr:
 
 def _toml_type(value: Any) -> str:
     return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
-            list: "an array", dict: "a table"}.get(type(value), type(value).__name__)
+            list: "an array", dict: "a table", datetime.datetime: "a date-time",
+            datetime.date: "a date", datetime.time: "a time of day"}.get(type(value),
+                                                                         type(value).__name__)
 
 
 def _shown(value: Any) -> str:

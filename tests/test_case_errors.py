@@ -530,3 +530,39 @@ def test_load_entirely_outside_the_window_is_a_warning(tmp_path, capsys):
     assert err.splitlines() == [f"warning: {tmp_path / 'case.toml'}: load[1]: starts at or "
                                 "after the end of the analysis window and does not act on it"]
     assert '"status": "verified"' in out
+
+
+# --- other value types and tables in the wrong form ----------------------------------------------
+
+@pytest.mark.parametrize(("text", "expected"), [
+    (edit('mass = "420 kg"', "mass = 1979-05-27"),
+     "case.toml:4: system.mass: expected a quantity such as \"2.6 MN/m\" or a number, got a date"),
+    (edit('at = "20 ms"', 'at = "20 ms"\nlabel = 07:32:00'),
+     "case.toml:10: load[1].label: expected a string, got a time of day"),
+    (edit("[system]", "[[system]]"),
+     "case.toml:2: system: expected a table, got an array"),
+    (edit("[[load]]", "[load]"),
+     "case.toml:7: load: loads are given as [[load]] tables"),
+    (BASE + "[initial]\nvalues = [\"1 mm\"]\n",
+     "case.toml:16: initial.values: expected 2 values x(0)…x^(1)(0), got ['1 mm']"),
+], ids=["date", "time of day", "array of systems", "single load table", "initial count"])
+def test_wrong_forms(tmp_path, capsys, text, expected):
+    assert_message(tmp_path, capsys, text, expected)
+
+
+# --- problems found after loading are located like the others -----------------------------------
+
+@pytest.mark.parametrize(("text", "expected"), [
+    (edit("damping_ratio = 0.02", 'damping_ratio = 0.02\nregime = "critically-damped"'),
+     "case.toml:7: system.regime: the stated regime 'critically-damped' contradicts the "
+     "parameters, which give 'under-damped'"),
+    (with_load('shape = "formula"\nexpr = "sin(tau^2)"\nduration = "1.5 ms"\nunit = "kN"\n'),
+     "case.toml:9: load[1].expr: 'sin(tau**2)' is not of a linear function of tau (expected "
+     "e.g. sin(2*pi*tau/T))"),
+    ('title = "x"\n[system]\nmodel = "ode"\ncoefficients = [1, 0]\n[[load]]\nshape = "step"\n'
+     "amplitude = 1\n",
+     "case.toml: report.until: the model has no natural period or time constant to size a "
+     "default window; give [report] until"),
+], ids=["regime", "formula without a rational transform", "no default window"])
+def test_problems_found_by_later_stages_name_file_and_line(tmp_path, capsys, text, expected):
+    assert_message(tmp_path, capsys, text, expected)
