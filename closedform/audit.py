@@ -24,6 +24,7 @@ from .case import quantity_reader
 from .errors import CaseError
 from .expressions import parse_expression
 from .response import t
+from .results import real_number
 
 NUMBER_TOLERANCE = sympy.Rational(5, 1000)      # 0.5 % for reported numbers
 EXPRESSION_TOLERANCE = sympy.Rational(1, 10**6)  # 1e-6 relative for expressions
@@ -199,8 +200,8 @@ def _response_verdicts(derivation, raw, tolerance, error) -> list[Verdict]:
     worst = (mpmath.mpf(0), None, None)
     with mpmath.workdps(30):
         for index, piece in enumerate(pieces):
-            start = _mp(piece.start, values)
-            end = _mp(piece.end if piece.end is not None else until, values)
+            start = real_number(piece.start, values)
+            end = real_number(piece.end if piece.end is not None else until, values)
             claimed = sympy.lambdify(t, piece.formula.subs(values), "mpmath")
             for k in range(1, SAMPLES_PER_INTERVAL):
                 time = start + (end - start) * k / SAMPLES_PER_INTERVAL
@@ -223,12 +224,8 @@ def _count(number: int, noun: str) -> str:
     return f"{number} {noun}" if number == 1 else f"{number} {noun}s"
 
 
-def _mp(value: sympy.Expr, values) -> mpmath.mpf:
-    return mpmath.mpf(str(sympy.N(sympy.sympify(value).subs(values), 30)))
-
-
 def _compiled(pieces, values) -> list[tuple]:
-    return [(_mp(p.start, values), _mp(p.end, values) if p.end is not None else mpmath.inf,
+    return [(real_number(p.start, values), real_number(p.end, values) if p.end is not None else mpmath.inf,
              sympy.lambdify(t, p.expression(t).subs(values), "mpmath")) for p in pieces]
 
 

@@ -17,10 +17,10 @@ from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy
-import sympy
 
 from .basis import COS
 from .errors import ClosedformError
+from .results import real_number
 
 FIGURE_SIZE = (6.4, 2.9)          # inches; the same for every sheet
 SAMPLES = 1600                    # grid points over the analysis window, at least
@@ -63,7 +63,7 @@ def plottable(derivation) -> bool:
 
 
 def _float(value, substitutions) -> float:
-    return float(sympy.N(sympy.sympify(value).subs(substitutions), 20))
+    return float(real_number(value, substitutions))
 
 
 def response_samples(derivation, count: int = SAMPLES) -> tuple[numpy.ndarray, numpy.ndarray]:

@@ -75,8 +75,8 @@ def numeric_intervals(locals_: Sequence[ExponentialPolynomial | NumericExponenti
     already carried in 30-digit arithmetic are taken as they are."""
     subs = dict(substitutions or {})
     with mpmath.workdps(DIGITS + 10):
-        numeric_starts = [_number(a, subs) for a in starts]
-        end = _number(until, subs)
+        numeric_starts = [real_number(a, subs) for a in starts]
+        end = real_number(until, subs)
     bounds = numeric_starts[1:] + [end]
     return [Interval(a, b, f if isinstance(f, NumericExponentialPolynomial)
                      else f.numeric(subs, DIGITS))
@@ -88,7 +88,7 @@ def piece_functions(pieces) -> list[ExponentialPolynomial | NumericExponentialPo
     return [p.numeric if getattr(p, "numeric", None) is not None else p.local for p in pieces]
 
 
-def _number(value: sympy.Expr, subs: Mapping | None = None) -> mpmath.mpf:
+def real_number(value: sympy.Expr, subs: Mapping | None = None) -> mpmath.mpf:
     """A real sympy value as an mpmath number at DIGITS + 10 digits."""
     with mpmath.workdps(DIGITS + 10):
         return mpmath.mpf(str(sympy.N(sympy.sympify(value).subs(subs or {}), DIGITS + 10)))
@@ -550,7 +550,7 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
         values = None
 
     def number(expr: sympy.Expr):
-        return None if values is None else _number(expr, values)
+        return None if values is None else real_number(expr, values)
 
     def derivative(order: int) -> Callable:
         def transform(function: NumericExponentialPolynomial) -> NumericExponentialPolynomial:
@@ -618,8 +618,8 @@ def residual_amplitude(case, model, free: Interval, values: Mapping) -> Residual
                             "first-order free decay y(t₁)·e^(−(t−t₁)/τ)")
         if model.order != 2 or model.regime not in ("undamped", "under-damped"):
             return None
-        omega = _number(model.natural_frequency(), values)
-        zeta = _number(model.damping_ratio(), values)
+        omega = real_number(model.natural_frequency(), values)
+        zeta = real_number(model.damping_ratio(), values)
         damped = omega * mpmath.sqrt(1 - zeta**2)
         amplitude = mpmath.sqrt(x**2 + ((velocity + zeta * omega * x) / damped) ** 2)
         formula = ("√(x² + (x′/ω)²)" if zeta == 0 else "√(x² + ((x′ + ζωx)/ω_d)²)")
@@ -690,14 +690,14 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
     if model.order != 2 or model.coefficients[-1] == 0:
         return ()
     with mpmath.workdps(DIGITS + 10):
-        coefficients = [_number(a, values) for a in model.coefficients]
-        scale = _number(model.input_scale, values)
+        coefficients = [real_number(a, values) for a in model.coefficients]
+        scale = real_number(model.input_scale, values)
         omega = mpmath.sqrt(coefficients[2] / coefficients[0])
         zeta = coefficients[1] / (2 * mpmath.sqrt(coefficients[2] * coefficients[0]))
         if zeta < 1:
             span = mpmath.pi / (omega * mpmath.sqrt(1 - zeta**2))   # half a damped period
         else:
-            span = NON_OSCILLATORY_SPAN * _number(model.slowest_time_scale(), values)
+            span = NON_OSCILLATORY_SPAN * real_number(model.slowest_time_scale(), values)
     unit = _unit(case.system.response_dimension)
     area_unit = _area_unit(case.system.load_dimension)
     result = []
@@ -708,8 +708,8 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
         duration = load.length()
         area, centroid = pulse_area_and_centroid(load, values)
         with mpmath.workdps(DIGITS + 10):
-            start_mp, duration_mp = _number(start, values), _number(duration, values)
-            area_mp = _number(area, values)
+            start_mp, duration_mp = real_number(start, values), real_number(duration, values)
+            area_mp = real_number(area, values)
             ratio = duration_mp * omega / (2 * mpmath.pi)
             end = start_mp + duration_mp
             pulse = _pulse_alone_peak(case, model, history, solution, load, values, end,
@@ -718,7 +718,7 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
             relative_error = None
             centroid_mp = None
             if area_mp != 0:
-                centroid_mp = start_mp + _number(centroid, values)
+                centroid_mp = start_mp + real_number(centroid, values)
                 delay, value = impulse_response_peak(coefficients, scale, area_mp)
                 impulse_peak = Extreme(float(value), float(centroid_mp + delay), value,
                                        centroid_mp + delay)
@@ -743,12 +743,12 @@ def _pulse_alone_peak(case, model, history: LoadHistory, solution, load: LoadSpe
     pieces = solution.pieces
     bound = sympy.Float(until, DIGITS + 10)
     reuse = (len(history.rewrites) == 1 and not history.impulses and not case.symbols
-             and abs(_number(pieces[-1].start, values) - end) <= abs(end) * mpmath.mpf(10) ** -DIGITS)
+             and abs(real_number(pieces[-1].start, values) - end) <= abs(end) * mpmath.mpf(10) ** -DIGITS)
     if not reuse:
         rewrite = next(r for r in history.rewrites if r.load_number == load.number)
         pieces = solve(model, LoadHistory((rewrite,)), None, bound, exact=solution.exact,
                        ordering=values).pieces
-    pieces = [p for p in pieces if _number(p.start, values) < until]
+    pieces = [p for p in pieces if real_number(p.start, values) < until]
     intervals = numeric_intervals(piece_functions(pieces), [p.start for p in pieces], bound, values)
     if reuse and solution.free is not None:
         carrier = NumericCarrier(DIGITS)
