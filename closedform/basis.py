@@ -234,10 +234,12 @@ class NumericExponentialPolynomial:
         """The shortest time scale among the modes: a period or a decay time."""
         scale = float("inf")
         for _power, rate, frequency, _kind, _c in self.rows:
+            # divided in mpmath, converted after: a rate of 1e-320 is a time scale past the
+            # float range (inf), not a division by a float that underflowed to 0.0
             if frequency != 0:
-                scale = min(scale, 2 * float(mpmath.pi) / float(frequency))
+                scale = min(scale, float(2 * mpmath.pi / abs(mpmath.mpf(frequency))))
             if rate != 0:
-                scale = min(scale, 1 / abs(float(rate)))
+                scale = min(scale, float(1 / abs(mpmath.mpf(rate))))
         return scale
 
 
@@ -303,10 +305,18 @@ class NumericCarrier:
         return result
 
     def add(self, terms: dict[Mode, object], other: dict[Mode, object], scale) -> dict[Mode, object]:
+        """terms + scale·other; a sum that cancels to the guard digits' rounding level (an
+        ending load, a slope back to zero) is rounding residue and is dropped."""
         result = dict(terms)
         with mpmath.workdps(self.digits + 15):
+            residue = mpmath.mpf(10) ** (-(self.digits + 12))
             for mode, c in other.items():
-                result[mode] = result.get(mode, 0) + scale * c
+                before, added = result.get(mode, 0), scale * c
+                total = before + added
+                if total != 0 and abs(total) <= residue * (abs(before) + abs(added)):
+                    result.pop(mode, None)
+                else:
+                    result[mode] = total
         return result
 
     def exponential_polynomial(self, terms: dict[Mode, object]) -> ExponentialPolynomial:

@@ -185,15 +185,35 @@ def _refuse_resonance_hidden_by_symbols(transform: RationalTransform,
                     "these quantities as numbers to obtain the resonant closed form")
 
 
+# A 30-digit coefficient that a load event brings to within this fraction of the parts that
+# were added is rounding residue of an exact cancellation (a windowed load ending, a slope
+# returning to zero) and is dropped; a true value that small is below the carried precision.
+CANCELLATION = sympy.Float("1e-27")
+
+
+def _without_rounding_residue(total: ExponentialPolynomial,
+                              parts: Sequence[ExponentialPolynomial]) -> ExponentialPolynomial:
+    kept = []
+    for mode, c in total.terms.items():
+        if c.has(sympy.Float) and not c.free_symbols:
+            size = sum(abs(sympy.N(part.terms.get(mode, 0), 15)) for part in parts)
+            if abs(sympy.N(c, 15)) <= CANCELLATION * size:
+                continue
+        kept.append((mode, c))
+    return total if len(kept) == len(total.terms) else ExponentialPolynomial.from_terms(kept)
+
+
 def _carry_exact(times, events, kernels, free, tidy) -> list[Piece]:
     pieces: list[Piece] = []
     current = free.time_function.map_coefficients(tidy) if free else ExponentialPolynomial()
     previous = sympy.S.Zero
     for i, time in enumerate(times):
         current = current.shifted(time - previous)
-        for coefficient, mode in events.get(time, []):
-            current = current + kernels[mode].inversion.time_function.scaled(coefficient)
-        current = current.map_coefficients(tidy)
+        parts = [current] + [kernels[mode].inversion.time_function.scaled(coefficient)
+                             for coefficient, mode in events.get(time, [])]
+        for part in parts[1:]:
+            current = current + part
+        current = _without_rounding_residue(current.map_coefficients(tidy), parts)
         end = times[i + 1] if i + 1 < len(times) else None
         pieces.append(Piece(time, end, current))
         previous = time

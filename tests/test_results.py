@@ -431,6 +431,64 @@ def test_energy_balance_detects_a_wrong_piece():
     assert not checks[-1].passed
 
 
+def long_history(segments: int = 60) -> closedform.Derivation:
+    """A damped spring-mass-damper under a table load of ``segments`` ramps (more than the
+    40 pieces above which the energy balance runs in float64), with an impulse inside."""
+    rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, segments) else 200 + 150 * math.sin(i / 3):.2f}]"
+                     for i in range(segments + 1))
+    return derive_text(smd("40 kg", "250 kN/m", "damping_ratio = 0.04",
+                           f'[[load]]\nshape = "table"\npoints = [{rows}]\n'
+                           '[[load]]\nshape = "impulse"\nat = "0.1 s"\nimpulse = "2 N*s"',
+                           "0.4 s"))
+
+
+def test_energy_balance_in_floats_agrees_with_the_25_digit_quadrature():
+    """The float64 route of long histories (8-point Gauss–Legendre on short spans) and the
+    25-digit mpmath.quad route give the same work, energy and dissipation at every breakpoint
+    to 1e-11 relative (two independent quadratures of the same integrals)."""
+    from closedform.energy import _balance, _balance_in_floats
+    from closedform.verify import _equation
+
+    derivation = long_history()
+    equation = _equation(derivation.case.system)
+    floats = _balance_in_floats(derivation, equation)
+    precise = _balance(derivation, equation, {})
+    assert len(floats) == len(precise) == len(derivation.pieces) > 40
+    for fast, slow in zip(floats, precise):
+        assert fast.passed and slow.passed
+        assert fast.time == pytest.approx(slow.time, rel=1e-12)
+        scale = abs(slow.work) + slow.energy + slow.dissipated
+        for name in ("work", "energy", "dissipated"):
+            assert abs(getattr(fast, name) - getattr(slow, name)) <= 1e-11 * scale, name
+    summary = energy_checks(derivation)
+    assert len(summary) == 1 and summary[0].passed
+    assert summary[0].name == f"energy balance at {len(derivation.pieces)} breakpoints"
+    assert "float64" in summary[0].detail
+
+
+def test_energy_balance_in_floats_detects_a_wrong_piece():
+    """The float64 route can fail: one piece in the middle of a long history scaled by
+    1 + 1e-6 breaks the balance from that piece on, and the summary names the first failure."""
+    derivation = long_history()
+    pieces = list(derivation.solution.pieces)
+    middle = len(pieces) // 2
+    wrong_piece = pieces[middle]
+    function = wrong_piece.numeric if wrong_piece.numeric is not None else wrong_piece.local
+    scaled = dataclasses.replace(function, rows=tuple(
+        (*row[:-1], row[-1] * mpmath.mpf("1.000001")) for row in function.rows)) \
+        if wrong_piece.numeric is not None else None
+    pieces[middle] = dataclasses.replace(
+        wrong_piece, numeric=scaled,
+        local=wrong_piece.local.scaled(sympy.Float("1.000001", 30)))
+    wrong = dataclasses.replace(derivation, solution=dataclasses.replace(
+        derivation.solution, pieces=tuple(pieces)))
+    [summary] = energy_checks(wrong)
+    assert not summary.passed
+    assert summary.detail.startswith(f"{len(pieces) - middle} failed;")   # that piece on
+    first = float(summary.detail.split("first failure energy balance at t = ")[1].split(" s")[0])
+    assert first == pytest.approx(float(pieces[middle + 1].start), rel=1e-9)
+
+
 def test_energy_balance_counts_the_work_of_impulses():
     """An impulse J on a mass at rest does the work J²/(2m) (kinetic energy it gives, from
     the impulse-momentum relation; common practice); with no damping the balance at the end
