@@ -246,9 +246,10 @@ def register(commands) -> None:
 
 def run_appendix(arguments: argparse.Namespace) -> int:
     from .batch import TerminalProgress
-    from .cli import parse_formats, write_atomically
+    from .cli import parse_formats, usable_output_folder, write_atomically
 
     formats = parse_formats(arguments.format, APPENDIX_FORMATS, "appendix format")
+    usable_output_folder(arguments.output)
     progress = TerminalProgress(sys.stderr) if sys.stderr.isatty() else None
     contents, entries, unusable = build_appendix(arguments.folder, formats, progress,
                                                  jobs=arguments.jobs,

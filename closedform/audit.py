@@ -247,13 +247,16 @@ def register(commands) -> None:
 
 
 def run_check(arguments: argparse.Namespace) -> int:
-    from .case import load_case
+    from .case import load_case, locate
     from .derivation import derive
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
     case = load_case(arguments.case)
-    derivation = derive(case, time_budget=arguments.time_budget)
+    try:
+        derivation = derive(case, time_budget=arguments.time_budget)
+    except CaseError as error:        # raised past loading: name the file and the key's line
+        raise locate(error, arguments.case) from None
     verdicts = audit(derivation)
     all_confirmed = all(v.confirmed for v in verdicts)
     if arguments.json_target == "-":

@@ -12,6 +12,7 @@ breakpoint (the shift), differentiating, and taking the Laplace transform.
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Iterator, Mapping
 from dataclasses import dataclass, field
 from math import comb
@@ -232,14 +233,17 @@ class NumericExponentialPolynomial:
 
     def fastest_scale(self) -> float:
         """The shortest time scale among the modes: a period or a decay time."""
-        scale = float("inf")
+        infinity = float("inf")
+        scale = infinity
         for _power, rate, frequency, _kind, _c in self.rows:
-            # divided in mpmath, converted after: a rate of 1e-320 is a time scale past the
-            # float range (inf), not a division by a float that underflowed to 0.0
+            # a rate that is not zero but underflows to 0.0 as a float (5e-601) is a time
+            # scale past the float range: inf, not a division by zero
             if frequency != 0:
-                scale = min(scale, float(2 * mpmath.pi / abs(mpmath.mpf(frequency))))
+                f = abs(float(frequency))
+                scale = min(scale, 2 * math.pi / f if f else infinity)
             if rate != 0:
-                scale = min(scale, float(1 / abs(mpmath.mpf(rate))))
+                r = abs(float(rate))
+                scale = min(scale, 1 / r if r else infinity)
         return scale
 
 

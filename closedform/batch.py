@@ -31,14 +31,35 @@ class CaseOutcome:
 
 def case_paths(arguments: Sequence[Path]) -> list[Path]:
     """Files as given, and every *.toml under a folder (sorted), in order, once each."""
-    paths: list[Path] = []
+    return [path for path, _folder in case_sources(arguments)]
+
+
+def case_sources(arguments: Sequence[Path]) -> list[tuple[Path, Path]]:
+    """Each case file once, with the subfolder its outputs go to: a file given by name
+    writes into the output folder itself; a case found under a folder argument writes into
+    the same subfolder path below it (cases/a/case.toml -> OUT/a/case.md)."""
+    sources: dict[Path, Path] = {}
     for argument in arguments:
         if argument.is_dir():
             # a folder that happens to be called *.toml is not a case
-            paths.extend(sorted(p for p in argument.rglob("*.toml") if not p.is_dir()))
+            for path in sorted(p for p in argument.rglob("*.toml") if not p.is_dir()):
+                sources.setdefault(path, path.parent.relative_to(argument))
         else:
-            paths.append(argument)
-    return list(dict.fromkeys(paths))
+            sources.setdefault(argument, Path())
+    return list(sources.items())
+
+
+def refuse_clashing_outputs(sources: Sequence[tuple[Path, Path]]) -> None:
+    """Two cases whose sheets would land on the same files (same name, same subfolder):
+    refuse before deriving, rather than let the later one overwrite the earlier."""
+    seen: dict[Path, Path] = {}
+    for path, folder in sources:
+        target = folder / (path.stem or "case")
+        if target in seen:
+            raise CaseError(f"'{seen[target]}' and '{path}' would write the same sheet files "
+                            f"({target}.*); rename one or derive them into separate folders",
+                            file="-o")
+        seen[target] = path
 
 
 def run_case(path: str, formats: Sequence[str], time_budget: float | None,

@@ -90,7 +90,7 @@ def parse_formats(text: str, known: Sequence[str] | None = None,
 
 
 def run_derive(arguments: argparse.Namespace) -> int:
-    from .batch import case_paths, require_cases, run_cases, worst_exit_code
+    from .batch import case_sources, refuse_clashing_outputs, require_cases, run_cases, worst_exit_code
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
@@ -99,10 +99,14 @@ def run_derive(arguments: argparse.Namespace) -> int:
     if arguments.jobs is not None and arguments.jobs < 1:
         raise CaseError("--jobs must be at least 1", file="--jobs")
     formats = parse_formats(arguments.format) if arguments.output is not None else []
-    paths = case_paths(arguments.cases)
+    sources = case_sources(arguments.cases)
+    paths = [path for path, _folder in sources]
     require_cases(paths)
+    if arguments.output is not None:
+        usable_output_folder(arguments.output)
+        refuse_clashing_outputs(sources)
     outcomes = run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs)
-    for outcome in outcomes:
+    for outcome, (_path, folder) in zip(outcomes, sources):
         for warning in outcome.warnings:
             print(f"warning: {warning}", file=sys.stderr)
         if outcome.result is None:
@@ -110,7 +114,7 @@ def run_derive(arguments: argparse.Namespace) -> int:
         elif arguments.json_target is None:
             print(outcome.message)
         if arguments.output is not None and outcome.contents:
-            write_atomically(arguments.output, outcome.contents)
+            write_atomically(arguments.output / folder, outcome.contents)
     if arguments.json_target == "-":
         results = [o.result for o in outcomes if o.result is not None]
         if len(paths) == 1:
@@ -136,7 +140,28 @@ def _umask() -> int:
     return mask
 
 
+def usable_output_folder(folder: Path, option: str = "-o") -> None:
+    """Refuse, before any work, an output folder that is a file or cannot be made."""
+    if folder.exists() and not folder.is_dir():
+        raise CaseError(f"'{folder}' is a file, not a folder for the output", file=option)
+    try:
+        folder.mkdir(parents=True, exist_ok=True)
+    except OSError as error:
+        raise CaseError(f"cannot make the output folder '{folder}': "
+                        f"{error.strerror or error}", file=option) from None
+    if not os.access(folder, os.W_OK | os.X_OK):
+        raise CaseError(f"the output folder '{folder}' is not writable", file=option)
+
+
 def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:
+    try:
+        return _write_atomically(folder, contents)
+    except OSError as error:
+        raise CaseError(f"cannot write into '{folder}': {error.strerror or error}",
+                        file=str(folder)) from None
+
+
+def _write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:
     folder.mkdir(parents=True, exist_ok=True)
     written = []
     for name, content in contents.items():

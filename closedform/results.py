@@ -90,8 +90,12 @@ def piece_functions(pieces) -> list[ExponentialPolynomial | NumericExponentialPo
 
 def real_number(value: sympy.Expr, subs: Mapping | None = None) -> mpmath.mpf:
     """A real sympy value as an mpmath number at DIGITS + 10 digits."""
+    value = sympy.sympify(value)
+    if value.is_Rational:          # breakpoints of a long table: skip sympy's evaluation
+        with mpmath.workdps(DIGITS + 10):
+            return mpmath.mpf(value.p) / value.q
     with mpmath.workdps(DIGITS + 10):
-        return mpmath.mpf(str(sympy.N(sympy.sympify(value).subs(subs or {}), DIGITS + 10)))
+        return mpmath.mpf(str(sympy.N(value.subs(subs or {}), DIGITS + 10)))
 
 
 # ----------------------------------------------------------------------------- extremes

@@ -450,7 +450,7 @@ def parse_pulse(arguments: argparse.Namespace) -> Pulse:
 
 
 def run_spectrum(arguments: argparse.Namespace) -> int:
-    from .cli import write_atomically
+    from .cli import usable_output_folder, write_atomically
 
     pulse = parse_pulse(arguments)
     zeta = _fraction(arguments.damping_ratio, "--damping-ratio", "a damping ratio from 0 to below 1")
@@ -464,6 +464,8 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
     if arguments.json_target not in (None, "-"):
         raise CaseError(f"expected '-' (standard output), got '{arguments.json_target}'",
                         file="--json")
+    if arguments.output is not None:
+        usable_output_folder(arguments.output)
     spectrum = response_spectrum(pulse, zeta, ratios)
     if arguments.json_target == "-":
         sys.stdout.write(spectrum.to_json() + "\n")

@@ -116,3 +116,32 @@ def test_unusable_claims_exit_2(tmp_path, claims, message):
     assert code == 2
     assert out == ""
     assert err.strip() == str(tmp_path / message)
+
+
+def test_an_error_found_after_loading_names_the_file_and_line(tmp_path):
+    """A problem the derivation finds (load times that symbols cannot order) is located like
+    a loading error: FILE:LINE: KEY: message, exit 2."""
+    code, out, err = run(tmp_path, """
+        title = "Two steps at unknown times"
+        [symbols]
+        t1 = { unit = "s" }
+        t2 = { unit = "s" }
+        [system]
+        model = "spring-mass-damper"
+        mass = "10 kg"
+        stiffness = "1000 N/m"
+        [[load]]
+        shape = "step"
+        at = "t1"
+        amplitude = "1 N"
+        [[load]]
+        shape = "step"
+        at = "t2"
+        amplitude = "1 N"
+        [claims]
+        peak = "1 mm"
+        """)
+    assert code == 2 and out == ""
+    assert err.startswith(f"{tmp_path / 'claims.toml'}:") and "load: the load times cannot be " \
+        "put in order" in err
+    assert "<case>" not in err

@@ -105,3 +105,44 @@ def test_every_worked_case_derives_and_passes_its_checks(case, tmp_path, capsys)
     failed = [c for c in result["checks"] if not c["passed"]]
     assert code == 0, failed
     assert result["status"] == "verified"
+
+
+def test_output_that_is_a_file_is_refused_before_deriving(tmp_path, capsys):
+    """-o naming an existing file: one located line, exit 2, the file untouched."""
+    case = write(tmp_path, GOOD)
+    target = tmp_path / "report.md"
+    target.write_text("keep me\n")
+    code = main(["derive", str(case), "-o", str(target)])
+    err = capsys.readouterr().err
+    assert code == 2
+    assert err.splitlines() == [f"-o: '{target}' is a file, not a folder for the output"]
+    assert target.read_text() == "keep me\n"
+
+
+def test_cases_under_a_folder_keep_their_subfolders_in_the_output(tmp_path, capsys):
+    """Two case.toml in different subfolders write OUT/a/case.md and OUT/b/case.md, not
+    one file that the later case overwrites."""
+    for sub in ("a", "b"):
+        (tmp_path / "cases" / sub).mkdir(parents=True)
+    write(tmp_path / "cases" / "a", GOOD)
+    write(tmp_path / "cases" / "b", GOOD.replace('"95 N*s"', '"40 N*s"'))
+    out = tmp_path / "out"
+    assert main(["derive", str(tmp_path / "cases"), "-o", str(out)]) == 0
+    first = json.loads((out / "a" / "case.json").read_text())
+    second = json.loads((out / "b" / "case.json").read_text())
+    # peaks scale with the impulse (a linear system): 40/95 of the first
+    assert second["peak"]["value"] == pytest.approx(first["peak"]["value"] * 40 / 95, rel=1e-9)
+    assert (out / "a" / "case.md").exists() and (out / "b" / "case.md").exists()
+
+
+def test_two_named_cases_with_one_stem_are_refused(tmp_path, capsys):
+    for sub in ("a", "b"):
+        (tmp_path / sub).mkdir()
+        write(tmp_path / sub, GOOD)
+    out = tmp_path / "out"
+    code = main(["derive", str(tmp_path / "a" / "case.toml"), str(tmp_path / "b" / "case.toml"),
+                 "-o", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2 and len(err.splitlines()) == 1
+    assert err.startswith("-o: ") and "would write the same sheet files (case.*)" in err
+    assert not any(out.rglob("*.md"))
