@@ -141,16 +141,19 @@ def _umask() -> int:
 
 
 def usable_output_folder(folder: Path, option: str = "-o") -> None:
-    """Refuse, before any work, an output folder that is a file or cannot be made."""
+    """Refuse, before any work, an output folder that is a file or could not be made; it is
+    made only when there is something to write (a failed run leaves no empty folder)."""
     if folder.exists() and not folder.is_dir():
         raise CaseError(f"'{folder}' is a file, not a folder for the output", file=option)
-    try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError as error:
-        raise CaseError(f"cannot make the output folder '{folder}': "
-                        f"{error.strerror or error}", file=option) from None
-    if not os.access(folder, os.W_OK | os.X_OK):
-        raise CaseError(f"the output folder '{folder}' is not writable", file=option)
+    existing = folder.absolute()
+    while not existing.exists():
+        existing = existing.parent
+    if not existing.is_dir():
+        raise CaseError(f"cannot make the output folder '{folder}': '{existing}' is a file",
+                        file=option)
+    if not os.access(existing, os.W_OK | os.X_OK):
+        raise CaseError(f"the output folder '{folder}' cannot be written in "
+                        f"('{existing}' is not writable)", file=option)
 
 
 def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:

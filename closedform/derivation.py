@@ -16,7 +16,7 @@ from . import __version__
 from .case import Case
 from .energy import energy_checks
 from .loads import LoadHistory, rewrite_loads
-from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve, t
+from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
 from .verify import Check, verify
@@ -172,7 +172,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "regime": derivation.model.regime,
         "until": _time_value(derivation.window.until, values),
         "pieces": [{"start": _time_value(p.start, values), "end": _time_value(p.end, values),
-                    "expr": str(p.expression(t))} for p in derivation.pieces],
+                    "expr": p.expression_text()} for p in derivation.pieces],
         "peak": _extreme(results.peak),
         "static": results.static,
         "dlf": results.dlf,

@@ -58,6 +58,26 @@ class Piece:
         shift = sympy.Symbol("__local", real=True)
         return self.local.expression(shift).subs(shift, time - self.start)
 
+    def expression_text(self) -> str:
+        """``str(self.expression(t))`` in substance: sympy-readable text in the global time t.
+        A piece carried in 30-digit numbers is written term by term, because building and
+        printing a thousand such sympy sums would cost minutes; an exact piece is printed by
+        sympy."""
+        if self.numeric is None:
+            return str(self.expression(t))
+        u = "t" if self.start == 0 else f"(t - {self.start})"
+        terms = []
+        for mode in self.local.modes():
+            factors = [str(self.local.terms[mode])]
+            if mode.power:
+                factors.append(u if mode.power == 1 else f"{u}**{mode.power}")
+            if mode.rate != 0:
+                factors.append(f"exp(({mode.rate})*{u})")
+            if mode.frequency != 0:
+                factors.append(f"{mode.kind}(({mode.frequency})*{u})")
+            terms.append("*".join(factors))
+        return " + ".join(terms).replace("+ -", "- ") if terms else "0"
+
 
 @dataclass(frozen=True)
 class Kernel:

@@ -146,3 +146,27 @@ def test_two_named_cases_with_one_stem_are_refused(tmp_path, capsys):
     assert code == 2 and len(err.splitlines()) == 1
     assert err.startswith("-o: ") and "would write the same sheet files (case.*)" in err
     assert not any(out.rglob("*.md"))
+
+
+def test_json_pieces_of_a_long_history_read_back_as_the_pieces(tmp_path, capsys):
+    """Pieces carried in 30-digit numbers are written term by term into the JSON; the text
+    parsed by sympy equals each piece's own sympy expression at points inside it (to 1e-25
+    of the piece's size) — the fast writer says the same as sympy's printer."""
+    rows = ", ".join(f'["{i * 2} ms", "{(i * 37) % 11 * 0.25:.2f} kN"]' for i in range(24)) + ', ["48 ms", "0 kN"]'
+    text = GOOD.replace('shape = "rectangle"\nat = "20 ms"\nduration = "1.5 ms"\nimpulse = "95 N*s"',
+                        f"shape = \"table\"\npoints = [{rows}]")
+    assert main(["derive", str(write(tmp_path, text)), "--json", "-"]) == 0
+    result = json.loads(capsys.readouterr().out)
+    assert len(result["pieces"]) > 16           # past the exact route's breakpoint limit
+    from closedform import derive, load_case
+    derivation = derive(load_case(tmp_path / "case.toml"))
+    t = sympy.Symbol("t", real=True)
+    for piece, data in zip(derivation.pieces, result["pieces"]):
+        assert piece.numeric is not None            # the 30-digit route, written by hand
+        parsed = sympy.parse_expr(data["expr"], local_dict={"t": t})
+        end = piece.end if piece.end is not None else piece.start + sympy.Rational(1, 10)
+        for fraction in (sympy.Rational(1, 5), sympy.Rational(3, 4)):
+            at = piece.start + (end - piece.start) * fraction
+            ours = sympy.N(piece.expression(t).subs(t, at), 40)
+            theirs = sympy.N(parsed.subs(t, at), 40)
+            assert abs(ours - theirs) <= sympy.Float("1e-25") * (1 + abs(ours))

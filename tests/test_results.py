@@ -21,7 +21,7 @@ import pytest
 import sympy
 
 import closedform
-from closedform.energy import energy_checks
+from closedform.energy import SUMMARY_LIMIT, energy_checks
 from closedform.results import impulse_response_peak, result_fields, stationary_points
 from closedform.systems import build_model
 
@@ -410,11 +410,14 @@ def test_energy_balance_closes_on_every_worked_case(name):
         return
     derivation = worked(name)
     checks = energy_checks(derivation)
-    assert len(checks) == len(derivation.pieces)     # every piece boundary and the window end
+    long = len(derivation.pieces) > SUMMARY_LIMIT       # one summary line, float64 quadrature
+    # every piece boundary and the window end
+    assert len(checks) == (1 if long else len(derivation.pieces))
     for check in checks:
         assert check.passed, check.detail
-        relative = float(check.detail.split(", ")[1].split(" of ")[0])
-        assert relative <= 1e-12
+        relative = float(check.detail.split("|W − (E − E(0)) − D| = ")[1].split(", ")[1]
+                         .split(" of ")[0])
+        assert relative <= (1e-10 if long else 1e-12)
 
 
 def test_energy_balance_detects_a_wrong_piece():
