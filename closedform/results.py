@@ -18,6 +18,7 @@ Everything is SI; ``result_fields`` gives the JSON fields beyond peak, static an
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
@@ -144,7 +145,12 @@ class FloatEvaluator:
 
     def __init__(self, function: NumericExponentialPolynomial, orders: int = 3) -> None:
         self.orders = _derivatives(_groups(function.rows, float), orders)
-        self.scale = function.fastest_scale()
+        # the shortest period or decay time, from the float rates and frequencies (a rate
+        # that underflows to 0.0 is a time scale past the float range, as in fastest_scale)
+        self.scale = min([2 * math.pi / abs(frequency) for _rate, frequency in self.orders[0]
+                          if frequency != 0]
+                         + [1 / abs(rate) for rate, _frequency in self.orders[0] if rate != 0],
+                         default=math.inf)
         self.empty = not function.rows
 
     def __call__(self, u: numpy.ndarray, orders: int | None = None) -> list[numpy.ndarray]:
