@@ -230,13 +230,13 @@ def test_file_name_with_control_characters_stays_on_one_line(tmp_path, capsys):
 
 # --- the time budget --------------------------------------------------------------------------
 
-def slow_table(points: int = 120) -> str:
+def slow_table(points: int = 1500) -> str:
     """A legitimately slow case: a table load of many irregular points, each a breakpoint
     with a piece to assemble and check."""
     rows = ", ".join(f"[{i}, {(i * 37) % 11 - 5}]" for i in range(points))
     return GOOD.replace('shape = "rectangle"', f'shape = "table"\nunits = ["ms", "kN"]\n'
                         f"points = [{rows}]").replace('duration = "1.5 ms"\namplitude = "10 kN"\n',
-                                                      "").replace('"250 ms"', '"400 ms"')
+                                                      "").replace('"250 ms"', '"1600 ms"')
 
 
 def test_slow_derivation_stops_at_the_budget_naming_stage_and_case(tmp_path, capsys):
