@@ -13,7 +13,7 @@ breakpoint (the shift), differentiating, and taking the Laplace transform.
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
 from math import comb
 
@@ -233,18 +233,21 @@ class NumericExponentialPolynomial:
 
     def fastest_scale(self) -> float:
         """The shortest time scale among the modes: a period or a decay time."""
-        infinity = float("inf")
-        scale = infinity
-        for _power, rate, frequency, _kind, _c in self.rows:
-            # a rate that is not zero but underflows to 0.0 as a float (5e-601) is a time
-            # scale past the float range: inf, not a division by zero
-            if frequency != 0:
-                f = abs(float(frequency))
-                scale = min(scale, 2 * math.pi / f if f else infinity)
-            if rate != 0:
-                r = abs(float(rate))
-                scale = min(scale, 1 / r if r else infinity)
-        return scale
+        return fastest_time_scale((rate, frequency) for _p, rate, frequency, _k, _c in self.rows)
+
+
+def fastest_time_scale(modes: Iterable[tuple[object, object]]) -> float:
+    """The shortest period 2π/|ω| or decay time 1/|σ| among (σ, ω) pairs, as a float; a rate
+    that is not zero but underflows to 0.0 as a float (5e-601) is a time scale past the float
+    range, inf, not a division by zero."""
+    scale = math.inf
+    for rate, frequency in modes:
+        f, r = abs(float(frequency)), abs(float(rate))
+        if f:
+            scale = min(scale, 2 * math.pi / f)
+        if r:
+            scale = min(scale, 1 / r)
+    return scale
 
 
 def _trig_product(a: Mode, b: Mode) -> list[tuple[str, sympy.Expr, sympy.Expr]]:

@@ -56,6 +56,7 @@ from .verify import (
     _load_model,
     _long_number,
     _numeric_branches,
+    _NumericLoads,
     _problem,
     _resolved_values,
 )
@@ -241,7 +242,8 @@ class _Watched:
 
 def _balance_in_floats(derivation, equation) -> list[_Closure]:
     """The balance of a long numeric history: W and D by a fixed 8-point Gauss–Legendre rule
-    in float64 on short spans, vectorised per piece (see the module text)."""
+    in float64 on short spans, vectorised per piece (see the module text). The load comes
+    from the verification's numeric load model (its breakpoints, acting branches, impulses)."""
     case = derivation.case
     with mpmath.workdps(DIGITS):
         exact = _scaled_equation(case, equation, {})
@@ -252,46 +254,41 @@ def _balance_in_floats(derivation, equation) -> list[_Closure]:
                                   derivation.window.until, {})
     until = intervals[-1].end
     branches, kicks = _numeric_branches(case.loads)
-    loads = [(float(br.start), float(br.end), float(br.origin),
-              None if br.poly is None else [float(c) for c in reversed(br.poly)], br)
-             for br in branches]
-    loads.sort(key=lambda item: item[0])
-    impulses = sorted((float(_long_number(k.at)), float(_long_number(k.size))) for k in kicks)
-    initial = [float(_long_number(sympy.sympify(v))) for v in case.initial] \
-        if case.initial is not None else [0.0, 0.0]
+    loads = _NumericLoads(branches, [(_long_number(k.at), _long_number(k.size)) for k in kicks],
+                          until)
+    force = _FloatForce()
+    initial = [float(_long_number(v)) for v in case.initial] if case.initial is not None \
+        else [0.0, 0.0]
     energy_start = scaled.energy(*initial)
-    omega = math.sqrt(abs(a0 / a2))
-    load_rates = [abs(float(br.rate)) for br in branches if br.rate is not None]
+    load_rate = max([abs(float(br.rate)) for br in branches if br.rate is not None], default=0.0)
+    base_rate = max(math.sqrt(abs(a0 / a2)), load_rate)   # natural frequency or load rate
     nodes, weights = numpy.polynomial.legendre.leggauss(LONG_NODES)
     work_terms, dissipated_terms = [], []
     largest, velocity_before = energy_start, initial[1]
     checks = []
-    sweep = _FloatLoadSweep(loads)
     for interval in intervals:
         lo, hi = float(interval.start), float(interval.end)
         evaluate = FloatEvaluator(interval.function, orders=2)
-        _x0, v0 = (float(value[0]) for value in evaluate(numpy.array([0.0]), orders=2))
-        for at, size in impulses:
-            if abs(at - lo) <= 1e-12 * max(abs(lo), abs(until)):
-                work_terms.append(b * size * (velocity_before + float(v0)) / 2)
-        fastest = max([omega, 1 / evaluate.scale if evaluate.scale > 0 else 0.0] + load_rates)
-        cuts = [lo] + sweep.inside(lo, hi) + [hi]
+        (_x0,), (v0,) = evaluate(numpy.zeros(1), orders=2)
+        for size in loads.kicks_at(interval.start, until):
+            work_terms.append(b * float(size) * (velocity_before + v0) / 2)
+        fastest = max(base_rate, 1 / evaluate.scale)
+        cuts = [interval.start] + loads.inside(interval.start, interval.end) + [interval.end]
         for left, right in zip(cuts, cuts[1:]):
-            if right <= left:
-                continue
+            acting = loads.acting((left + right) / 2)
+            left, right = float(left), float(right)
             count = max(1, math.ceil((right - left) * fastest / LONG_PHASE))
             edges = numpy.linspace(left, right, count + 1)
             half = numpy.diff(edges) / 2
-            times = ((edges[:-1] + edges[1:]) / 2)[:, None] + half[:, None] * nodes[None, :]
-            spread = (half[:, None] * weights[None, :]).ravel()
-            x, velocity = evaluate(times.ravel() - lo, orders=2)
+            times = (((edges[:-1] + edges[1:]) / 2)[:, None] + half[:, None] * nodes).ravel()
+            spread = (half[:, None] * weights).ravel()
+            x, velocity = evaluate(times - lo, orders=2)
             largest = max(largest, float(numpy.max(scaled.energy(x, velocity))))
             if a1 != 0:
                 dissipated_terms.append(a1 * math.fsum(spread * velocity ** 2))
-            force = sweep.force(left, right, times.ravel())
-            if force is not None:
-                work_terms.append(b * math.fsum(spread * force * velocity))
-        x1, v1 = (float(value[0]) for value in evaluate(numpy.array([hi - lo]), orders=2))
+            if acting:
+                work_terms.append(b * math.fsum(spread * force(acting, times) * velocity))
+        (x1,), (v1,) = evaluate(numpy.array([hi - lo]), orders=2)
         velocity_before = v1
         energy = scaled.energy(x1, v1)
         largest = max(largest, energy)
@@ -302,39 +299,24 @@ def _balance_in_floats(derivation, equation) -> list[_Closure]:
     return checks
 
 
-class _FloatLoadSweep:
-    """The load of the verification's independent model on successive spans, in floats:
-    branches (start, end, origin, polynomial coefficients highest first or None, branch)."""
+class _FloatForce:
+    """The sum of acting load branches at an array of times, in float64 (each polynomial
+    branch's coefficients converted once; other shapes evaluated point by point)."""
 
-    def __init__(self, loads: Sequence) -> None:
-        self.loads = loads
-        self.next = 0
-        self.active: list = []
-        self.edges = sorted({t for start, end, *_ in loads for t in (start, end)
-                             if math.isfinite(t)})
+    def __init__(self) -> None:
+        self.polynomials: dict[int, tuple[float, list[float]]] = {}
 
-    def inside(self, lo: float, hi: float) -> list[float]:
-        """The load's own breakpoints strictly inside (lo, hi)."""
-        first = bisect.bisect_right(self.edges, lo)
-        last = bisect.bisect_left(self.edges, hi)
-        reach = 1e-12 * max(abs(lo), abs(hi))
-        return [t for t in self.edges[first:last] if t - lo > reach and hi - t > reach]
-
-    def force(self, lo: float, hi: float, times: numpy.ndarray) -> numpy.ndarray | None:
-        middle = (lo + hi) / 2
-        while self.next < len(self.loads) and self.loads[self.next][0] <= middle:
-            self.active.append(self.loads[self.next])
-            self.next += 1
-        self.active = [item for item in self.active if middle < item[1]]
-        if not self.active:
-            return None
+    def __call__(self, acting: Sequence, times: numpy.ndarray) -> numpy.ndarray:
         total = numpy.zeros_like(times)
-        for _start, _end, origin, poly, branch in self.active:
-            if poly is not None:
-                total = total + numpy.polyval(poly, times - origin)
-            else:
-                total = total + numpy.array([float(branch.value(mpmath.mpf(time)))
-                                             for time in times])
+        for branch in acting:
+            if branch.poly is None:
+                total += [float(branch.value(mpmath.mpf(time))) for time in times]
+                continue
+            if id(branch) not in self.polynomials:
+                self.polynomials[id(branch)] = (float(branch.origin),
+                                                [float(c) for c in reversed(branch.poly)])
+            origin, coefficients = self.polynomials[id(branch)]
+            total += numpy.polyval(coefficients, times - origin)
         return total
 
 

@@ -18,7 +18,6 @@ Everything is SI; ``result_fields`` gives the JSON fields beyond peak, static an
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
@@ -27,7 +26,13 @@ import numpy
 import sympy
 
 from . import quantities
-from .basis import SIN, ExponentialPolynomial, NumericCarrier, NumericExponentialPolynomial
+from .basis import (
+    SIN,
+    ExponentialPolynomial,
+    NumericCarrier,
+    NumericExponentialPolynomial,
+    fastest_time_scale,
+)
 from .case import PULSE_SHAPES, TAU, LoadSpec
 from .loads import LoadHistory, pulse_points
 from .response import load_pieces, solve
@@ -145,12 +150,7 @@ class FloatEvaluator:
 
     def __init__(self, function: NumericExponentialPolynomial, orders: int = 3) -> None:
         self.orders = _derivatives(_groups(function.rows, float), orders)
-        # the shortest period or decay time, from the float rates and frequencies (a rate
-        # that underflows to 0.0 is a time scale past the float range, as in fastest_scale)
-        self.scale = min([2 * math.pi / abs(frequency) for _rate, frequency in self.orders[0]
-                          if frequency != 0]
-                         + [1 / abs(rate) for rate, _frequency in self.orders[0] if rate != 0],
-                         default=math.inf)
+        self.scale = fastest_time_scale(self.orders[0])     # from the float (σ, ω) groups
         self.empty = not function.rows
 
     def __call__(self, u: numpy.ndarray, orders: int | None = None) -> list[numpy.ndarray]:

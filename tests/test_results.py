@@ -445,14 +445,22 @@ def long_history(segments: int = 60) -> closedform.Derivation:
                            "0.4 s"))
 
 
-def test_energy_balance_in_floats_agrees_with_the_25_digit_quadrature():
+REPEATED_HALF_SINE = smd("40 kg", "250 kN/m", "damping_ratio = 0.04",
+                         '[[load]]\nshape = "half-sine"\nduration = "3 ms"\namplitude = "2 kN"\n'
+                         'repeat = { count = 24, every = "7 ms" }', "0.25 s")
+
+
+@pytest.mark.parametrize("history", ["table-and-impulse", "repeated-half-sine"])
+def test_energy_balance_in_floats_agrees_with_the_25_digit_quadrature(history):
     """The float64 route of long histories (8-point Gauss–Legendre on short spans) and the
     25-digit mpmath.quad route give the same work, energy and dissipation at every breakpoint
-    to 1e-11 relative (two independent quadratures of the same integrals)."""
+    to 1e-11 relative (two independent quadratures of the same integrals), for polynomial
+    load branches with an impulse and for sine branches evaluated point by point."""
     from closedform.energy import _balance, _balance_in_floats
     from closedform.verify import _equation
 
-    derivation = long_history()
+    derivation = long_history() if history == "table-and-impulse" \
+        else derive_text(REPEATED_HALF_SINE)
     equation = _equation(derivation.case.system)
     floats = _balance_in_floats(derivation, equation)
     precise = _balance(derivation, equation, {})
