@@ -816,17 +816,28 @@ def _breakpoint_checks(problem: _Problem, reference: Mapping, fallbacks: Sequenc
             return passed, f"{rule}: {detail}"
         checks.append(_guard(f"breakpoint conditions at t = {_short(time)}{suffix}", run))
 
-    # An impulse inside the window must sit on a piece boundary.
     until = _mp(problem.until, reference)
     known = [_mp(b, reference) for b in boundaries]
-    for impulse in problem.impulses:
-        def run_impulse(impulse: _Impulse = impulse) -> tuple[bool, str]:
-            at = _mp(impulse.at, reference)
-            if at <= 0 or at >= until or any(_same_time(at, b, until) for b in known):
+    return checks + _impulses_off_boundaries(
+        problem.impulses, n, until, lambda value: _mp(value, reference),
+        lambda at: any(_same_time(at, b, until) for b in known), suffix)
+
+
+def _impulses_off_boundaries(impulses: Sequence[_Impulse], order: int, until: mpmath.mpf,
+                             number: Callable[[sympy.Expr], mpmath.mpf],
+                             on_boundary: Callable[[mpmath.mpf], bool],
+                             suffix: str = "") -> list[Check]:
+    """An impulse inside the window must sit on a piece boundary (where the highest
+    derivative can jump): a failed check for each one that does not."""
+    checks = []
+    for impulse in impulses:
+        def run(impulse: _Impulse = impulse) -> tuple[bool, str]:
+            at = number(impulse.at)
+            if at <= 0 or at >= until or on_boundary(at):
                 return True, ""
             return False, (f"the impulse of {impulse.load} acts at t = {_short(at)} s, where no "
-                           f"piece ends: {_name_of_derivative(n - 1)} cannot jump there")
-        check = _guard(f"breakpoint conditions at t = {_short(impulse.at)}{suffix}", run_impulse)
+                           f"piece ends: {_name_of_derivative(order - 1)} cannot jump there")
+        check = _guard(f"breakpoint conditions at t = {_short(impulse.at)}{suffix}", run)
         if not check.passed:
             checks.append(check)
     return checks
@@ -2138,20 +2149,11 @@ def _long_breakpoint_checks(problem: _LongProblem) -> list[Check]:
                           f"(limit {_figure(limit)}; " + _route(kinds, "") + ")")
     checks = [_guard(f"breakpoint conditions at {count} boundaries", run)] if count else []
 
-    # An impulse inside the window must sit on a piece boundary.
     until = _long_number(problem.until)
     known = [piece.lo for piece in pieces[1:]]
-    for impulse in problem.impulses:
-        def run_impulse(impulse: _Impulse = impulse) -> tuple[bool, str]:
-            at = _long_number(impulse.at)
-            if at <= 0 or at >= until or _NumericLoads.near(known, known, at, until):
-                return True, ""
-            return False, (f"the impulse of {impulse.load} acts at t = {_short(at)} s, where no "
-                           f"piece ends: {_name_of_derivative(n - 1)} cannot jump there")
-        check = _guard(f"breakpoint conditions at t = {_short(impulse.at)}", run_impulse)
-        if not check.passed:
-            checks.append(check)
-    return checks
+    return checks + _impulses_off_boundaries(
+        problem.impulses, n, until, _long_number,
+        lambda at: bool(_NumericLoads.near(known, known, at, until)))
 
 
 def _long_checks(case: Case, problem: _LongProblem, peak: Any) -> list[Check]:
