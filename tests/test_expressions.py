@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import builtins
 import re
-import time
 from fractions import Fraction
 from pathlib import Path
 
@@ -351,10 +350,9 @@ def test_numeric_power_magnitude_limit() -> None:
         assert "out of range" in message and "1e-300 and 1e300" in message, text
 
 
-def test_power_tower_is_rejected_instantly() -> None:
-    start = time.perf_counter()
+def test_power_tower_is_rejected_without_evaluating_it() -> None:
+    # Speed is measured in benchmarks/rejection_speed.py, never asserted here.
     message = error_of("9**9**9").message
-    assert time.perf_counter() - start < 0.5
     assert "exponent too large at column 2 (at most 1000 in magnitude, got 387420489)" in message
 
 
@@ -438,15 +436,13 @@ def hostile_corpus(marker: Path) -> list[str]:
     ]
 
 
-def test_hostile_corpus_is_rejected_quickly_and_harmlessly(tmp_path: Path) -> None:
+def test_hostile_corpus_is_rejected_harmlessly(tmp_path: Path) -> None:
     marker = tmp_path / "pwned"
     corpus = hostile_corpus(marker)
     assert len(corpus) >= 20
     for text in corpus:
-        start = time.perf_counter()
         with pytest.raises(ExpressionError) as caught:
             parse(text)
-        assert time.perf_counter() - start < 0.5, text[:40]
         assert "\n" not in caught.value.message and len(caught.value.message) < 400
     assert not marker.exists()
 
