@@ -11,9 +11,10 @@
 
 Settings profiles, chosen with the environment variable CLOSEDFORM_FUZZ_PROFILE:
 
-* ``ci`` (the default, what ``python -m pytest`` runs in CI): 300 mutations and 200 random
-  cases, about three to four minutes in all on two cores;
-* ``quick``: 30 and 15 examples, for a fast local run while editing;
+* ``ci`` (the default where the environment variable ``CI`` is set, as it is for
+  ``.ci/run``): 300 mutations and 200 random cases, about three to four minutes in all on
+  two cores;
+* ``quick`` (the default elsewhere): 30 and 20 examples, for a fast local run while editing;
 * ``deep``: 3000 and 1500 examples, for a long run before a release.
 
 No example database is written (``database=None``), so a CI run never depends on an
@@ -48,7 +49,7 @@ settings.register_profile("ci", max_examples=300, deadline=None, database=None,
                                                  HealthCheck.data_too_large])
 settings.register_profile("quick", parent=settings.get_profile("ci"), max_examples=30)
 settings.register_profile("deep", parent=settings.get_profile("ci"), max_examples=3000)
-PROFILE = os.environ.get("CLOSEDFORM_FUZZ_PROFILE", "ci")
+PROFILE = os.environ.get("CLOSEDFORM_FUZZ_PROFILE", "ci" if os.environ.get("CI") else "quick")
 MUTATIONS = settings(settings.get_profile(PROFILE))
 ENGINEERING = settings(settings.get_profile(PROFILE),
                        max_examples=settings.get_profile(PROFILE).max_examples * 2 // 3)
