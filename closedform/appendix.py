@@ -130,7 +130,7 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
 def summary_cells(derivation, target: str) -> SummaryCells:
     """Peak (in the case's report unit, with its time) and DLF, as inline math."""
     units = render.Units(derivation.case)
-    results = derivation.results
+    results = derivation.numbers
     escape = render.latex_escape if target == "tex" else render.markdown_escape
     peak = None
     if results.peak is not None:

@@ -184,7 +184,7 @@ def _response_verdicts(derivation, raw, tolerance, error) -> list[Verdict]:
     verdicts = []
     # 1. On its own against the equation: the same independent checks our derivation passed.
     alone = SimpleNamespace(case=case, pieces=tuple(pieces), window=derivation.window,
-                            results=derivation.results, solution=None, model=None, history=None)
+                            numbers=derivation.numbers, solution=None, model=None, history=None)
     own_checks = verify(alone)
     failed = [c for c in own_checks if not c.passed]
     detail = ("; ".join(f"{c.name}: {c.detail}" for c in failed[:3])
@@ -195,7 +195,7 @@ def _response_verdicts(derivation, raw, tolerance, error) -> list[Verdict]:
     # 2. Against our derivation, on every claimed interval.
     ours = _compiled(derivation.pieces, values)
     until = derivation.window.until
-    peak = derivation.results.peak
+    peak = derivation.numbers.peak
     scale = mpmath.mpf(abs(peak.value)) if peak and peak.value else mpmath.mpf(1)
     worst = (mpmath.mpf(0), None, None)
     with mpmath.workdps(30):

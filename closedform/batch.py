@@ -111,7 +111,7 @@ def internal_error(shown: str, error: BaseException) -> str:
 
 
 def summary_line(derivation) -> str:
-    results = derivation.results
+    results = derivation.numbers
     parts = [f"{derivation.case.source}: {derivation.status.upper()}"]
     if results.peak is not None:
         parts.append(f"peak {results.peak.value:.6g} at t = {results.peak.time:.6g} s")

@@ -34,14 +34,32 @@ class Window:
 
 @dataclass(frozen=True)
 class Derivation:
-    """Everything derived for one case, immutable."""
+    """Everything derived for one case, immutable.
+
+    ``numbers`` holds the results as SI floats for the sheets and checks; ``results`` shows
+    the same results as pint quantities by their JSON names.
+
+    Examples
+    --------
+    >>> import closedform
+    >>> case = closedform.load_case({"title": "Step on a mount",
+    ...     "system": {"model": "spring-mass-damper", "mass": "100 kg", "stiffness": "1 MN/m"},
+    ...     "load": [{"shape": "step", "amplitude": "2 kN"}]})
+    >>> d = closedform.derive(case)
+    >>> d.status
+    'verified'
+    >>> round(d.results.peak.to("mm").magnitude, 9)       # 2·F/k for a step, undamped
+    4.0
+    >>> round(float(d.evaluate([0.0])[0]), 12)
+    0.0
+    """
 
     case: Case
     model: LinearModel
     history: LoadHistory
     window: Window
     solution: Solution
-    results: Results
+    numbers: Results
     checks: tuple[Check, ...]
     warnings: tuple[str, ...] = ()
 
@@ -57,6 +75,79 @@ class Derivation:
     def passed(self) -> bool:
         return self.status == "verified"
 
+    @property
+    def results(self):
+        """Every result of the JSON by its JSON name, as pint quantities.
+
+        Returns
+        -------
+        closedform.ResultQuantities
+            ``results.peak`` and every ``results.peak_…`` are ``Extreme`` (``value`` and
+            ``time`` quantities, ``to()`` converts the value); ``static``, ``until`` are
+            quantities, ``dlf`` dimensionless; null JSON fields are None.
+        """
+        from .quantity_results import ResultQuantities
+        return ResultQuantities.of(self)
+
+    def evaluate(self, times, derivative: int = 0, *, response: str | None = None,
+                 precise: bool | None = None):
+        """The response at ``times`` from the closed-form pieces, SI.
+
+        Parameters
+        ----------
+        times : array_like
+            Times in seconds inside the analysis window [0, until]; any shape. At a
+            breakpoint the piece that starts there is used (values just after a step).
+        derivative : int, optional
+            0 for the value, 1 for the first time derivative, and so on.
+        response : str, optional
+            ``None`` (or the variable name, or ``"response"``) for the response itself;
+            another response of the model by its JSON name with or without ``peak_``
+            (``"velocity"``, ``"spring_force"``, ``"support_reaction"``, ``"current"``,
+            …); ``"load"`` for the load history. ``response_names()`` lists them.
+        precise : bool, optional
+            Evaluate each point at 30 significant digits with mpmath (slower) rather than
+            vectorised in float64. Default: 30 digits where the engine carries the pieces
+            at 30 digits (long load histories), float64 otherwise.
+
+        Returns
+        -------
+        numpy.ndarray
+            float64 values in SI units, the shape of ``times``.
+
+        Examples
+        --------
+        >>> import closedform
+        >>> d = closedform.derive(closedform.load_case({"title": "Sensor lag",
+        ...     "system": {"model": "first-order", "time_constant": "2 s"},
+        ...     "load": [{"shape": "step", "amplitude": 1}]}))
+        >>> d.evaluate([0.0, 2.0]).round(12).tolist()     # 1 − e^(−t/τ)
+        [0.0, 0.632120558829]
+        """
+        from .api import evaluate
+        return evaluate(self, times, derivative, response, precise)
+
+    def response_names(self) -> tuple[str, ...]:
+        """The names ``evaluate(times, response=…)`` accepts, sorted."""
+        from .api import response_transforms
+        return tuple(sorted(response_transforms(self)))
+
+    def plot(self, ax=None):
+        """Draw the response (left axis) and the load (right axis) over the window.
+
+        Parameters
+        ----------
+        ax : matplotlib.axes.Axes, optional
+            The axes to draw into; default: the current axes of pyplot.
+
+        Returns
+        -------
+        matplotlib.axes.Axes
+            ``ax``, with the response and the peak; the load is on its twin axes.
+        """
+        from .plots import draw
+        return draw(self, ax)
+
     def to_dict(self) -> dict[str, Any]:
         return result_dictionary(self)
 
@@ -64,8 +155,16 @@ class Derivation:
         return json.dumps(self.to_dict(), indent=2)
 
     def _repr_markdown_(self) -> str:
-        from .render import render_markdown
-        return render_markdown(self)
+        from .api import sheet_markdown
+        return sheet_markdown(self)
+
+    def _repr_latex_(self) -> str:
+        from .render import render_latex
+        return render_latex(self, standalone=False)
+
+    def _repr_html_(self) -> str:
+        from .api import summary_html
+        return summary_html(self)
 
 
 def last_load_end(case: Case) -> sympy.Expr:
@@ -159,7 +258,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
 
     case = derivation.case
     values = case.symbol_values()
-    results = derivation.results
+    results = derivation.numbers
     return {
         "schema": 1,
         "title": case.title,

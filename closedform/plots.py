@@ -179,7 +179,7 @@ def response_figure(derivation, fmt: str, time_axis: Axis, value_axis: Axis,
         times, values = response_samples(derivation)
         axes.plot(times * time_axis.scale, values * value_axis.scale, color=RESPONSE_COLOUR)
         axes.axhline(0.0, color="#808080", linewidth=0.6)
-        peak = derivation.results.peak
+        peak = derivation.numbers.peak
         if peak is not None:
             x, y = peak.time * time_axis.scale, peak.value * value_axis.scale
             axes.plot([x], [y], marker="o", markersize=5, color=PEAK_COLOUR, linestyle="none")
@@ -225,3 +225,44 @@ def load_figure(derivation, fmt: str, time_axis: Axis, value_axis: Axis,
         axes.set_ylabel(_plain(value_axis.label))
         axes.margins(y=0.12)
         return _save(figure, fmt)
+
+
+def draw(derivation, ax=None):
+    """The response over the analysis window on ``ax`` (its peak marked) and the load on
+    twin axes, in SI units, for interactive use; returns ``ax``.
+
+    Without ``ax`` the current axes of pyplot are used (this is the one place that uses
+    pyplot: a notebook shows its figures). The samples are those of the sheet's figures.
+    """
+    if not plottable(derivation):
+        raise ClosedformError("the response is symbolic; give every symbol a value to plot it")
+    if ax is None:
+        from matplotlib import pyplot
+
+        ax = pyplot.gca()
+    from . import quantities
+
+    system = derivation.case.system
+    variable = derivation.model.variable
+    times, values = response_samples(derivation)
+    ax.plot(times, values, color=RESPONSE_COLOUR, label=f"response {variable}")
+    ax.axhline(0.0, color="#808080", linewidth=0.6)
+    peak = derivation.numbers.peak
+    if peak is not None:
+        ax.plot([peak.time], [peak.value], marker="o", markersize=5, color=PEAK_COLOUR,
+                linestyle="none", label="peak")
+    ax.set_xlabel("t [s]")
+    ax.set_ylabel(_plain(f"{variable} [{quantities.si_unit_text(system.response_dimension)}]"),
+                  color=RESPONSE_COLOUR)
+    load_times, loads = load_samples(derivation)
+    twin = ax.twinx()
+    twin.plot(load_times, loads, color=LOAD_COLOUR, linewidth=1.0, label=derivation.model.load_name)
+    twin.set_ylabel(_plain(f"{derivation.model.load_name} "
+                           f"[{quantities.si_unit_text(system.load_dimension)}]"),
+                    color=LOAD_COLOUR)
+    ax.set_xlim(0.0, times[-1] if len(times) else 1.0)
+    title = derivation.case.title
+    if title:
+        ax.set_title(_plain(title))
+    ax.figure.sca(ax)          # the twin became the current axes; give them back
+    return ax

@@ -600,7 +600,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     case = derivation.case
     model = derivation.model
     solution = derivation.solution
-    results = derivation.results
+    results = derivation.numbers
     units = Units(case)
     time_dimension = quantities.dimension("time")
     response_dimension = case.system.response_dimension
@@ -1180,7 +1180,7 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
         f"{derivation.model.load_name} [{load_unit.text if load_unit else quantities.si_unit_text(load_dimension)}]",
         1 / float(sympy.N(load_unit.factor, 30)) if load_unit else 1.0)
     peak_label = None
-    peak = derivation.results.peak
+    peak = derivation.numbers.peak
     if peak is not None:
         peak_label = (f"peak {peak.value * value_axis.scale:.4g} "
                       f"{value_axis.label.split('[')[-1].rstrip(']')} at "

@@ -2189,7 +2189,7 @@ def verify(derivation: Any) -> list[Check]:
     except Exception as error:  # noqa: BLE001 - reported as a failed check
         return [Check("verification set-up", False,
                       f"could not read the case or the pieces: {type(error).__name__}: {error}")]
-    results = getattr(derivation, "results", None)
+    results = getattr(derivation, "numbers", None)
     peak = getattr(getattr(results, "peak", None), "value", None)
     try:
         if long:

@@ -448,7 +448,7 @@ def test_overdamped_impulse_peak_with_a_vanishing_slow_root():
     (status failed, exit 1) instead of presenting it as checked."""
     case = closedform.load_case_text(OVERDAMPED_VANISHING_ROOT, "vanishing-root.toml")
     derivation = closedform.derive(case, time_budget=60)
-    assert derivation.results.idealizations
+    assert derivation.numbers.idealizations
     assert derivation.status == "failed"
     assert any(c.name == "independent integration" and not c.passed for c in derivation.checks)
 
@@ -497,6 +497,6 @@ def test_time_scale_below_the_float_range_is_no_internal_error():
     tool must either get it or say loudly that it failed, never pass a wrong peak."""
     case = closedform.load_case_text(TIME_SCALE_BELOW_FLOATS, "tiny-rate.toml")
     derivation = closedform.derive(case, time_budget=60)
-    peak = derivation.results.peak
+    peak = derivation.numbers.peak
     right = peak is not None and abs(abs(peak.value) - 5e-301) <= 1e-6 * 5e-301
     assert right or derivation.status == "failed", (derivation.status, peak)

@@ -205,7 +205,7 @@ def test_response_and_peak_agree_with_solve_ivp(row):
     segments = integrate(coefficients, scale, load, breakpoints, initial, until,
                          IMPULSES.get(name, []))
     peak = integrated_peak(segments)
-    assert abs(derivation.results.peak.value) == pytest.approx(peak, rel=1e-8)
+    assert abs(derivation.numbers.peak.value) == pytest.approx(peak, rel=1e-8)
     functions = [(float(sympy.N(p.start)), sympy.lambdify(T, p.expression(T), "mpmath"))
                  for p in derivation.pieces]
     for t in np.linspace(0, until, 401)[1:-1]:

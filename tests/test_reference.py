@@ -70,7 +70,7 @@ def test_undamped_rectangular_pulse_dlf(ratio):
                                  f'[[load]]\nshape = "rectangle"\nduration = "{duration!r} s"\n'
                                  'amplitude = "1 kN"', f"{3 * period + duration!r} s"))
     expected = 2 * math.sin(math.pi * ratio) if ratio <= 0.5 else 2.0
-    assert derivation.results.dlf == pytest.approx(expected, rel=1e-9)
+    assert derivation.numbers.dlf == pytest.approx(expected, rel=1e-9)
 
 
 # ---------------------------------------------------------------- damped step overshoot
@@ -83,11 +83,11 @@ def test_damped_step_overshoot_and_peak_time(zeta):
                                  '[[load]]\nshape = "step"\namplitude = "10 kN"', "0.5 s"))
     z = float(zeta)
     omega_n = math.sqrt(500e3 / 200)
-    assert derivation.results.dlf == pytest.approx(1 + math.exp(-z * math.pi / math.sqrt(1 - z * z)),
+    assert derivation.numbers.dlf == pytest.approx(1 + math.exp(-z * math.pi / math.sqrt(1 - z * z)),
                                                    rel=1e-10)
-    assert derivation.results.peak.time == pytest.approx(math.pi / (omega_n * math.sqrt(1 - z * z)),
+    assert derivation.numbers.peak.time == pytest.approx(math.pi / (omega_n * math.sqrt(1 - z * z)),
                                                          abs=1e-12)
-    assert derivation.results.static == pytest.approx(10e3 / 500e3, rel=1e-14)
+    assert derivation.numbers.static == pytest.approx(10e3 / 500e3, rel=1e-14)
 
 
 # ---------------------------------------------------------------- impulse on undamped mass
@@ -96,8 +96,8 @@ def test_impulse_on_undamped_oscillator_peak_is_impulse_over_root_km():
     Chopra, Dynamics of Structures, 4th ed., section 4.1 (response to unit impulse; from memory)."""
     derivation = derive_text(smd("50 kg", "2 MN/m", "",
                                  '[[load]]\nshape = "impulse"\nimpulse = "30 N*s"', "0.1 s"))
-    assert derivation.results.peak.value == pytest.approx(30 / math.sqrt(50 * 2e6), rel=1e-12)
-    assert derivation.results.peak.time == pytest.approx(0.25 * 2 * math.pi * math.sqrt(50 / 2e6),
+    assert derivation.numbers.peak.value == pytest.approx(30 / math.sqrt(50 * 2e6), rel=1e-12)
+    assert derivation.numbers.peak.time == pytest.approx(0.25 * 2 * math.pi * math.sqrt(50 / 2e6),
                                                          abs=1e-14)
     (_before, after) = derivation.pieces if len(derivation.pieces) == 2 else (None, derivation.pieces[0])
     omega = sympy.sqrt(sympy.Integer(2_000_000) / 50)
@@ -125,4 +125,4 @@ def test_half_sine_at_the_natural_period_gives_dlf_pi_over_two():
     assert derivation.model.poles[0].frequency == 40
     kernel = next(k for k in derivation.solution.kernels if k.mode is not None)
     assert kernel.inversion.transform.poles[0].multiplicity == 2   # merged: exact resonance
-    assert derivation.results.dlf == pytest.approx(math.pi / 2, rel=1e-10)
+    assert derivation.numbers.dlf == pytest.approx(math.pi / 2, rel=1e-10)

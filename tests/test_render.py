@@ -126,14 +126,14 @@ def test_sheet_shows_every_check_and_every_extra_result_field():
     for check in derivation.checks:
         assert render.markdown_escape(check.name) in md
     from closedform.results import result_fields
-    for key in result_fields(derivation.results):
+    for key in result_fields(derivation.numbers):
         assert key.replace("_", " ") in md
 
 
 def test_report_units_are_shown_beside_si():
     md = sheets("drop-hammer-skid")["md"]
     # peak in mm and its time in ms beside the SI values
-    peak = worked("drop-hammer-skid").results.peak
+    peak = worked("drop-hammer-skid").numbers.peak
     assert f"{peak.value * 1000:.6g}" + r"\,\mathrm{mm}" in md
     assert f"{peak.time * 1000:.6g}" + r"\,\mathrm{ms}" in md
     assert r"x(t)\,[\mathrm{mm}]" in md

@@ -46,7 +46,7 @@ until = "{until}"
 
 
 def field(derivation, name):
-    return result_fields(derivation.results)[name]
+    return result_fields(derivation.numbers)[name]
 
 
 def step_response(zeta, omega, static):
@@ -89,9 +89,9 @@ def test_damped_step_overshoot(damped_step):
     memory)."""
     z, derivation = damped_step
     omega = math.sqrt(500e3 / 200)
-    assert derivation.results.dlf == pytest.approx(1 + math.exp(-z * math.pi / math.sqrt(1 - z * z)),
+    assert derivation.numbers.dlf == pytest.approx(1 + math.exp(-z * math.pi / math.sqrt(1 - z * z)),
                                                    rel=1e-12)
-    assert derivation.results.peak.time == pytest.approx(
+    assert derivation.numbers.peak.time == pytest.approx(
         0.005 + math.pi / (omega * math.sqrt(1 - z * z)), abs=1e-13)
 
 
@@ -135,7 +135,7 @@ def test_damped_step_support_reaction_against_the_published_formula(damped_step)
     assert support["value"] == pytest.approx(float(value), rel=1e-10)
     assert support["time"] == pytest.approx(0.005 + float(time), abs=1e-10)
     assert support["unit"] == spring["unit"] == "N"
-    assert spring["value"] == pytest.approx(500e3 * derivation.results.peak.value, rel=1e-14)
+    assert spring["value"] == pytest.approx(500e3 * derivation.numbers.peak.value, rel=1e-14)
 
 
 # ----------------------------------------------------------------------------- rectangle
@@ -306,7 +306,7 @@ def test_base_excitation_step_absolute_acceleration_and_reaction():
     derivation = derive_text(smd("40 kg", "160 kN/m", "", '[[load]]\nshape = "step"\n'
                                  'amplitude = "3 m/s^2"', "0.2 s", model="base-excitation"))
     omega = math.sqrt(160e3 / 40)
-    fields = result_fields(derivation.results)
+    fields = result_fields(derivation.numbers)
     assert fields["peak_absolute_acceleration"]["value"] == pytest.approx(6.0, rel=1e-12)
     assert fields["peak_absolute_acceleration"]["time"] == pytest.approx(math.pi / omega, abs=1e-13)
     assert fields["peak_spring_force"]["value"] == pytest.approx(-2 * 40 * 3, rel=1e-12)
@@ -339,7 +339,7 @@ def test_series_rlc_step_current_and_capacitor_voltage():
         damped = mpmath.sqrt(1 / (L * C) - alpha**2)
         current = lambda t: V / (damped * L) * mpmath.exp(-alpha * t) * mpmath.sin(damped * t)  # noqa: E731
         value, time = largest_by_roots(current, mpmath.mpf(0), mpmath.mpf("0.008"))
-    fields = result_fields(derivation.results)
+    fields = result_fields(derivation.numbers)
     assert fields["peak_current"] == {"value": pytest.approx(float(value), rel=1e-12),
                                       "time": pytest.approx(float(time), abs=1e-14), "unit": "A"}
     assert fields["peak_capacitor_voltage"]["value"] == pytest.approx(
@@ -371,7 +371,7 @@ def test_first_order_rate():
 
 def test_json_fields_of_a_symbolic_case_without_values_are_null():
     derivation = worked("symbolic-rectangle")
-    fields = result_fields(derivation.results)
+    fields = result_fields(derivation.numbers)
     assert fields["peak_velocity"] is None and fields["peak_support_reaction"] is None
     assert fields["residual"] is None and fields["impulse_idealization"] == []
     json.dumps(fields)

@@ -58,7 +58,7 @@ def fake_derivation(case, pieces, until, peak=None):
         case=case, pieces=tuple(FakePiece(sympy.sympify(a), None if b is None else sympy.sympify(b),
                                           sympy.sympify(x)) for a, b, x in pieces),
         window=types.SimpleNamespace(until=sympy.sympify(until)),
-        results=types.SimpleNamespace(peak=peak))
+        numbers=types.SimpleNamespace(peak=peak))
 
 
 def pieces_of(derivation) -> list[FakePiece]:
@@ -67,7 +67,7 @@ def pieces_of(derivation) -> list[FakePiece]:
 
 def with_pieces(derivation, pieces: list[FakePiece]):
     return types.SimpleNamespace(case=derivation.case, pieces=tuple(pieces),
-                                 window=derivation.window, results=derivation.results)
+                                 window=derivation.window, numbers=derivation.numbers)
 
 
 def failures(checks: list[Check]) -> list[Check]:
@@ -574,7 +574,7 @@ def test_initial_values_fail_for_a_wrong_start():
     derivation = derived("impulse-later")
     case = dataclasses.replace(derivation.case, initial=(sympy.Rational(2, 1000), sympy.S.Zero))
     checks = verify(types.SimpleNamespace(case=case, pieces=derivation.pieces,
-                                          window=derivation.window, results=derivation.results))
+                                          window=derivation.window, numbers=derivation.numbers))
     initial = check_named(checks, "initial values")[0]
     assert not initial.passed and "x(0+)" in initial.detail
     assert not check_named(checks, "independent integration")[0].passed
@@ -595,7 +595,7 @@ def test_impulse_area_fails_when_amplitude_does_not_match_the_stated_impulse():
     values["amplitude"] = values["amplitude"] * sympy.Rational(1000001, 1000000)
     case = dataclasses.replace(derivation.case, loads=(dataclasses.replace(load, values=values),))
     checks = verify(types.SimpleNamespace(case=case, pieces=derivation.pieces,
-                                          window=derivation.window, results=derivation.results))
+                                          window=derivation.window, numbers=derivation.numbers))
     area = check_named(checks, "impulse of load[1]")[0]
     assert not area.passed and "relative difference 1.0e-6" in area.detail
 
@@ -608,7 +608,7 @@ def test_a_broken_piece_is_a_failed_check_not_an_exception():
             raise RuntimeError("no expression")
     derivation = derived("undamped-rectangle")
     checks = verify(types.SimpleNamespace(case=derivation.case, pieces=(Broken(),),
-                                          window=derivation.window, results=derivation.results))
+                                          window=derivation.window, numbers=derivation.numbers))
     assert checks and failures(checks) and "no expression" in checks[0].detail
 
 
@@ -721,7 +721,7 @@ def wrong_impulse_jump(name, pieces) -> list[Mutant]:
 
 def spurious_constant(name, pieces) -> list[Mutant]:
     """A constant of 1e-6 of the response's size added to one piece."""
-    peak = derived(name).results.peak
+    peak = derived(name).numbers.peak
     size = sympy.Rational(repr(abs(peak.value))) if peak is not None else sympy.S.One
     return [(f"piece {i + 1} + 1e-6·peak",
              [FakePiece(p.start, p.end, p.expr + size * EPSILON) if k == i else p
@@ -879,7 +879,7 @@ def test_long_history_coverage_and_initial_values_can_fail():
     assert not check_named(checks, "pieces cover")[0].passed
     case = dataclasses.replace(derivation.case, initial=(sympy.Rational(1, 10**6), sympy.S.Zero))
     checks = verify(types.SimpleNamespace(case=case, pieces=derivation.pieces,
-                                          window=derivation.window, results=derivation.results))
+                                          window=derivation.window, numbers=derivation.numbers))
     initial = check_named(checks, "initial values")[0]
     assert not initial.passed and "x(0+)" in initial.detail
     assert not check_named(checks, "independent integration")[0].passed
@@ -922,7 +922,7 @@ def _long_other_mutants(pieces, i) -> list[Mutant]:
     mutants.append((f"piece {i + 1} natural rates × (1 + 1e-6)",
                     [FakePiece(piece.start, piece.end, natural) if k == i else p
                      for k, p in enumerate(pieces)]))
-    size = sympy.Rational(repr(abs(derivation.results.peak.value)))
+    size = sympy.Rational(repr(abs(derivation.numbers.peak.value)))
     mutants.append((f"piece {i + 1} + 1e-6·peak",
                     [FakePiece(p.start, p.end, p.expr + size * EPSILON) if k == i else p
                      for k, p in enumerate(pieces)]))
