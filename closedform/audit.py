@@ -1,9 +1,31 @@
 """Auditing someone else's numbers: the [claims] of a case against our checked derivation.
 
-Every claim gets a verdict line: claimed value, computed value, relative difference and
-confirmed/refuted. A claimed response is checked twice: on its own against the equation
-(with the same independent checks as our own derivation) and against our derivation,
-reporting the interval and time of the largest deviation.
+Every claim gets one verdict, confirmed or refuted, with the claimed value, the computed
+value, the relative difference and the tolerance:
+
+* a result named as in the JSON result (``peak``, ``dlf``, ``peak_velocity`` …, see
+  :mod:`closedform.claims`) against that result (relative difference to our value; peaks
+  as magnitudes);
+* a value at a time (``at``) against our pieces evaluated there with mpmath at 30 digits;
+* a claimed formula (``response``) on its own interval [from, to] only, by two routes
+  listed under its verdict:
+
+  1. **against the equation**: the formula is put in place of our pieces on its interval,
+     after our response up to ``from`` (which supplies the state it has to continue from),
+     and the window is cut at ``to``; that response gets the very checks our own derivation
+     gets, through the same entry points (``verify.verify`` and ``energy.energy_checks``):
+     ODE residual on the interval, initial values (``from = 0``) or continuity at ``from``,
+     the independent integration of the equation and the energy balance. These checks
+     keep the limits they have for our derivation, so they confirm a formula that solves
+     the problem to those limits, not one with rounded coefficients;
+  2. **against our pieces**: the largest deviation from our response at 200 points inside
+     the interval, relative to the magnitude of our peak, within the expressions tolerance.
+
+  The claim is confirmed only when every check of route 1 passes and route 2 is within the
+  tolerance.
+
+The audit sheet (:func:`render_audit`) lists the verdicts, the checks behind each claimed
+formula, and then our derivation sheet as the basis.
 """
 
 from __future__ import annotations
@@ -11,29 +33,39 @@ from __future__ import annotations
 import argparse
 import json
 import sys
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
-from types import SimpleNamespace
 from typing import Any
 
 import mpmath
 import sympy
 
 from . import quantities
-from .case import quantity_reader
+from .claims import (
+    ClaimedPiece,
+    ClaimedValue,
+    Claimable,
+    check_claim_names,
+    claimable_results,
+    claimed_number,
+    locate_claim,
+    read_response_claims,
+    read_tolerances,
+    read_value_claims,
+)
 from .errors import CaseError
-from .expressions import parse_expression
-from .response import t
+from .response import Piece, t
 from .results import real_number
+from .verify import Check
 
-NUMBER_TOLERANCE = sympy.Rational(5, 1000)      # 0.5 % for reported numbers
-EXPRESSION_TOLERANCE = sympy.Rational(1, 10**6)  # 1e-6 relative for expressions
 SAMPLES_PER_INTERVAL = 200
+AUDIT_FORMATS = ("md", "tex", "pdf", "json")
 
 
 @dataclass(frozen=True)
 class Verdict:
-    """The verdict on one claim."""
+    """The verdict on one claim; ``checks`` are the checks of a claimed formula against the
+    equation (empty for numbers)."""
 
     key: str
     claimed: str
@@ -41,6 +73,14 @@ class Verdict:
     difference: float | None      # relative
     confirmed: bool
     detail: str = ""
+    tolerance: float | None = None
+    checks: tuple[Check, ...] = ()
+    interval: str = ""
+    comparison: str = ""          # a claimed formula against our pieces, in words
+
+    @property
+    def word(self) -> str:
+        return "confirmed" if self.confirmed else "refuted"
 
     def line(self) -> str:
         word = "confirmed" if self.confirmed else "REFUTED"
@@ -49,191 +89,324 @@ class Verdict:
                 f"relative difference {difference}: {word}")
         return f"{text} ({self.detail})" if self.detail else text
 
+    def lines(self) -> list[str]:
+        """The verdict line, then one indented line per check of a claimed formula."""
+        rows = [self.line()]
+        for check in self.checks:
+            rows.append(f"    against the equation: {check.name}: "
+                        + ("passed" if check.passed else f"FAILED ({check.detail})"))
+        if self.interval:
+            rows.append(f"    against this derivation: {self.comparison}")
+        return rows
+
     def to_dict(self) -> dict[str, Any]:
-        return {"key": self.key, "claimed": self.claimed, "computed": self.computed,
-                "relative_difference": self.difference, "confirmed": self.confirmed,
-                "detail": self.detail}
+        result = {"key": self.key, "claimed": self.claimed, "computed": self.computed,
+                  "relative_difference": self.difference, "tolerance": self.tolerance,
+                  "confirmed": self.confirmed, "verdict": self.word, "detail": self.detail}
+        if self.interval:
+            result["interval"] = self.interval
+            result["comparison"] = self.comparison
+            result["checks"] = [{"name": c.name, "passed": c.passed, "detail": c.detail}
+                                for c in self.checks]
+        return result
 
 
-def _tolerances(claims, error) -> tuple[sympy.Expr, sympy.Expr]:
-    tolerance = claims.get("tolerance")
-    numbers, expressions = NUMBER_TOLERANCE, EXPRESSION_TOLERANCE
-    if tolerance is None:
-        return numbers, expressions
-    if isinstance(tolerance, dict):
-        unknown = set(tolerance) - {"numbers", "expressions"}
-        if unknown:
-            raise error("claims.tolerance", f"unknown key '{sorted(unknown)[0]}' (expected "
-                                            "numbers, expressions)")
-        if "numbers" in tolerance:
-            numbers = _positive_number(tolerance["numbers"], "claims.tolerance.numbers", error)
-        if "expressions" in tolerance:
-            expressions = _positive_number(tolerance["expressions"],
-                                           "claims.tolerance.expressions", error)
-        return numbers, expressions
-    value = _positive_number(tolerance, "claims.tolerance", error)
-    return value, value
+@dataclass(frozen=True)
+class Audit:
+    """The verdicts on every claim of a case, with the derivation they were judged by."""
+
+    derivation: Any
+    verdicts: tuple[Verdict, ...]
+
+    @property
+    def confirmed(self) -> int:
+        return sum(v.confirmed for v in self.verdicts)
+
+    @property
+    def refuted(self) -> int:
+        return len(self.verdicts) - self.confirmed
+
+    @property
+    def exit_code(self) -> int:
+        """0 when every claim is confirmed by a derivation that passed its checks, else 1."""
+        return 0 if self.refuted == 0 and self.derivation.passed else 1
+
+    def to_dict(self) -> dict[str, Any]:
+        result = self.derivation.to_dict()
+        result["claims"] = [v.to_dict() for v in self.verdicts]
+        result["claims_summary"] = {"confirmed": self.confirmed, "refuted": self.refuted}
+        return result
 
 
-def _positive_number(value, key, error) -> sympy.Expr:
-    if isinstance(value, bool) or not isinstance(value, (int, float)) or not value > 0:
-        raise error(key, f"expected a positive relative tolerance such as 0.005, got {value!r}")
-    return sympy.Rational(repr(value)) if isinstance(value, float) else sympy.Integer(value)
+@dataclass(frozen=True)
+class _Window:
+    until: sympy.Expr
+    note: str
 
 
-def audit(derivation) -> list[Verdict]:
+@dataclass(frozen=True)
+class ClaimedResponse:
+    """Our response up to a claimed formula's start, then the formula up to its end: shaped
+    like a Derivation, so that the checks our derivation gets can be run on it."""
+
+    case: Any
+    pieces: tuple
+    window: _Window
+    numbers: Any
+
+
+@dataclass(frozen=True)
+class _FormulaPiece:
+    """A claimed formula that is not an exponential polynomial (the checks that need one
+    report that they cannot be evaluated)."""
+
+    start: sympy.Expr
+    end: sympy.Expr | None
+    formula: sympy.Expr
+    local: None = None
+    numeric: None = None
+
+    def expression(self, time: sympy.Symbol = t) -> sympy.Expr:
+        return self.formula.subs(t, time)
+
+    def expression_text(self) -> str:
+        return str(self.formula)
+
+
+def audit(derivation) -> Audit:
     """Verdicts for every claim of the case (raises CaseError for an unusable claim)."""
+    from .case import quantity_reader
+
     case = derivation.case
     claims = case.claims
 
     def error(key: str, message: str) -> CaseError:
         return CaseError(message, file=case.source, key=key)
 
+    result = derivation.to_dict()
+    claimable = claimable_results(result, case.system.response_dimension)
     if not claims or set(claims) == {"tolerance"}:
-        raise error("claims", "no [claims] to audit (expected peak, peak_time, dlf, static, "
-                              "residual or response)")
+        names = ", ".join(sorted(set(claimable) | {"response", "at"}))
+        raise error("claims", f"no [claims] to audit (expected some of: {names})")
     if not case.is_fully_valued:
         raise error("claims", "claims can be audited only when every symbol has a value")
-    numbers, expressions = _tolerances(claims, error)
-    result = derivation.to_dict()
-    response = case.system.response_dimension
-    verdicts = []
-    peak = result.get("peak")
-    residual = result.get("residual")
-    computed = {
-        "peak": (abs(peak["value"]) if peak else None, response, "magnitude of the peak"),
-        "peak_time": (peak["time"] if peak else None, quantities.dimension("time"), ""),
-        "dlf": (result.get("dlf"), quantities.dimension("dimensionless"), ""),
-        "static": (result.get("static"), response, ""),
-        "residual": (residual.get("amplitude") if isinstance(residual, dict) else None,
-                     response, "free-vibration amplitude after the last load"),
-    }
-    for key in ("peak", "peak_time", "dlf", "static", "residual"):
-        if key not in claims:
-            continue
-        value, dimension, note = computed[key]
-        claimed = _claimed_number(claims[key], dimension, f"claims.{key}", case, error)
-        if key == "peak":
-            claimed = abs(claimed)
-        verdicts.append(_number_verdict(key, claimed, value, numbers, dimension, note))
-    if "response" in claims:
-        verdicts.extend(_response_verdicts(derivation, claims["response"], expressions, error))
-    return verdicts
-
-
-def _claimed_number(value, dimension, key, case, error) -> float:
-    quantity = quantity_reader(case).quantity(value, dimension, key)
-    return float(sympy.N(quantity.subs(case.symbol_values()), 30))
-
-
-def _number_verdict(key, claimed, value, tolerance, dimension, note) -> Verdict:
-    unit = quantities.si_unit_text(dimension)
-    unit = "" if unit == "1" else f" {unit}"
-    if value is None:
-        return Verdict(key, f"{claimed:.6g}{unit}", "not defined for this case", None, False,
-                       "nothing to compare with")
-    scale = max(abs(value), 1e-300)
-    difference = abs(claimed - value) / scale
-    confirmed = difference <= float(tolerance)
-    detail = f"tolerance {float(tolerance):.3g}" + (f"; {note}" if note else "")
-    return Verdict(key, f"{claimed:.6g}{unit}", f"{value:.6g}{unit}", difference, confirmed, detail)
-
-
-@dataclass(frozen=True)
-class ClaimedPiece:
-    """A piece of someone else's response, shaped like ours so the checks can read it."""
-
-    start: sympy.Expr
-    end: sympy.Expr | None
-    formula: sympy.Expr
-
-    def expression(self, time: sympy.Symbol = t) -> sympy.Expr:
-        return self.formula.subs(t, time)
-
-
-def claimed_pieces(case, raw, error) -> list[ClaimedPiece]:
-    if not isinstance(raw, list) or not raw:
-        raise error("claims.response", "expected a list of { from, to, expr } pieces")
-    names: dict[str, sympy.Expr] = {d.name: d.symbol for d in case.symbols}
-    names["t"] = t
-    pieces = []
+    check_claim_names(claims, claimable, error)
+    tolerances = read_tolerances(claims, error)
     reader = quantity_reader(case)
-    for i, item in enumerate(raw):
-        key = f"claims.response[{i}]"
-        if not isinstance(item, dict):
-            raise error(key, "expected a table { from = …, to = …, expr = … }")
-        unknown = set(item) - {"from", "to", "expr"}
-        if unknown:
-            raise error(f"{key}.{sorted(unknown)[0]}", "unknown key (expected from, to, expr)")
-        if not isinstance(item.get("expr"), str):
-            raise error(f"{key}.expr", "missing (the response on the interval, a formula in t "
-                                       "in seconds and SI units)")
-        start = reader.quantity(item.get("from", 0), "time", f"{key}.from")
-        end = reader.quantity(item["to"], "time", f"{key}.to") if "to" in item else None
-        formula = parse_expression(item["expr"], names=names, key=f"{key}.expr")
-        pieces.append(ClaimedPiece(start, end, formula))
-    return pieces
+    values = case.symbol_values()
+    until = derivation.window.until
+    verdicts: list[Verdict] = []
+    for key, raw in claims.items():
+        if key in claimable:
+            entry = claimable[key]
+            claimed = claimed_number(reader, raw, entry.dimension, f"claims.{key}", values)
+            verdicts.append(_number_verdict(entry, claimed, tolerances.numbers))
+    if "at" in claims:
+        claimed_values = read_value_claims(case, reader, claims["at"], until, error)
+        ours = _compiled(derivation.pieces, values)
+        verdicts.extend(_value_verdict(case, item, ours, values, tolerances.numbers)
+                        for item in claimed_values)
+    if "response" in claims:
+        pieces = read_response_claims(case, reader, claims["response"], until, t, error)
+        verdicts.extend(_response_verdict(derivation, piece, tolerances.expressions)
+                        for piece in pieces)
+    return Audit(derivation, tuple(verdicts))
 
 
-def _response_verdicts(derivation, raw, tolerance, error) -> list[Verdict]:
+def _unit_text(dimension) -> str:
+    if dimension is None:
+        return " (SI)"
+    unit = quantities.si_unit_text(dimension)
+    return "" if unit == "1" else f" {unit}"
+
+
+def _number_verdict(entry: Claimable, claimed: float, tolerance) -> Verdict:
+    unit = _unit_text(entry.dimension)
+    value = entry.value
+    if entry.magnitude:
+        claimed = abs(claimed)
+        value = None if value is None else abs(value)
+    if value is None:
+        return Verdict(entry.name, f"{claimed:.6g}{unit}", "not defined for this case", None,
+                       False, "nothing to compare with", float(tolerance))
+    difference = abs(claimed - value) / max(abs(value), 1e-300)
+    confirmed = difference <= float(tolerance)
+    detail = f"tolerance {float(tolerance):.3g}" + (f"; {entry.note}" if entry.note else "")
+    return Verdict(entry.name, f"{claimed:.6g}{unit}", f"{value:.6g}{unit}", difference,
+                   confirmed, detail, float(tolerance))
+
+
+def _value_verdict(case, item: ClaimedValue, ours, values, tolerance) -> Verdict:
+    unit = _unit_text(case.system.response_dimension)
+    with mpmath.workdps(30):
+        time = real_number(item.time, values)
+        claimed = real_number(item.value, values)
+        computed = _our_value(ours, time)
+        difference = abs(claimed - computed) / max(abs(computed), mpmath.mpf("1e-300"))
+    difference = float(difference)
+    return Verdict(f"{item.key} (t = {float(time):.6g} s)", f"{float(claimed):.6g}{unit}",
+                   f"{float(computed):.6g}{unit}", difference, difference <= float(tolerance),
+                   f"tolerance {float(tolerance):.3g}; our pieces evaluated at 30 digits",
+                   float(tolerance))
+
+
+def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
+    """Our pieces before the claim's start (the last one cut there), then the claimed piece,
+    in a window that ends where the claim ends."""
+    values = derivation.case.symbol_values()
+    until = derivation.window.until
+    start = piece.start
+    end = piece.end if piece.end is not None else until
+    low = real_number(start, values)
+    prefix = []
+    for ours in derivation.pieces:
+        if not real_number(ours.start, values) < low:
+            break
+        ours_end = ours.end if ours.end is not None else until
+        if ours.end is None or real_number(ours_end, values) >= low:
+            ours = replace(ours, end=start)
+        prefix.append(ours)
+    local = piece.local
+    if local is not None:
+        claimed = Piece(start, end, local)
+    else:
+        claimed = _FormulaPiece(start, end, piece.formula.subs(values))
+    return ClaimedResponse(derivation.case, tuple(prefix) + (claimed,),
+                           _Window(end, "the end of the claimed formula"), derivation.numbers)
+
+
+def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
+    """The checks of our own derivation (one list: verify, then the energy balance)."""
+    from .energy import energy_checks
     from .verify import verify
 
-    case = derivation.case
-    values = case.symbol_values()
-    pieces = claimed_pieces(case, raw, error)
-    verdicts = []
-    # 1. On its own against the equation: the same independent checks our derivation passed.
-    alone = SimpleNamespace(case=case, pieces=tuple(pieces), window=derivation.window,
-                            numbers=derivation.numbers, solution=None, model=None, history=None)
-    own_checks = verify(alone)
-    failed = [c for c in own_checks if not c.passed]
-    detail = ("; ".join(f"{c.name}: {c.detail}" for c in failed[:3])
-              if failed else f"all {len(own_checks)} checks passed")
-    verdicts.append(Verdict("response (on its own)", _count(len(pieces), "piece"),
-                            f"{len(failed)} of {len(own_checks)} independent checks failed", None,
-                            not failed, detail))
-    # 2. Against our derivation, on every claimed interval.
-    ours = _compiled(derivation.pieces, values)
+    return tuple(verify(response)) + tuple(energy_checks(response))
+
+
+def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:
+    values = derivation.case.symbol_values()
     until = derivation.window.until
+    checks = claim_checks(claimed_response(derivation, piece))
+    failed = [c for c in checks if not c.passed]
+    ours = _compiled(derivation.pieces, values)
     peak = derivation.numbers.peak
     scale = mpmath.mpf(abs(peak.value)) if peak and peak.value else mpmath.mpf(1)
-    worst = (mpmath.mpf(0), None, None)
+    worst, where = mpmath.mpf(0), None
     with mpmath.workdps(30):
-        for index, piece in enumerate(pieces):
-            start = real_number(piece.start, values)
-            end = real_number(piece.end if piece.end is not None else until, values)
-            claimed = sympy.lambdify(t, piece.formula.subs(values), "mpmath")
-            for k in range(1, SAMPLES_PER_INTERVAL):
-                time = start + (end - start) * k / SAMPLES_PER_INTERVAL
-                our = _our_value(ours, time)
-                if our is None:
-                    continue
-                deviation = abs(mpmath.mpf(claimed(time)) - our)
-                if deviation > worst[0]:
-                    worst = (deviation, index, time)
-    relative = float(worst[0] / scale)
-    where = (f"largest deviation {relative:.3g} of the peak at t = {float(worst[2]):.6g} s in "
-             f"claimed piece {worst[1] + 1}") if worst[1] is not None else "no deviation"
-    verdicts.append(Verdict("response (against this derivation)", _count(len(pieces), "piece"),
-                            _count(len(ours), "piece"), relative, relative <= float(tolerance),
-                            f"{where}; tolerance {float(tolerance):.3g}"))
-    return verdicts
-
-
-def _count(number: int, noun: str) -> str:
-    return f"{number} {noun}" if number == 1 else f"{number} {noun}s"
+        start = real_number(piece.start, values)
+        end = real_number(piece.end if piece.end is not None else until, values)
+        claimed = sympy.lambdify(t, piece.formula.subs(values), "mpmath")
+        for k in range(1, SAMPLES_PER_INTERVAL):
+            time = start + (end - start) * k / SAMPLES_PER_INTERVAL
+            deviation = abs(mpmath.mpf(claimed(time)) - _our_value(ours, time))
+            if where is None or deviation > worst:
+                worst, where = deviation, time
+    relative = float(worst / scale)
+    within = relative <= float(tolerance)
+    interval = f"[{float(start):.6g}, {float(end):.6g}] s"
+    route_1 = (f"all {len(checks)} checks against the equation passed" if not failed else
+               f"{len(failed)} of {len(checks)} checks against the equation FAILED: "
+               + "; ".join(c.name for c in failed[:3]) + ("; …" if len(failed) > 3 else ""))
+    route_2 = (f"largest deviation from this derivation {relative:.3g} of the peak at "
+               f"t = {float(where):.6g} s{'' if within else ' (beyond the tolerance)'}")
+    return Verdict(f"{piece.key} on {interval}", f"x = {piece.text}",
+                   f"this derivation's response on {interval}", relative,
+                   within and not failed,
+                   f"tolerance {float(tolerance):.3g}; {route_1}; {route_2}",
+                   float(tolerance), checks, interval, route_2)
 
 
 def _compiled(pieces, values) -> list[tuple]:
-    return [(real_number(p.start, values), real_number(p.end, values) if p.end is not None else mpmath.inf,
-             sympy.lambdify(t, p.expression(t).subs(values), "mpmath")) for p in pieces]
+    return [(real_number(p.start, values), real_number(p.end, values) if p.end is not None
+             else mpmath.inf, sympy.lambdify(t, p.expression(t).subs(values), "mpmath"))
+            for p in pieces]
 
 
 def _our_value(ours, time):
+    """Our response at ``time`` (right-continuous; the last piece at the window's end)."""
     for low, high, function in ours:
         if low <= time < high:
             return mpmath.mpf(function(time))
-    return None
+    return mpmath.mpf(ours[-1][2](time))
+
+
+# ----------------------------------------------------------------------------- sheets
+
+
+def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
+    from . import __version__, render
+
+    derivation = result.derivation
+    case = derivation.case
+    escape = render.latex_escape if target == "tex" else render.markdown_escape
+
+    def figure(value: float | None) -> Any:
+        return None if value is None else render.inline(render.number(value, 3))
+
+    claims = []
+    for number, verdict in enumerate(result.verdicts, start=1):
+        claims.append({
+            "number": number, "key": verdict.key, "claimed": verdict.claimed,
+            "computed": verdict.computed, "difference": figure(verdict.difference),
+            "tolerance": figure(verdict.tolerance), "confirmed": verdict.confirmed,
+            "verdict": "confirmed" if verdict.confirmed else "REFUTED",
+            "detail": verdict.detail, "interval": verdict.interval,
+            "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+                       for c in verdict.checks]})
+    del escape
+    return {"title": case.title, "reference": case.reference or "—",
+            "case_file": Path(case.source).name, "sha256": case.sha256 or "—", "version": __version__,
+            "claims": claims, "confirmed": result.confirmed, "refuted": result.refuted,
+            "count": len(result.verdicts), "derivation_passed": derivation.passed,
+            "caution": render.CAUTION.replace("This sheet supports", "This audit supports")}
+
+
+def render_audit_markdown(result: Audit, stem: str | None = None) -> str:
+    from . import render
+
+    context = _sheet_context(result, "md")
+    basis = render.render_markdown(result.derivation, stem=stem, section=2, level=2)
+    return render.make_environment("md").get_template("audit.md.j2").render(
+        context | {"basis": render.Math(basis)})
+
+
+def render_audit_latex(result: Audit, stem: str | None = None) -> str:
+    from . import render
+
+    context = _sheet_context(result, "tex")
+    basis = render.render_latex(result.derivation, standalone=False, stem=stem, section=2)
+    return render.make_environment("tex").get_template("audit.tex.j2").render(
+        context | {"basis": render.Math(basis), "preamble": render.Math(render.latex_preamble())})
+
+
+def render_audit(result: Audit, formats, stem: str) -> dict[str, str | bytes]:
+    """File name → content of the audit sheet in every requested format (nothing written):
+    ``STEM-audit.md`` / ``.tex`` / ``.pdf`` / ``.json``, with the basis sheet's figures."""
+    from . import render
+
+    formats = list(formats)
+    if "pdf" in formats:
+        render.require_latex()
+    name = f"{stem}-audit"
+    contents: dict[str, str | bytes] = {}
+    derivation = result.derivation
+    if "md" in formats:
+        contents[f"{name}.md"] = render_audit_markdown(result, stem)
+        contents.update(render.figure_files(derivation, stem, "svg"))
+    if "tex" in formats or "pdf" in formats:
+        tex = render_audit_latex(result, stem)
+        figures = render.figure_files(derivation, stem, "pdf")
+        if "tex" in formats:
+            contents[f"{name}.tex"] = tex
+            contents.update(figures)
+        if "pdf" in formats:
+            contents[f"{name}.pdf"] = render.compile_pdf(tex, figures, name=name)
+    if "json" in formats:
+        contents[f"{name}.json"] = json.dumps(result.to_dict(), indent=2) + "\n"
+    return contents
+
+
+# ----------------------------------------------------------------------------- command line
 
 
 def register(commands) -> None:
@@ -242,33 +415,49 @@ def register(commands) -> None:
     check.add_argument("case", type=Path, help="the case file with a [claims] table")
     check.add_argument("--json", dest="json_target", metavar="-",
                        help="print the JSON result with its claims on standard output ('-')")
+    check.add_argument("-o", "--output", type=Path, metavar="DIR",
+                       help="folder for the audit sheet (STEM-audit.md, .tex, .pdf, .json)")
+    check.add_argument("--format", default="md,json",
+                       help=f"comma-separated formats of the audit sheet "
+                            f"({', '.join(AUDIT_FORMATS)}); default md,json")
     check.add_argument("--time-budget", type=float, default=60.0, metavar="SECONDS")
     check.set_defaults(run=run_check)
 
 
 def run_check(arguments: argparse.Namespace) -> int:
     from .case import load_case, locate
+    from .cli import parse_formats, usable_output_folder, write_atomically
     from .derivation import derive
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
+    formats = parse_formats(arguments.format, AUDIT_FORMATS, "audit format") \
+        if arguments.output is not None else []
+    if arguments.output is not None:
+        usable_output_folder(arguments.output)
     case = load_case(arguments.case)
     try:
         derivation = derive(case, time_budget=arguments.time_budget)
     except CaseError as error:        # raised past loading: name the file and the key's line
         raise locate(error, arguments.case) from None
-    verdicts = audit(derivation)
-    all_confirmed = all(v.confirmed for v in verdicts)
+    try:
+        result = audit(derivation)
+    except CaseError as error:
+        raise locate_claim(error, arguments.case) from None
+    contents = render_audit(result, formats, Path(case.source).stem or "case") if formats else {}
     if arguments.json_target == "-":
-        result = derivation.to_dict()
-        result["claims"] = [v.to_dict() for v in verdicts]
-        sys.stdout.write(json.dumps(result, indent=2) + "\n")
+        sys.stdout.write(json.dumps(result.to_dict(), indent=2) + "\n")
     else:
         if not derivation.passed:
             print(f"{case.source}: our own derivation FAILED its checks; the audit below "
                   "cannot be relied on")
-        for verdict in verdicts:
-            print(verdict.line())
-        refuted = sum(not v.confirmed for v in verdicts)
-        print(f"{len(verdicts) - refuted} confirmed, {refuted} refuted")
-    return 0 if all_confirmed and derivation.passed else 1
+        for verdict in result.verdicts:
+            for row in verdict.lines():
+                print(row)
+        print(f"{result.confirmed} confirmed, {result.refuted} refuted")
+    if contents:
+        written = write_atomically(arguments.output, contents)
+        if arguments.json_target is None:
+            print(f"wrote {', '.join(p.name for p in written if '-audit.' in p.name)} in "
+                  f"{arguments.output}")
+    return result.exit_code
