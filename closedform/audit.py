@@ -42,9 +42,9 @@ import sympy
 
 from . import quantities
 from .claims import (
+    Claimable,
     ClaimedPiece,
     ClaimedValue,
-    Claimable,
     check_claim_names,
     claimable_results,
     claimed_number,
