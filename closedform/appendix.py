@@ -1,9 +1,12 @@
 """``closedform appendix DIR -o OUTDIR``: every case of a folder in one appendix document.
 
 The appendix opens with its status, a table of contents and a summary table (case,
-reference, peak, dynamic load factor, status) that lists the failed cases first; then each
-case follows as a numbered section, in the sorted order of the file names, rendered exactly
-as its own sheet.
+reference, peak, dynamic load factor, claims confirmed/refuted, status) that lists the
+failed cases first; then each case follows as a numbered section, in the sorted order of the
+file names, rendered exactly as its own sheet, followed by the verdicts on its [claims] when
+it has any (as ``closedform check`` gives them). A refuted claim is a finding about someone
+else's numbers, not a failure of the case: it is counted in the summary, and does not change
+the exit code.
 
 Unusable case files are all reported, one line each (``FILE:LINE: KEY: message``), and then
 nothing is written at all (exit 2): an appendix that silently leaves a case out would be
@@ -54,6 +57,10 @@ class CaseEntry:
     latex: str = ""
     summary: dict[str, SummaryCells] = field(default_factory=dict)
     files: dict[str, bytes] = field(default_factory=dict)
+    confirmed: int | None = None   # claims confirmed and refuted (None: the case claims nothing)
+    refuted: int | None = None
+    claims_markdown: str = ""
+    claims_latex: str = ""
 
     @property
     def passed(self) -> bool:
@@ -123,8 +130,22 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
         latex = render.render_latex(derivation, standalone=False, stem=stem, section=number)
         files.update(render.figure_files(derivation, stem, "pdf"))
     summary = {target: summary_cells(derivation, target) for target in ("md", "tex")}
+    audited = {}
+    if case.claims:
+        from .audit import audit, render_claims
+        from .claims import locate_claim
+        try:
+            result = audit(derivation)
+        except CaseError as error:
+            return Unusable(path.name, locate_claim(error, path).show())
+        audited = {"confirmed": result.confirmed, "refuted": result.refuted}
+        if "md" in formats:
+            audited["claims_markdown"] = render_claims(result, "md", level=4, numbered="")
+        if "tex" in formats or "pdf" in formats:
+            audited["claims_latex"] = render_claims(result, "tex", numbered="",
+                                                     latex_heading="subsubsection")
     return CaseEntry(number, path.name, stem, case.title, case.reference, derivation.status,
-                     markdown=markdown, latex=latex, summary=summary, files=files)
+                     markdown=markdown, latex=latex, summary=summary, files=files, **audited)
 
 
 def summary_cells(derivation, target: str) -> SummaryCells:
@@ -217,6 +238,10 @@ def _entry_context(entry: CaseEntry, target: str) -> dict:
         "peak": render.Math(cells.peak) if cells and cells.peak else None,
         "dlf": render.Math(cells.dlf) if cells and cells.dlf else None,
         "body": render.Math(entry.markdown if target == "md" else entry.latex),
+        "claims": None if entry.confirmed is None else
+        f"{entry.confirmed} confirmed, {entry.refuted} refuted",
+        "refuted": bool(entry.refuted),
+        "claims_body": render.Math(entry.claims_markdown if target == "md" else entry.claims_latex),
     }
 
 

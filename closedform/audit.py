@@ -361,13 +361,32 @@ def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
             "caution": render.CAUTION.replace("This sheet supports", "This audit supports")}
 
 
+def render_claims(result: Audit, target: str, *, level: int = 3, numbered: str = "1.",
+                  latex_heading: str = "subsection") -> str:
+    """The verdicts and the checks behind each claimed formula, as a Markdown or LaTeX
+    fragment: the core of the audit sheet, also shown for each case of an appendix.
+    ``numbered`` prefixes the two headings ("1." gives 1.1, 1.2; "" leaves them unnumbered);
+    ``level`` is their Markdown heading level, ``latex_heading`` their LaTeX command."""
+    from . import render
+
+    context = _sheet_context(result, target)
+    prefix = (lambda n: f"{numbered}{n} ") if numbered else (lambda n: "")
+    context.update({"h3": render.Math("#" * level),
+                    "verdicts_heading": f"{prefix(1)}Verdicts on the claims",
+                    "formulas_heading": f"{prefix(2)}Claimed formulas against the equation",
+                    "subsection": render.Math(latex_heading + ("" if numbered else "*"))})
+    name = "audit_claims.md.j2" if target == "md" else "audit_claims.tex.j2"
+    return render.make_environment(target).get_template(name).render(context)
+
+
 def render_audit_markdown(result: Audit, stem: str | None = None) -> str:
     from . import render
 
     context = _sheet_context(result, "md")
     basis = render.render_markdown(result.derivation, stem=stem, section=2, level=2)
     return render.make_environment("md").get_template("audit.md.j2").render(
-        context | {"basis": render.Math(basis)})
+        context | {"basis": render.Math(basis),
+                   "fragment": render.Math(render_claims(result, "md"))})
 
 
 def render_audit_latex(result: Audit, stem: str | None = None) -> str:
@@ -376,7 +395,8 @@ def render_audit_latex(result: Audit, stem: str | None = None) -> str:
     context = _sheet_context(result, "tex")
     basis = render.render_latex(result.derivation, standalone=False, stem=stem, section=2)
     return render.make_environment("tex").get_template("audit.tex.j2").render(
-        context | {"basis": render.Math(basis), "preamble": render.Math(render.latex_preamble())})
+        context | {"basis": render.Math(basis), "preamble": render.Math(render.latex_preamble()),
+                   "fragment": render.Math(render_claims(result, "tex"))})
 
 
 def render_audit(result: Audit, formats, stem: str) -> dict[str, str | bytes]:
