@@ -291,8 +291,12 @@ def read_response_claims(case, reader, raw: Any, until: sympy.Expr, time_symbol:
             raise error(f"{key}.to", f"after the end of the analysis window (until = "
                                      f"{sympy.N(window, 6)} s)")
         local = exponential_polynomial(formula.subs(values), time_symbol, start.subs(values))
+        text = item["expr"]
+        if "expr_unit" in item or "time_unit" in item:
+            text += (f" (in {item.get('expr_unit', quantities.si_unit_text(response))}, "
+                     f"t in {item.get('time_unit', 's')})")
         pieces.append(ClaimedPiece(f"response[{number}]", number, start, end, formula, local,
-                                   item["expr"]))
+                                   text))
     return pieces
 
 

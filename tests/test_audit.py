@@ -181,7 +181,8 @@ def test_a_correct_partial_formula_is_judged_on_its_own_interval_only(tmp_path):
     code, out, _ = run(tmp_path, PULSE + f"response = [{PULSE_PHASE}]\n")
     assert code == 0, out
     (verdict,) = verdict_lines(out)
-    assert verdict.startswith("response[1] on [0, 0.015] s: claimed x = 20*(1 - cos(0.05*t)), ")
+    assert verdict.startswith("response[1] on [0, 0.015] s: claimed x = 20*(1 - cos(0.05*t)) "
+                              "(in mm, t in ms), ")
     assert verdict.endswith("all 5 checks against the equation passed; largest deviation from "
                             "this derivation 0 of the peak at t = 7.5e-05 s)")
     assert "confirmed" in verdict
@@ -371,3 +372,26 @@ def test_the_audit_sheet_compiles_to_pdf(tmp_path):
                      "-o", str(out_dir), "--format", "pdf")
     assert code == 0
     assert (out_dir / "claims-audit.pdf").read_bytes().startswith(b"%PDF")
+
+
+def test_the_worked_audit_of_a_consultants_note(capsys):
+    """Item 7. Undamped, ω = √(1.6e6/160) = 100 rad/s, F/k = 5 mm, t_d = 12 ms (ω t_d = 1.2 <
+    π: the peak comes after the pulse). Rectangular pulse (Chopra, Dynamics of Structures,
+    4th ed., section 4.7; from memory): x_max = 2(F/k) sin(ω t_d/2) = 10 mm · sin 0.6 at
+    t = t_d/2 + π/(2ω); after the pulse x = 2(F/k) sin(ω t_d/2) sin ω(t − t_d/2), so at 40 ms
+    x = 10 mm · sin 0.6 · sin 3.4 < 0 and the residual amplitude equals x_max."""
+    x_max = 10 * math.sin(0.6)
+    assert x_max == pytest.approx(5.65, rel=5e-3)                    # the note's peak
+    assert (6 + math.pi / 0.2) == pytest.approx(21.7, rel=5e-3)     # its time, ms
+    assert x_max * math.sin(3.4) == pytest.approx(-1.44, rel=5e-3)  # the note lost the sign
+    code = main(["check", str(WORKED / "audit-end-stop-note.toml")])
+    lines = capsys.readouterr().out.splitlines()
+    assert code == 1
+    verdicts = {row.split(":")[0]: "REFUTED" not in row.split("relative difference")[1]
+                for row in lines[:-1] if not row.startswith(" ")}
+    assert verdicts == {
+        "static": True, "peak": True, "peak_time": True, "dlf": True, "peak_velocity": True,
+        "peak_spring_force": True, "peak_support_reaction": False, "residual": True,
+        "at[1] (t = 0.012 s)": True, "at[2] (t = 0.04 s)": False,
+        "response[1] on [0, 0.012] s": True, "response[2] on [0.012, 0.1] s": False}
+    assert lines[-1] == "9 confirmed, 3 refuted"
