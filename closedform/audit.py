@@ -155,15 +155,23 @@ class ClaimedResponse:
     numbers: Any
 
 
+class _NotExponentialPolynomial:
+    """Stands for the local form of a claimed formula that has none: the checks that need
+    one (the energy balance) report, as a failed check, why they cannot be evaluated."""
+
+    def numeric(self, *_arguments, **_keywords):
+        raise ValueError("the claimed formula is not a sum of terms u^k·e^(σu)·cos|sin(ωu), "
+                         "u = t − from, which this check integrates")
+
+
 @dataclass(frozen=True)
 class _FormulaPiece:
-    """A claimed formula that is not an exponential polynomial (the checks that need one
-    report that they cannot be evaluated)."""
+    """A claimed formula that is not an exponential polynomial."""
 
     start: sympy.Expr
     end: sympy.Expr | None
     formula: sympy.Expr
-    local: None = None
+    local: _NotExponentialPolynomial = _NotExponentialPolynomial()
     numeric: None = None
 
     def expression(self, time: sympy.Symbol = t) -> sympy.Expr:

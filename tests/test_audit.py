@@ -395,3 +395,36 @@ def test_the_worked_audit_of_a_consultants_note(capsys):
         "at[1] (t = 0.012 s)": True, "at[2] (t = 0.04 s)": False,
         "response[1] on [0, 0.012] s": True, "response[2] on [0.012, 0.1] s": False}
     assert lines[-1] == "9 confirmed, 3 refuted"
+
+
+def test_claimed_formulas_as_an_array_of_tables_are_located_too(tmp_path):
+    text = PULSE + textwrap.dedent("""\
+        [[claims.response]]
+        from = 0
+        to = "15 ms"
+        expr = "0.02*(1 - cos(50*t))"
+        [[claims.response]]
+        from = "15 ms"
+        expr = "0"
+        time_unit = "kg"
+        """)
+    code, out, err = run(tmp_path, text)
+    assert (code, out) == (2, "")
+    assert err.strip() == (f"{tmp_path / 'claims.toml'}:21: claims.response[2].time_unit: wrong "
+                           "dimension (expected time, got mass)")
+
+
+def test_a_formula_outside_the_exponential_polynomials_is_refuted_with_the_reason(tmp_path):
+    code, out, _ = run(tmp_path, PULSE + 'response = [{ from = "15 ms", expr = "0.02*sqrt(t)" }]\n')
+    assert code == 1
+    assert ("    against the equation: energy balance: FAILED (could not be evaluated: ValueError: "
+            "the claimed formula is not a sum of terms u^k·e^(σu)·cos|sin(ωu), u = t − from, "
+            "which this check integrates)") in out.splitlines()
+
+
+def test_claims_on_a_case_with_valued_symbols(tmp_path):
+    """The stiffness as a symbol with a value: a formula in that symbol is judged with it."""
+    text = PULSE.replace('stiffness = "250 kN/m"', 'stiffness = "k"').replace(
+        "[system]", '[symbols]\nk = { unit = "N/m", value = "250 kN/m" }\n[system]')
+    code, out, _ = run(tmp_path, text + 'response = [{ from = 0, to = "15 ms", expr = "5000/k*(1 - cos(50*t))" }]\n')
+    assert code == 0, out
