@@ -463,6 +463,9 @@ def run_check(arguments: argparse.Namespace) -> int:
         if arguments.output is not None else []
     if arguments.output is not None:
         usable_output_folder(arguments.output)
+    if "pdf" in formats:
+        from .render import require_latex
+        require_latex()       # before any work: name the missing tool
     case = load_case(arguments.case)
     try:
         derivation = derive(case, time_budget=arguments.time_budget)

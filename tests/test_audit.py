@@ -428,3 +428,13 @@ def test_claims_on_a_case_with_valued_symbols(tmp_path):
         "[system]", '[symbols]\nk = { unit = "N/m", value = "250 kN/m" }\n[system]')
     code, out, _ = run(tmp_path, text + 'response = [{ from = 0, to = "15 ms", expr = "5000/k*(1 - cos(50*t))" }]\n')
     assert code == 0, out
+
+
+def test_a_result_without_a_unit_in_the_json_takes_the_dimension_the_claim_writes(derive_case):
+    from closedform.case import quantity_reader
+    from closedform.claims import claimed_number
+
+    case = derive_case(PULSE).case
+    reader = quantity_reader(case)
+    assert claimed_number(reader, "4 mm", None, "claims.permanent_set", {}) == pytest.approx(0.004)
+    assert claimed_number(reader, 3.5, None, "claims.ductility", {}) == 3.5
