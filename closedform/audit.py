@@ -346,7 +346,6 @@ def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
 
     derivation = result.derivation
     case = derivation.case
-    escape = render.latex_escape if target == "tex" else render.markdown_escape
 
     def figure(value: float | None) -> Any:
         return None if value is None else render.inline(render.number(value, 3))
@@ -361,7 +360,6 @@ def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
             "detail": verdict.detail, "interval": verdict.interval,
             "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
                        for c in verdict.checks]})
-    del escape
     return {"title": case.title, "reference": case.reference or "—",
             "case_file": Path(case.source).name, "sha256": case.sha256 or "—", "version": __version__,
             "claims": claims, "confirmed": result.confirmed, "refuted": result.refuted,
