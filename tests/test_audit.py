@@ -438,3 +438,18 @@ def test_a_result_without_a_unit_in_the_json_takes_the_dimension_the_claim_write
     reader = quantity_reader(case)
     assert claimed_number(reader, "4 mm", None, "claims.permanent_set", {}) == pytest.approx(0.004)
     assert claimed_number(reader, 3.5, None, "claims.ductility", {}) == 3.5
+
+
+def test_a_formula_claimed_from_inside_one_of_our_pieces_continues_our_state(tmp_path):
+    """From 5 ms (inside the pulse): the formula must continue x(5 ms), x′(5 ms) of ours."""
+    code, out, _ = run(tmp_path, PULSE + 'response = [{ from = "5 ms", to = "15 ms", '
+                       'expr = "0.02*(1 - cos(50*t))" }]\n')
+    assert code == 0, out
+    assert "    against the equation: breakpoint conditions at t = 0.005: passed" in out
+    # the same shape shifted to start from rest at 5 ms is a solution of the equation on the
+    # interval but does not continue the motion: continuity fails
+    code, out, _ = run(tmp_path, PULSE + 'response = [{ from = "5 ms", to = "15 ms", '
+                       'expr = "0.02*(1 - cos(50*(t - 0.005)))" }]\n')
+    assert code == 1
+    assert "    against the equation: ode residual on (0.005, 0.015): passed" in out
+    assert "    against the equation: breakpoint conditions at t = 0.005: FAILED" in out
