@@ -198,6 +198,25 @@ def test_a_correct_partial_formula_is_judged_on_its_own_interval_only(tmp_path):
     assert out.splitlines()[-1] == "1 confirmed, 0 refuted"
 
 
+def test_a_formula_with_rounded_coefficients_is_judged_by_the_tolerance(tmp_path):
+    """A consultant writes x = 20(1 − cos 0.05 t) mm with ω rounded: 0.0501 instead of 0.05
+    (0.2 % off). Against the equation it fails at our own round-off limits, as any rounded
+    formula must; the verdict follows the stated tolerance, one way or the other."""
+    rounded = PULSE_PHASE.replace("0.05*t", "0.0501*t")
+    assert rounded != PULSE_PHASE
+    code, out, _ = run(tmp_path, PULSE + f'tolerance = {{ expressions = "1 %" }}\nresponse = [{rounded}]\n')
+    assert code == 0, out
+    (verdict,) = verdict_lines(out)
+    assert "confirmed" in verdict
+    assert "FAILED at this derivation's own limits (expected of rounded coefficients)" in verdict
+    assert "    against the equation: ode residual on (0, 0.015): FAILED" in out
+    code, out, _ = run(tmp_path, PULSE + f'tolerance = {{ expressions = "0.01 %" }}\nresponse = [{rounded}]\n')
+    assert code == 1, out
+    (verdict,) = verdict_lines(out)
+    assert "REFUTED" in verdict and "(beyond the tolerance)" in verdict
+    assert "expected of rounded coefficients" not in verdict
+
+
 def test_a_free_vibration_phase_is_checked_for_continuity_with_the_state_it_starts_from(tmp_path):
     code, out, _ = run(tmp_path, PULSE + f"response = [{PULSE_PHASE}, {FREE_PHASE}]\n")
     assert code == 0, out
