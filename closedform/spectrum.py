@@ -33,6 +33,7 @@ import argparse
 import csv
 import io
 import json
+import math
 import sys
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -45,6 +46,7 @@ import mpmath
 import sympy
 
 from .basis import NumericExponentialPolynomial
+from .budget import DEFAULT_SECONDS, Budget, time_budget
 from .case import LoadSpec, SystemSpec
 from .errors import CaseError
 from .loads import rewrite_loads
@@ -57,6 +59,7 @@ from .results import (
     extreme_magnitude,
     numeric_intervals,
 )
+from .spectrum_check import RATIO_RANGE, PointCheck, check_point
 from .systems import build_model
 
 SHAPES = ("rectangle", "triangle", "decay", "half-sine", "trapezoid")
@@ -128,6 +131,11 @@ class SpectrumPoint:
                                         # by the engine at that exact ratio (limit form)
     peak: Extreme | None = None         # at 30 digits, in the normalised time (T_n = 2π)
     residual_mp: object = None
+    checks: tuple[PointCheck, ...] = ()  # the independent checks (spectrum_check.py)
+
+    @property
+    def status(self) -> str:
+        return "verified" if self.checks and all(c.passed for c in self.checks) else "failed"
 
 
 @dataclass(frozen=True)
@@ -136,13 +144,29 @@ class Spectrum:
     damping_ratio: sympy.Rational
     points: tuple[SpectrumPoint, ...]
 
+    @property
+    def status(self) -> str:
+        return "verified" if all(p.status == "verified" for p in self.points) else "failed"
+
+    def failures(self) -> list[str]:
+        """One line per failed check: the ratio, the check and its figure."""
+        return [f"t_d/T_n = {_digits(float(p.ratio))}: {c.name}: {c.detail}"
+                for p in self.points for c in p.checks if not c.passed] + \
+            [f"t_d/T_n = {_digits(float(p.ratio))}: not checked" for p in self.points
+             if not p.checks]
+
     def to_dict(self) -> dict:
         return {
+            "schema": 1,
+            "status": self.status,
             "shape": self.pulse.shape,
             **self.pulse.parameters(),
             "damping_ratio": float(self.damping_ratio),
             "points": [{"ratio": float(p.ratio), "dlf": p.dlf,
-                        "peak_time_ratio": p.peak_time_ratio, "residual": p.residual}
+                        "peak_time_ratio": p.peak_time_ratio, "residual": p.residual,
+                        "status": p.status,
+                        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+                                   for c in p.checks]}
                        for p in self.points],
         }
 
@@ -155,14 +179,18 @@ class Spectrum:
         buffer = io.StringIO()
         buffer.write(f"# shock spectrum: {self.pulse.describe()}, damping ratio "
                      f"{_text(self.damping_ratio)}\n")
+        buffer.write(f"# status: {self.status.upper()} (every point checked by an independent "
+                     f"solution: value, stationary point, no larger |x|, residual)\n")
+        for line in self.failures():
+            buffer.write(f"# failed: {line}\n")
         buffer.write("# every column is dimensionless [1]: t_d/T_n = pulse duration / natural "
                      "period; DLF = max|x| / (F/k); t_m/t_d = time of that maximum / pulse "
                      "duration; A_r/(F/k) = residual vibration amplitude / (F/k)\n")
         writer = csv.writer(buffer, lineterminator="\n")
-        writer.writerow(["t_d/T_n [1]", "DLF [1]", "t_m/t_d [1]", "A_r/(F/k) [1]"])
+        writer.writerow(["t_d/T_n [1]", "DLF [1]", "t_m/t_d [1]", "A_r/(F/k) [1]", "status"])
         for p in self.points:
             writer.writerow([_digits(float(p.ratio)), _digits(p.dlf), _digits(p.peak_time_ratio),
-                             _digits(p.residual)])
+                             _digits(p.residual), p.status])
         return buffer.getvalue()
 
 
@@ -284,19 +312,32 @@ def spectrum_point(pulse: Pulse, damping_ratio: sympy.Rational, ratio: sympy.Rat
         residual = mpmath.sqrt(x**2 + ((velocity + zeta * x) / damped) ** 2)
         duration = 2 * mpmath.pi * ratio.p / ratio.q
         shown = float(residual) if residual > ZERO_LEVEL else 0.0
-        return SpectrumPoint(ratio, float(abs(peak.value_mp)), float(peak.time_mp / duration),
-                             shown, resonant, peak, residual)
+    checks = tuple(check_point(pulse.shape, float(damping_ratio), float(ratio),
+                               float(peak.value_mp), float(peak.time_mp), shown,
+                               **pulse.parameters()))
+    return SpectrumPoint(ratio, float(abs(peak.value_mp)), float(peak.time_mp / duration),
+                         shown, resonant, peak, residual, checks)
 
 
 def response_spectrum(pulse: Pulse, damping_ratio: sympy.Rational,
-                      ratios: Sequence[sympy.Rational]) -> Spectrum:
-    """The spectrum at each ratio t_d/T_n, all from one derivation in terms of the ratio."""
+                      ratios: Sequence[sympy.Rational], budget: Budget | None = None) -> Spectrum:
+    """The spectrum at each ratio t_d/T_n, all from one derivation in terms of the ratio, each
+    point checked independently (spectrum_check.py). ``budget`` names the running stage for
+    a time budget around the call."""
+    budget = budget or Budget(None, "spectrum")
     if not 0 <= damping_ratio < 1:
         raise ValueError("the damping ratio must be at least 0 and below 1")
-    template = _template(pulse, damping_ratio)
-    return Spectrum(pulse, damping_ratio,
-                    tuple(spectrum_point(pulse, damping_ratio, sympy.Rational(r), template)
-                          for r in ratios))
+    low, high = RATIO_RANGE
+    with budget.stage("shock spectrum: the ratios"):
+        if any(not low <= float(r) <= high for r in ratios):
+            raise ValueError(f"t_d/T_n must be from {low:g} to {high:g}")
+    with budget.stage("shock spectrum: the closed form in t_d/T_n"):
+        template = _template(pulse, damping_ratio)
+    points = []
+    for r in ratios:
+        with budget.stage(f"shock spectrum: t_d/T_n = {_text(r)}"):
+            points.append(spectrum_point(pulse, damping_ratio, sympy.Rational(r), template))
+    return Spectrum(pulse, damping_ratio, tuple(points))
 
 
 # ----------------------------------------------------------------------------- plot
@@ -364,6 +405,8 @@ def register(commands) -> None:
                         help="print the JSON result on standard output ('-')")
     parser.add_argument("-o", "--output", type=Path, metavar="DIR",
                         help="folder for the CSV, the plot (SVG and PNG) and the JSON")
+    parser.add_argument("--time-budget", type=float, default=DEFAULT_SECONDS, metavar="SECONDS",
+                        help=f"stop a spectrum that runs longer (default {DEFAULT_SECONDS:g})")
     parser.set_defaults(run=run_spectrum)
 
 
@@ -383,7 +426,15 @@ def parse_ratios(text: str) -> list[sympy.Rational]:
     for item, ratio in zip(items, ratios):
         if ratio <= 0:
             raise CaseError(f"ratios must be positive, got {item.strip()}", file="--ratios")
+        _in_range(ratio, item.strip(), "--ratios")
     return ratios
+
+
+def _in_range(ratio: sympy.Rational, text: str, option: str) -> None:
+    low, high = RATIO_RANGE
+    if not low <= ratio <= high:
+        raise CaseError(f"t_d/T_n must be from {low:g} to {high:g} (the range in which each "
+                        f"point is computed and checked), got {text}", file=option)
 
 
 def parse_range(text: str) -> list[sympy.Rational]:
@@ -398,6 +449,8 @@ def parse_range(text: str) -> list[sympy.Rational]:
         raise CaseError(f"N must be a whole number, got '{parts[2].strip()}'", file="--range")
     if low <= 0:
         raise CaseError(f"LO must be positive, got {parts[0].strip()}", file="--range")
+    _in_range(low, parts[0].strip(), "--range")
+    _in_range(high, parts[1].strip(), "--range")
     if high < low:
         raise CaseError(f"HI must not be below LO, got {parts[1].strip()} < {parts[0].strip()}",
                         file="--range")
@@ -466,7 +519,10 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
                         file="--json")
     if arguments.output is not None:
         usable_output_folder(arguments.output)
-    spectrum = response_spectrum(pulse, zeta, ratios)
+    if arguments.time_budget is not None and not 0 < arguments.time_budget < math.inf:
+        raise CaseError("must be a positive number of seconds", file="--time-budget")
+    with time_budget(arguments.time_budget, "spectrum") as budget:
+        spectrum = response_spectrum(pulse, zeta, ratios, budget)
     if arguments.json_target == "-":
         sys.stdout.write(spectrum.to_json() + "\n")
     if arguments.output is not None:
@@ -479,4 +535,8 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
         })
     if arguments.json_target is None and arguments.output is None:
         sys.stdout.write(spectrum.to_csv())
+    if spectrum.status != "verified":
+        for line in spectrum.failures():
+            print(f"FAILED: {line}", file=sys.stderr)
+        return 1
     return 0

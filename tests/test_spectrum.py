@@ -20,7 +20,8 @@ import pytest
 import sympy
 
 from closedform.cli import main
-from closedform.spectrum import Pulse, parse_range, response_spectrum
+from closedform.spectrum import Pulse, parse_range, response_spectrum, spectrum_point
+from closedform.spectrum_check import check_point
 
 R = sympy.Rational
 
@@ -269,10 +270,12 @@ def test_spectrum_json_contract(capsys):
     code = main(["spectrum", "--shape", "half-sine", "--ratios", "0.25,0.5,1.5", "--json", "-"])
     result = json.loads(capsys.readouterr().out)
     assert code == 0
-    assert set(result) == {"shape", "damping_ratio", "points"}
+    assert set(result) == {"schema", "status", "shape", "damping_ratio", "points"}
+    assert result["schema"] == 1 and result["status"] == "verified"
     assert result["shape"] == "half-sine" and result["damping_ratio"] == 0.0
     assert [set(p) for p in result["points"]] == [{"ratio", "dlf", "peak_time_ratio",
-                                                    "residual"}] * 3
+                                                    "residual", "status", "checks"}] * 3
+    assert all(p["status"] == "verified" and len(p["checks"]) == 5 for p in result["points"])
     assert [p["ratio"] for p in result["points"]] == [0.25, 0.5, 1.5]
     assert result["points"][1]["dlf"] == pytest.approx(math.pi / 2, rel=1e-15)   # Harris ch. 8
     assert result["points"][2]["residual"] == 0.0                                # Harris ch. 8
@@ -293,10 +296,11 @@ def test_spectrum_writes_csv_svg_png_reproducibly(tmp_path):
     assert (tmp_path / "a" / "spectrum-triangle.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
     text = (tmp_path / "a" / "spectrum-triangle.csv").read_text()
     rows = [row for row in csv.reader(io.StringIO(text)) if not row[0].startswith("#")]
-    assert rows[0] == ["t_d/T_n [1]", "DLF [1]", "t_m/t_d [1]", "A_r/(F/k) [1]"]
-    assert len(rows) == 9
+    assert rows[0] == ["t_d/T_n [1]", "DLF [1]", "t_m/t_d [1]", "A_r/(F/k) [1]", "status"]
+    assert len(rows) == 9 and all(row[-1] == "verified" for row in rows[1:])
     assert float(rows[1][0]) == pytest.approx(0.1) and float(rows[-1][0]) == pytest.approx(3.0)
-    assert "dimensionless" in text.splitlines()[1]
+    assert text.splitlines()[1].startswith("# status: VERIFIED")
+    assert "dimensionless" in text.splitlines()[2]
 
 
 def test_range_is_exact():
@@ -336,6 +340,14 @@ def test_range_is_exact():
      "--fall: --rise, --hold and --fall must sum to 1 (fractions of the duration), got 0.9"),
     (["--shape", "rectangle", "--ratios", "1", "--json", "out.json"],
      "--json: expected '-' (standard output), got 'out.json'"),
+    (["--shape", "rectangle", "--ratios", "1e9"],
+     "--ratios: t_d/T_n must be from 1e-06 to 10000 (the range in which each point is computed "
+     "and checked), got 1e9"),
+    (["--shape", "rectangle", "--range", "1e-7:1:5"],
+     "--range: t_d/T_n must be from 1e-06 to 10000 (the range in which each point is computed "
+     "and checked), got 1e-7"),
+    (["--shape", "rectangle", "--ratios", "1", "--time-budget", "0"],
+     "--time-budget: must be a positive number of seconds"),
 ])
 def test_bad_arguments_give_one_line_and_exit_2(capsys, arguments, message):
     code = main(["spectrum", *arguments])
@@ -343,3 +355,98 @@ def test_bad_arguments_give_one_line_and_exit_2(capsys, arguments, message):
     assert code == 2
     assert captured.out == ""
     assert captured.err.strip().splitlines() == [message]
+
+
+# ----------------------------------------------------------------------------- long pulses (issue 13.9)
+
+
+@pytest.mark.parametrize("zeta", ["0", "0.05"])
+def test_long_rectangle_peaks_at_the_first_overshoot(zeta):
+    """A rectangle much longer than the period is a suddenly applied load: undamped DLF = 2 for
+    every t_d/T_n ≥ ½, first reached at t = T_n/2 (Biggs, Introduction to Structural Dynamics,
+    1964, ch. 2, rectangular pulse; Chopra, Dynamics of Structures, 4th ed., section 4.7 — from
+    memory); damped: the step overshoot 1 + exp(−ζπ/√(1−ζ²)) at π/ω_d (Ogata, Modern Control
+    Engineering, 5th ed., section 5-3, from memory). At the top of the stated range, 10⁴."""
+    (point,) = spectrum_at("rectangle", zeta, ["10000"])
+    z = float(zeta)
+    assert point.status == "verified"
+    assert point.dlf == pytest.approx(1 + math.exp(-z * math.pi / math.sqrt(1 - z * z)),
+                                      rel=1e-12)
+    assert point.peak_time_ratio == pytest.approx(1 / (2 * 10000 * math.sqrt(1 - z * z)),
+                                                  rel=1e-9)
+
+
+def test_long_half_sine_and_decay_tend_to_their_static_and_step_values():
+    """t_d ≫ T_n: a half-sine is applied slowly, DLF → 1 (quasi-static) with its peak at mid
+    pulse; a decaying triangle starts as a step, DLF → 2 (Biggs 1964, ch. 2, the long-pulse
+    ends of the charts; from memory). At 10⁴ within 1e-3, and every point verified."""
+    half_sine, = spectrum_at("half-sine", 0, ["10000"])
+    decay, = spectrum_at("decay", 0, ["10000"])
+    assert half_sine.status == decay.status == "verified"
+    assert half_sine.dlf == pytest.approx(1.0, abs=1e-3)
+    assert half_sine.peak_time_ratio == pytest.approx(0.5, abs=1e-3)
+    assert decay.dlf == pytest.approx(2.0, abs=1e-3)
+
+
+def test_every_point_of_a_spectrum_is_checked():
+    spectrum = response_spectrum(Pulse("triangle"), R("0.05"), parse_range("0.1:3:12"))
+    assert spectrum.status == "verified"
+    for point in spectrum.points:
+        assert [c.name for c in point.checks] == [
+            "value at the reported time", "stationary point or load breakpoint",
+            "no larger |x| in the pulse and the free vibration", "earliest time of the peak",
+            "residual amplitude"]
+        assert all(c.passed for c in point.checks)
+
+
+@pytest.mark.parametrize("shape, zeta, ratio", [("rectangle", 0, 0.3), ("half-sine", 0, 0.5),
+                                               ("half-sine", 0.05, 2.2), ("decay", 0, 1e-6),
+                                               ("triangle", 0.1, 40)])
+def test_the_point_check_refutes_wrong_numbers(shape, zeta, ratio):
+    """Each reported number moved by a little: the independent check must fail it."""
+    (point,) = spectrum_at(shape, str(zeta), [str(ratio)])
+    value, time = float(point.peak.value_mp), float(point.peak.time_mp)
+    assert all(c.passed for c in check_point(shape, zeta, ratio, value, time, point.residual))
+
+    def failed(**changed):
+        arguments = dict(peak_value=value, peak_time=time, residual=point.residual) | changed
+        return {c.name for c in check_point(shape, zeta, ratio, **arguments) if not c.passed}
+
+    assert "value at the reported time" in failed(peak_value=value * (1 - 1e-8))
+    assert "no larger |x| in the pulse and the free vibration" in failed(
+        peak_value=value * (1 - 1e-8))
+    assert failed(peak_time=time * (1 + 1e-4) + 1e-6) & {"value at the reported time",
+                                                          "stationary point or load breakpoint"}
+    assert "residual amplitude" in failed(residual=point.residual * (1 + 1e-8) + 1e-9)
+
+
+def test_a_later_equal_peak_is_refuted_by_the_earliest_time_rule():
+    """Undamped rectangle, t_d/T_n = 3.7: x = 1 − cos t reaches 2 at π, 3π, 5π, … (the
+    first is the one to report); reporting the third instead must fail."""
+    duration = 2 * math.pi * 3.7
+    names = {c.name for c in check_point("rectangle", 0.0, 3.7, 2.0, 5 * math.pi,
+                                         2 * abs(math.sin(math.pi * 3.7))) if not c.passed}
+    assert names == {"earliest time of the peak"}
+    assert 5 * math.pi < duration
+
+
+def test_beyond_the_range_the_engine_is_caught_by_the_check():
+    """Issue 13.9: at t_d/T_n = 1e5 the 30-digit search reported a later peak. The command
+    refuses that ratio; run anyway, the point check says failed."""
+    pulse = Pulse("rectangle")
+    point = spectrum_point(pulse, R(0), R(10**5))
+    assert point.dlf == pytest.approx(2.0)
+    if point.peak_time_ratio > 1 / (2 * 10**5) * (1 + 1e-6):
+        assert point.status == "failed"
+    else:
+        assert point.status == "verified"
+
+
+def test_time_budget_stops_a_long_spectrum(capsys):
+    code = main(["spectrum", "--shape", "half-sine", "--range", "0.05:5:100000",
+                 "--time-budget", "1"])
+    captured = capsys.readouterr()
+    assert code == 1 and captured.out == ""
+    (line,) = captured.err.strip().splitlines()
+    assert line.startswith("error: spectrum: the stage 'shock spectrum: t_d/T_n = ")
+    assert line.endswith("ran past the time budget of 1 s (raise it with --time-budget)")
