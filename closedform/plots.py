@@ -266,3 +266,40 @@ def draw(derivation, ax=None):
         ax.set_title(_plain(title))
     ax.figure.sca(ax)          # the twin became the current axes; give them back
     return ax
+
+
+def record_spectrum_plot(spectrum, fmt: str) -> bytes:
+    """Response spectrum of a record (records.RecordSpectrum) on log axes: pseudo- and
+    absolute acceleration, and spectral displacement, against the period (SI). Reproducible
+    byte for byte like the sheet figures."""
+    import matplotlib
+    from matplotlib.figure import Figure
+
+    points = spectrum.points()
+    periods = [p["period"] for p in points]
+    style = dict(STYLE, **{"svg.hashsalt": "closedform-record-spectrum"})
+    with matplotlib.rc_context(style):
+        figure = Figure(figsize=(6.4, 3.4), layout="constrained")
+        left, right = figure.subplots(1, 2)
+        left.plot(periods, [p["pseudo_acceleration"] for p in points], color=RESPONSE_COLOUR,
+                  label="pseudo-acceleration ω²D")
+        left.plot(periods, [p["absolute_acceleration"] for p in points], color=LOAD_COLOUR,
+                  linestyle="--", label="peak absolute acceleration")
+        left.set_ylabel("acceleration [m/s²]")
+        right.plot(periods, [p["displacement"] for p in points], color=RESPONSE_COLOUR,
+                   label="spectral displacement D")
+        right.set_ylabel("displacement [m]")
+        for axes in (left, right):
+            if len(periods) > 1 and max(periods) > min(periods):
+                axes.set_xscale("log")
+            positive = [y for line in axes.get_lines() for y in line.get_ydata() if y > 0]
+            if positive:
+                axes.set_yscale("log")
+            axes.set_xlabel("period T [s]")
+            axes.legend(loc="best")
+        figure.suptitle(f"response spectrum of the record, damping ratio "
+                        f"{spectrum.damping_ratio:g} ({spectrum.status})")
+        buffer = io.BytesIO()
+        metadata = {"Date": None, "Creator": CREATOR} if fmt == "svg" else {"Software": CREATOR}
+        figure.savefig(buffer, format=fmt, metadata=metadata, dpi=150)
+        return buffer.getvalue()

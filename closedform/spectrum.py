@@ -391,6 +391,12 @@ def register(commands) -> None:
                     "oscillator, from the closed form: DLF, time of peak and residual "
                     "amplitude against the ratio of pulse duration to natural period.")
     parser.add_argument("--shape", help=f"pulse shape: {', '.join(SHAPES)}")
+    parser.add_argument("--record", type=Path, metavar="FILE.csv",
+                        help="response spectrum of a support-acceleration record instead: two "
+                             "columns time, acceleration (units in the header, else SI)")
+    parser.add_argument("--periods", metavar="A:B:N|A,B,…",
+                        help="with --record: N log-spaced periods from A to B seconds, or a "
+                             "comma-separated list")
     parser.add_argument("--peak-at", metavar="F", help="triangle: time of the peak as a fraction "
                         "of the duration (default 0.5)")
     parser.add_argument("--rise", metavar="F", help="trapezoid: rise as a fraction of the duration")
@@ -505,6 +511,11 @@ def parse_pulse(arguments: argparse.Namespace) -> Pulse:
 def run_spectrum(arguments: argparse.Namespace) -> int:
     from .cli import usable_output_folder, write_atomically
 
+    if arguments.record is not None:
+        return run_record_spectrum(arguments)
+    if arguments.periods is not None:
+        raise CaseError("periods are for a record spectrum (give --record FILE.csv); a pulse "
+                        "spectrum takes --ratios or --range", file="--periods")
     pulse = parse_pulse(arguments)
     zeta = _fraction(arguments.damping_ratio, "--damping-ratio", "a damping ratio from 0 to below 1")
     if not 0 <= zeta < 1:
@@ -538,5 +549,53 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
     if spectrum.status != "verified":
         for line in spectrum.failures():
             print(f"FAILED: {line}", file=sys.stderr)
+        return 1
+    return 0
+
+
+def run_record_spectrum(arguments: argparse.Namespace) -> int:
+    """``spectrum --record FILE.csv --periods …``: see records.py."""
+    from .cli import usable_output_folder, write_atomically
+    from .records import parse_periods, read_record, record_spectrum, record_spectrum_figure
+
+    for option, value in (("--shape", arguments.shape), ("--ratios", arguments.ratios),
+                          ("--range", arguments.ratio_range), ("--peak-at", arguments.peak_at),
+                          ("--rise", arguments.rise), ("--hold", arguments.hold),
+                          ("--fall", arguments.fall)):
+        if value is not None:
+            raise CaseError("is for a pulse spectrum, not with --record", file=option)
+    if arguments.periods is None:
+        raise CaseError("missing (a record spectrum needs --periods START:STOP:COUNT or a "
+                        "list A,B,…, in seconds)", file="--periods")
+    zeta = _fraction(arguments.damping_ratio, "--damping-ratio", "a damping ratio from 0 to below 1")
+    if not 0 <= zeta < 1:
+        raise CaseError(f"must be at least 0 and below 1 (spectra are for oscillating systems), "
+                        f"got {arguments.damping_ratio}", file="--damping-ratio")
+    periods = parse_periods(arguments.periods)
+    if arguments.json_target not in (None, "-"):
+        raise CaseError(f"expected '-' (standard output), got '{arguments.json_target}'",
+                        file="--json")
+    if arguments.time_budget is not None and not 0 < arguments.time_budget < math.inf:
+        raise CaseError("must be a positive number of seconds", file="--time-budget")
+    if arguments.output is not None:
+        usable_output_folder(arguments.output)
+    record = read_record(arguments.record)
+    with time_budget(arguments.time_budget, "record spectrum") as budget:
+        spectrum = record_spectrum(record, float(zeta), periods, budget)
+    if arguments.json_target == "-":
+        sys.stdout.write(spectrum.to_json() + "\n")
+    if arguments.output is not None:
+        write_atomically(arguments.output, {
+            "record-spectrum.csv": spectrum.to_csv(),
+            "record-spectrum.json": spectrum.to_json() + "\n",
+            "record-spectrum.svg": record_spectrum_figure(spectrum, "svg"),
+            "record-spectrum.png": record_spectrum_figure(spectrum, "png"),
+        })
+    if arguments.json_target is None and arguments.output is None:
+        sys.stdout.write(spectrum.to_csv())
+    if spectrum.status != "verified":
+        for check in spectrum.checks:
+            if not check.passed:
+                print(f"FAILED: {check.name}: {check.detail}", file=sys.stderr)
         return 1
     return 0
