@@ -198,7 +198,7 @@ class _Motion:
 
     def __call__(self, t) -> tuple[numpy.ndarray, numpy.ndarray]:
         ops, s, zeta, wd = self.ops, self.s, self.zeta, self.damped
-        t = ops.array(t) if ops is _Precise and getattr(t, "dtype", None) != object else t
+        t = ops.array(t) if ops is _Precise and getattr(getattr(t, "dtype", None), "kind", "") != "O" else t
         if self.stable_sine:
             # x = (sin Ωt − Ω sin t)/(1 − Ω²) written with ε = Ω − 1 and S = sin(εt/2)/ε:
             # x = (sin t − 2 cos((Ω+1)t/2)·S)/(Ω+1), x′ = 2Ω sin((Ω+1)t/2)·S/(Ω+1)

@@ -1,0 +1,163 @@
+"""The speed targets of issue 18, each as a ratio to a floor timed in the same run.
+
+    python benchmarks/targets.py              # everything (the 10 000-segment case takes minutes)
+    python benchmarks/targets.py --skip-long  # without the 10 000-segment case
+    python benchmarks/targets.py --repeat 5   # best of 5 for the short runs (default 3)
+
+The floor is ``python -c "import sympy, mpmath, numpy"``. Every run is a fresh process
+started from the repository root (``python -m closedform …``), its wall time the best of
+``--repeat`` runs (one run for the long history); peak memory is the child's own maximum
+resident set (resource.getrusage(RUSAGE_CHILDREN) in a wrapper process that starts only that
+child). Each line prints the seconds, the ratio to the floor and whether the target is met.
+Nothing is asserted: targets are reported here, never as timed assertions in the tests.
+
+The inputs are invented: a 4 000-sample synthetic support-acceleration record (seeded noise
+under an envelope), and force histories of 1 000 segments and of 10 000 points (the most a table takes) (smooth swell + ripple
++ noise) on a damped spring-mass-damper.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import math
+import os
+import random
+import subprocess
+import sys
+import tempfile
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+PYTHON = sys.executable
+
+WRAPPER = r"""
+import json, resource, subprocess, sys, time
+start = time.perf_counter()
+done = subprocess.run(sys.argv[2:], cwd=sys.argv[1], stdout=subprocess.DEVNULL,
+                      stderr=subprocess.PIPE)
+wall = time.perf_counter() - start
+peak = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss / 1024
+print(json.dumps({"wall": wall, "memory_mb": peak, "code": done.returncode,
+                  "stderr": done.stderr.decode(errors="replace")[-300:]}))
+"""
+
+
+def measure(command: list[str], repeat: int) -> dict:
+    """Best wall time of ``repeat`` fresh runs, with the peak memory of that run."""
+    best = None
+    for _ in range(repeat):
+        out = subprocess.run([PYTHON, "-c", WRAPPER, str(ROOT), *command],
+                             capture_output=True, text=True, check=True).stdout
+        result = json.loads(out)
+        if best is None or result["wall"] < best["wall"]:
+            best = result
+    return best
+
+
+def write_record(folder: Path, samples: int = 4000, seed: int = 11) -> Path:
+    rng = random.Random(seed)
+    rows = ["# synthetic record for the benchmark (invented)", "time [s], acceleration [g0]"]
+    for i in range(samples):
+        t = i * 0.01
+        envelope = math.sin(math.pi * i / (samples - 1)) ** 2
+        rows.append(f"{t:.2f}, {0.3 * envelope * rng.gauss(0, 1):.6f}")
+    path = folder / "record.csv"
+    path.write_text("\n".join(rows) + "\n")
+    return path
+
+
+def write_history(folder: Path, segments: int, seed: int = 7) -> Path:
+    rng = random.Random(seed + segments)
+    rows = ["time [ms], force [kN]"]
+    for i in range(segments + 1):
+        value = 0.0 if i in (0, segments) else max(
+            0.0, 6 + 5 * math.sin(i / 17) + 3 * math.sin(i / 5.3) + rng.uniform(-0.5, 0.5))
+        rows.append(f"{i * 0.5:g}, {value:.3f}")
+    (folder / f"history-{segments}.csv").write_text("\n".join(rows) + "\n")
+    case = folder / f"history-{segments}.toml"
+    case.write_text(f"""title = "Invented history, {segments} segments"
+[system]
+model = "spring-mass-damper"
+mass = "750 kg"
+stiffness = "3.1 MN/m"
+damping_ratio = 0.05
+[[load]]
+shape = "table"
+csv = "history-{segments}.csv"
+[report]
+until = "{segments * 0.5 + 100:g} ms"
+""")
+    return case
+
+
+def report(name: str, result: dict, floor: float, target: float, unit: str = "floor",
+           reference: float | None = None, memory_target: float | None = None,
+           expected_code: int = 0) -> None:
+    base = floor if reference is None else reference
+    ratio = result["wall"] / base
+    met = ratio <= target and result["code"] == expected_code
+    memory = ""
+    if memory_target is not None:
+        memory = f", memory {result['memory_mb']:.0f} MB (target ≤ {memory_target:g} MB)"
+        met = met and result["memory_mb"] <= memory_target
+    status = "MET" if met else "NOT MET"
+    print(f"{name:<48} {result['wall']:7.2f} s  {ratio:6.2f}× {unit} (target ≤ {target:g}×)"
+          f"{memory}  exit {result['code']}  {status}")
+    if result["code"] != expected_code:
+        print(f"    stderr: {result['stderr'].strip()}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--repeat", type=int, default=3)
+    parser.add_argument("--skip-long", action="store_true")
+    arguments = parser.parse_args()
+    repeat = arguments.repeat
+    cli = ["-m", "closedform"]
+    cores = os.cpu_count() or 1
+    with tempfile.TemporaryDirectory() as folder_name:
+        folder = Path(folder_name)
+        record = write_record(folder)
+        history_1000 = write_history(folder, 1000)
+        floor = measure([PYTHON, "-c", "import sympy, mpmath, numpy"], repeat)["wall"]
+        label = 'floor: python -c "import sympy, mpmath, numpy"'
+        print(f"{label:<48} {floor:7.2f} s")
+        print(f"(cores: {cores})")
+        for name, command in (("closedform --help", ["--help"]),
+                              ("closedform --version", ["--version"]),
+                              ("an input error (missing case file)",
+                               ["derive", str(folder / "missing.toml")])):
+            report(name, measure([PYTHON, *cli, *command], repeat), floor, 0.3,
+                   expected_code=2 if command[0] == "derive" else 0)
+        report("record spectrum 4000 samples × 200 periods",
+               measure([PYTHON, *cli, "spectrum", "--record", str(record), "--damping-ratio",
+                        "0.05", "--periods", "0.02:5:200", "--json", "-"], repeat), floor, 2)
+        single = ROOT / "worked_cases" / "drop-hammer-skid.toml"
+        report(f"derive+verify {single.name} --json -",
+               measure([PYTHON, *cli, "derive", str(single), "--json", "-"], repeat), floor, 2)
+        report("derive+verify 1000-segment table --json -",
+               measure([PYTHON, *cli, "derive", str(history_1000), "--json", "-"], repeat),
+               floor, 4, memory_target=None)
+        cases = sorted((ROOT / "worked_cases").glob("*.toml"))
+        singles = 0.0
+        for case in cases:
+            singles += measure([PYTHON, *cli, "derive", str(case), "-o",
+                                str(folder / "single" / case.stem), "--format", "md"],
+                               1)["wall"]
+        appendix = measure([PYTHON, *cli, "appendix", str(ROOT / "worked_cases"), "-o",
+                            str(folder / "appendix"), "--format", "md"], 1)
+        print(f"{'sum of single derive -o --format md (' + str(len(cases)) + ' cases)':<48} "
+              f"{singles:7.2f} s; / {cores} cores = {singles / cores:.2f} s")
+        report("appendix of all worked cases (md)", appendix, floor, 1.3,
+               unit="(sum of singles / cores)", reference=singles / cores)
+        if not arguments.skip_long:
+            # 10 000 points (the most a table takes): 9 999 segments between them
+            history_10000 = write_history(folder, 9999)
+            report("derive+verify 10 000-point table --json -",
+                   measure([PYTHON, *cli, "derive", str(history_10000), "--json", "-",
+                            "--time-budget", "3600"], 1), floor, 30, memory_target=400)
+
+
+if __name__ == "__main__":
+    main()
