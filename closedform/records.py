@@ -47,6 +47,7 @@ NEWTON_STEPS = 8             # Newton steps for a root of u′ inside its bracke
 MAP_TOLERANCE = 1e-10        # closed-form map against the matrix exponential (relative)
 MAP_CONDITION = 1e-14        # plus this over (ωh)², the cancellation in Γ₁ for short steps
 GROUP_TOLERANCE = 1e-12      # segment lengths equal to this (relative) share one map
+SHORTEST_PERIOD = 1 / 500    # of the longest segment: at most ~1000 half-waves a segment
 
 
 @dataclass(frozen=True)
@@ -390,6 +391,11 @@ def record_spectrum(record: Record, damping_ratio: float, periods: numpy.ndarray
         raise ValueError("the damping ratio must be at least 0 and below 1")
     zeta = float(damping_ratio)
     periods = numpy.asarray(periods, dtype=float)
+    longest = float(numpy.max(numpy.diff(record.times)))
+    if periods.min() < SHORTEST_PERIOD * longest:
+        raise CaseError(f"the shortest period, {periods.min():g} s, is below 1/500 of the longest "
+                        f"sampling interval of the record ({longest:g} s); at such periods the "
+                        f"pseudo-acceleration is the peak ground acceleration", file="--periods")
     w = 2 * math.pi / periods
     t, a = record.times, record.accelerations
     steps = numpy.diff(t)

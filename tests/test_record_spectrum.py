@@ -323,3 +323,13 @@ def test_bad_record_input_gives_one_line_and_exit_2(tmp_path, capsys, content, a
     assert code == 2
     assert captured.out == ""
     assert captured.err.strip().splitlines() == [message.format(file=path)]
+
+
+def test_periods_far_below_the_sampling_interval_are_refused(tmp_path, capsys):
+    path = tmp_path / "r.csv"
+    path.write_text("0, 0\n0.01, 1\n0.02, 0\n")
+    assert main(["spectrum", "--record", str(path), "--periods", "1e-5,1"]) == 2
+    assert capsys.readouterr().err.strip() == (
+        "--periods: the shortest period, 1e-05 s, is below 1/500 of the longest sampling "
+        "interval of the record (0.01 s); at such periods the pseudo-acceleration is the peak "
+        "ground acceleration")
