@@ -25,6 +25,11 @@ that exact ratio, its transform has the double pole, and the limit form t·sin t
 the table — giving exactly π/2 for the half-sine, never a division by zero.
 
 Ratios are exact rationals (decimal text is read exactly), so resonance is found exactly.
+
+Every point is then checked independently (spectrum_check.py: another solution of the
+motion, a rigorous bound on |x| over the pulse and the free vibration, the earliest-time rule
+and the residual); a point that fails makes the spectrum's status "failed". Ratios are
+accepted in spectrum_check.RATIO_RANGE (10⁻⁶ … 10⁴).
 """
 
 from __future__ import annotations
