@@ -87,9 +87,14 @@ class RecordSpectrum:
         return 2 * math.pi / self.periods
 
     def points(self) -> list[dict]:
+        """One dict per period (SI); a value that is not finite is None (strict JSON)."""
+        def finite(value) -> float | None:
+            value = float(value)
+            return value if math.isfinite(value) else None
+
         w = self.omega
-        return [{"period": float(T), "displacement": float(d), "pseudo_velocity": float(wi * d),
-                 "pseudo_acceleration": float(wi * wi * d), "absolute_acceleration": float(a)}
+        return [{"period": float(T), "displacement": finite(d), "pseudo_velocity": finite(wi * d),
+                 "pseudo_acceleration": finite(wi * wi * d), "absolute_acceleration": finite(a)}
                 for T, d, wi, a in zip(self.periods, self.displacement, w,
                                        self.absolute_acceleration)]
 
@@ -117,9 +122,9 @@ class RecordSpectrum:
         writer.writerow(["period [s]", "displacement [m]", "pseudo_velocity [m/s]",
                          "pseudo_acceleration [m/s^2]", "absolute_acceleration [m/s^2]"])
         for p in self.points():
-            writer.writerow([f"{p[k]:.12g}" for k in ("period", "displacement", "pseudo_velocity",
-                                                      "pseudo_acceleration",
-                                                      "absolute_acceleration")])
+            writer.writerow(["" if p[k] is None else f"{p[k]:.12g}"
+                             for k in ("period", "displacement", "pseudo_velocity",
+                                       "pseudo_acceleration", "absolute_acceleration")])
         return buffer.getvalue()
 
 
@@ -384,6 +389,14 @@ def parse_periods(text: str) -> numpy.ndarray:
 
 def record_spectrum(record: Record, damping_ratio: float, periods: numpy.ndarray,
                     budget=None) -> RecordSpectrum:
+    """The spectrum at each period (s); an overflow gives non-finite peaks and the status
+    "failed" (the check "finite results"), never a warning or an exception."""
+    with numpy.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        return _record_spectrum(record, damping_ratio, periods, budget)
+
+
+def _record_spectrum(record: Record, damping_ratio: float, periods: numpy.ndarray,
+                     budget=None) -> RecordSpectrum:
     from .budget import Budget
 
     budget = budget or Budget(None, "record spectrum")

@@ -37,6 +37,7 @@ from __future__ import annotations
 import csv
 import io
 import json
+import math
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
@@ -160,8 +161,9 @@ class Spectrum:
             "shape": self.pulse.shape,
             **self.pulse.parameters(),
             "damping_ratio": float(self.damping_ratio),
-            "points": [{"ratio": float(p.ratio), "dlf": p.dlf,
-                        "peak_time_ratio": p.peak_time_ratio, "residual": p.residual,
+            "points": [{"ratio": float(p.ratio), "dlf": _finite(p.dlf),
+                        "peak_time_ratio": _finite(p.peak_time_ratio),
+                        "residual": _finite(p.residual),
                         "status": p.status,
                         "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
                                    for c in p.checks]}
@@ -169,7 +171,7 @@ class Spectrum:
         }
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2)
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
     def to_csv(self) -> str:
         """Comment lines saying what was computed, then one row per ratio; every column is a
@@ -190,6 +192,11 @@ class Spectrum:
             writer.writerow([_digits(float(p.ratio)), _digits(p.dlf), _digits(p.peak_time_ratio),
                              _digits(p.residual), p.status])
         return buffer.getvalue()
+
+
+def _finite(value: float) -> float | None:
+    """The value, or None where it is not finite (the JSON stays strict; the point fails)."""
+    return value if math.isfinite(value) else None
 
 
 def _digits(value: float) -> str:

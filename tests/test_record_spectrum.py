@@ -333,3 +333,13 @@ def test_periods_far_below_the_sampling_interval_are_refused(tmp_path, capsys):
         "--periods: the shortest period, 1e-05 s, is below 1/500 of the longest sampling "
         "interval of the record (0.01 s); at such periods the pseudo-acceleration is the peak "
         "ground acceleration")
+
+
+def test_a_non_finite_peak_fails_and_the_json_stays_strict():
+    """An overflowing record (1e307 m/s²) on a long period: status failed, JSON null."""
+    record = Record(numpy.array([0.0, 1.0, 2.0]), numpy.array([0.0, 1e307, -1e307]), "huge")
+    spectrum = record_spectrum(record, 0.05, numpy.array([50.0]))
+    assert spectrum.status == "failed"
+    text = spectrum.to_json()
+    assert "NaN" not in text and "Infinity" not in text
+    json.loads(text)
