@@ -219,6 +219,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
             checks = tuple(verify(partial))
         with budget.stage("energy balance"):
             checks += tuple(energy_checks(partial))
+        with budget.stage("re-reading the printed equations"):
+            from .render import printed_equation_check
+            checks += (printed_equation_check(partial),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window))
 

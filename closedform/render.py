@@ -33,7 +33,7 @@ import jinja2
 import mpmath
 import sympy
 
-from . import __version__, plots, quantities
+from . import __version__, plots, quantities, reread
 from .errors import CaseError, ClosedformError
 
 FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
@@ -558,6 +558,162 @@ class Units:
         return si, inline(with_unit(number(converted), unit.text))
 
 
+# ----------------------------------------------------------------------------- re-reading
+
+
+def _mp(value: Any) -> Any:
+    """A sympy number as mpmath (real or complex), at the re-reading precision."""
+    value = sympy.N(sympy.sympify(value), reread.WORKING_DIGITS)
+    if value.free_symbols:
+        raise reread.Unreadable(f"symbols left without values: {value.free_symbols}")
+    real, imaginary = value.as_real_imag()
+    with mpmath.workdps(reread.WORKING_DIGITS):
+        if imaginary == 0:
+            return mpmath.mpf(sympy.Float(real, reread.WORKING_DIGITS)._mpf_)
+        return mpmath.mpc(sympy.Float(real, reread.WORKING_DIGITS)._mpf_,
+                          sympy.Float(imaginary, reread.WORKING_DIGITS)._mpf_)
+
+
+def _magnitude(numeric) -> Callable[[Any], Any]:
+    """Σ |c u^p e^{σu}| (1 + |σu| + |ωu|) over the rows of a numeric exponential polynomial:
+    the size of the error that rounding each printed coefficient, rate and frequency to a
+    relative step can make at ``u``."""
+    def size(u):
+        total = mpmath.mpf(0)
+        for power, rate, frequency, _kind, coefficient in numeric.rows:
+            term = abs(coefficient) * abs(mpmath.power(u, power)) * abs(mpmath.exp(rate * u))
+            total += term * (1 + abs(rate * u) + abs(frequency * u) + power)
+        return total
+    return size
+
+
+class _EquationRecorder:
+    """Registers every displayed equation of a sheet with the derivation's value of it, so
+    that :func:`printed_equation_check` can read the printed line back and compare."""
+
+    POINTS = 23
+
+    def __init__(self, derivation) -> None:
+        case = derivation.case
+        self.values = dict(case.symbol_values())
+        for k, declaration in enumerate(case.symbols):
+            if declaration.value is None:       # symbols without values: sample values
+                self.values[declaration.symbol] = sympy.Rational(7 + 3 * k, 5 + k)
+        self.symbols = {sympy.latex(symbol): _mp(value) for symbol, value in self.values.items()}
+        self.records: list[reread.Printed] = []
+        with mpmath.workdps(reread.WORKING_DIGITS):
+            self.until = _mp(sympy.sympify(derivation.window.until).subs(self.values))
+            scale = derivation.model.slowest_time_scale()
+            scale = _mp(sympy.sympify(scale).subs(self.values)) if scale is not None else None
+            if not scale or scale <= 0:
+                scale = self.until / 5 if self.until > 0 else mpmath.mpf(1)
+            offset = mpmath.sqrt(2) - 1       # irrational: never a breakpoint
+            self.fractions = [(k + offset) / self.POINTS for k in range(self.POINTS)]
+            self.s_points = [mpmath.mpc(a, b) / scale for a in (0.31, 1.7, 4.3)
+                             for b in (-0.83, 0.29, 2.3)]
+
+    def _add(self, display, **fields) -> Any:
+        self.records.append(reread.Printed(display=display, symbols=self.symbols, **fields))
+        return display
+
+    def form(self, display):
+        return self._add(display, what="form", form=True)
+
+    def _function(self, expr: sympy.Expr, symbol: sympy.Symbol):
+        expr = sympy.sympify(expr).subs(self.values)
+        return sympy.lambdify(symbol, expr, modules="mpmath")
+
+    def of_s(self, what: str, expr: sympy.Expr, display):
+        from .laplace import s
+        return self._add(display, what=what, variable="s", points=self.s_points,
+                         reference=self._function(expr, s), pointwise=True)
+
+    def constant(self, what: str, value: sympy.Expr, display):
+        number_ = _mp(sympy.sympify(value).subs(self.values))
+        return self._add(display, what=what, reference=lambda _x: number_)
+
+    def time_function(self, what: str, polynomial, variable: str, display):
+        function = polynomial.numeric(self.values, digits=reread.WORKING_DIGITS)
+        points = [self.until * f for f in self.fractions]
+        return self._add(display, what=what, variable=variable, points=points,
+                         reference=function, magnitude=_magnitude(function), tolerance=1e-9)
+
+    def load_line(self, rewrite, display):
+        x = sympy.Symbol("x")
+        parts = []
+        impulses = []
+        for term in rewrite.terms:
+            at = _mp(sympy.sympify(term.at).subs(self.values))
+            if hasattr(term, "mode"):
+                parts.append((at, self._function(term.coefficient * term.mode.expression(x), x)))
+            else:
+                impulses.append((at, _mp(sympy.sympify(term.impulse).subs(self.values))))
+
+        def reference(t):
+            return sum((g(t - at) for at, g in parts if t > at), mpmath.mpf(0))
+
+        def magnitude(t):
+            return sum((abs(g(t - at)) for at, g in parts if t > at), mpmath.mpf(0))
+        points = [self.until * f for f in self.fractions]
+        return self._add(display, what=f"load line {rewrite.load_number}", variable="t",
+                         points=points, reference=reference, impulses=impulses,
+                         magnitude=magnitude)
+
+    def piece(self, number: int, piece, end, display, *, response_factor=1, time_factor=1,
+              tolerance: float = 1e-9, what: str = ""):
+        values = self.values
+        function = piece.numeric if getattr(piece, "numeric", None) is not None \
+            else piece.local.numeric(values, digits=reread.WORKING_DIGITS)
+        start = _mp(sympy.sympify(piece.start).subs(values))
+        length = _mp(sympy.sympify(end).subs(values)) - start
+        rf, tf = _mp(sympy.sympify(response_factor).subs(values)), \
+            _mp(sympy.sympify(time_factor).subs(values))
+        points = [length * f / tf for f in self.fractions]
+        size = _magnitude(function)
+        return self._add(display, what=f"interval {number}" + (f" {what}" if what else ""),
+                         variable=r"\hat{t}", points=points,
+                         reference=lambda local: function(local * tf) * rf,
+                         magnitude=lambda local: size(local * tf) * abs(rf), tolerance=tolerance)
+
+
+def printed_equation_check(derivation) -> "Check":
+    """Every displayed equation of the Markdown sheet read back from the printed text and
+    compared with the derivation at many points (see :mod:`closedform.reread`)."""
+    from .verify import Check
+
+    name = "printed equations re-read"
+    try:
+        context = sheet_context(derivation, "md")
+        context.update({"h1": Math("#"), "h2": Math("##"), "label_anchor": None})
+        text = make_environment("md").get_template("sheet.md.j2").render(context)
+        blocks = {}
+        problems = []
+        for record in context["printed"]:
+            block = _markdown_equation(record.display)
+            blocks[block] = record
+            if block not in text:
+                problems.append(f"{record.what}: not printed as recorded")
+                continue
+            problem = reread.compare(record, block)
+            if problem:
+                problems.append(problem)
+        printed = re.findall(r"^\$\$\n.*?\n\$\$$", text, flags=re.S | re.M)
+        unrecorded = [b for b in printed if b not in blocks]
+        if unrecorded:
+            problems.append(f"{len(unrecorded)} printed equation(s) without a record, first: "
+                            + " ".join(unrecorded[0].split())[:80])
+    except (reread.Unreadable, ValueError, ZeroDivisionError, TypeError) as error:
+        return Check(name, False, f"the sheet could not be re-read: {error}")
+    numeric = sum(1 for r in context["printed"] if not r.form)
+    if problems:
+        return Check(name, False, f"{len(problems)} printed line(s) disagree with the "
+                     f"derivation; first: {problems[0]}")
+    points = sum(max(len(r.points), 1) for r in context["printed"] if not r.form)
+    return Check(name, True, f"{numeric} displayed equations read back from the printed "
+                 f"text agree with the derivation at {points} points "
+                 f"({len(printed) - numeric} forms without numbers)")
+
+
 # ----------------------------------------------------------------------------- context
 
 
@@ -617,6 +773,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
 
     failed = [c for c in derivation.checks if not c.passed]
     status = derivation.status
+    check = _EquationRecorder(derivation)
 
     # the problem ---------------------------------------------------------------------
     parameters = []
@@ -687,8 +844,8 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
                 terms.append({"number": number, "at": inline(typeset(term.at)),
                               "coefficient": inline(typeset(term.coefficient)),
                               "basis": inline(typeset(term.mode.expression(u))),
-                              "latex": _singularity_term(term.coefficient, term.mode.expression(
-                                  t_symbol - term.at), shift) if written_out else None})
+                              "latex": _singularity_term(term.coefficient, term.mode, shift)
+                              if written_out else None})
             else:
                 terms.append({"number": number, "at": inline(typeset(term.at)),
                               "coefficient": inline(typeset(term.impulse)),
@@ -706,22 +863,25 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
             "start": typeset(min((t.at for t in rewrite.terms), key=_sort_time(units))
                              if rewrite.terms else 0),
             "terms": terms,
-            "sum": display(rf"{{{load_name}}}_{{{rewrite.load_number}}}(t)",
-                           [t["latex"] for t in terms]) if len(terms) <= TERMS_INLINE else None,
+            "sum": check.load_line(rewrite, display(
+                rf"{{{load_name}}}_{{{rewrite.load_number}}}(t)", [t["latex"] for t in terms]))
+            if len(terms) <= TERMS_INLINE else None,
         })
 
     # Laplace transform ------------------------------------------------------------------
     load_transform_name = rf"\mathcal{{L}}\{{{model.load_name}\}}(s)"
     transform_short = typeset(solution.transform) if solution.transform is not None else None
     transform = {
-        "polynomial": display("P(s)", [typeset(t) for t in ordered_terms(
-            model.characteristic_polynomial())]),
-        "initial": display("Q(s)", [typeset(t) for t in ordered_terms(solution.initial_numerator)]),
-        "load": display(load_transform_name, [typeset(t) for t in ordered_terms(
-            solution.load_transform)]) if solution.load_transform is not None else None,
+        "polynomial": check.of_s("P(s)", model.characteristic_polynomial(), display(
+            "P(s)", [typeset(t) for t in ordered_terms(model.characteristic_polynomial())])),
+        "initial": check.of_s("Q(s)", solution.initial_numerator, display(
+            "Q(s)", [typeset(t) for t in ordered_terms(solution.initial_numerator)])),
+        "load": check.of_s("the load transform", solution.load_transform, display(
+            load_transform_name, [typeset(t) for t in ordered_terms(solution.load_transform)]))
+        if solution.load_transform is not None else None,
         "terms": len(derivation.history.terms) + len(derivation.history.impulses),
         "scale": typeset(model.input_scale),
-        "full": Display(Math("X(s)"), (transform_short,))
+        "full": check.of_s("X(s)", solution.transform, Display(Math("X(s)"), (transform_short,)))
         if transform_short is not None
         and visible_width(transform_short) <= available_width("X(s)") else None,
         "poles": [inline(typeset(p.root())) + Math(escape(
@@ -736,7 +896,8 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     for i, kernel in enumerate(solution.kernels, start=1):
         name = "h" if kernel.mode is None else f"k_{{{i}}}"
         kernel_names[kernel.mode] = name
-        kernels.append(_inversion_context(kernel.inversion, name, u) | {
+        kernels.append(_inversion_context(kernel.inversion, name, u, check,
+                                          f"kernel {name}") | {
             "title": kernel.name,
             "pair": (inline(typeset(kernel.pair.time_function) + r" \;\leftrightarrow\; "
                             + typeset(kernel.pair.transform)) if kernel.pair else None),
@@ -744,7 +905,8 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         })
     free = None
     if solution.free is not None:
-        free = _inversion_context(solution.free, variable + r"_{0}", t_symbol)
+        free = _inversion_context(solution.free, variable + r"_{0}", t_symbol, check,
+                                  "free response")
 
     active = [(term.load_number, term.coefficient, term.at, kernel_names.get(term.mode, "?"))
               for term in derivation.history.terms]
@@ -781,8 +943,10 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
             "interval_shown": (Math(f"{start_shown} {escape('to')} {end_shown}")
                                if start_shown is not None and end_shown is not None else None),
             "local": inline(rf"\hat{{t}} = {shift}"),
-            "si": display(rf"{variable}(t)", grouped_terms(rows, local,
-                                                            available_width(rf"{variable}(t)"))),
+            "si": check.piece(i, piece, end, display(
+                rf"{variable}(t)", grouped_terms(rows, local, available_width(rf"{variable}(t)"))),
+                tolerance=1e-9 if any(sympy.sympify(c).has(sympy.Float)
+                                      for c in piece.local.terms.values()) else 1e-15),
             "shown": None,
         }
         if converted:
@@ -798,8 +962,10 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
             response_text = response_unit.text if response_unit else si_response_unit
             time_text = time_unit.text if time_unit else "s"
             shown_lhs = rf"{variable}(t)\,[{unit_latex(response_text) or '1'}]"
-            entry["shown"] = None if not shown_rows else display(
-                shown_lhs, grouped_terms(shown_rows, local, available_width(shown_lhs)))
+            entry["shown"] = None if not shown_rows else check.piece(
+                i, piece, end, display(shown_lhs, grouped_terms(shown_rows, local,
+                                                                available_width(shown_lhs))),
+                response_factor=rf, time_factor=tf, tolerance=1e-5, what="in report units")
             entry["shown_time"] = inline(rf"\hat{{t}}\,[{unit_latex(time_text)}]")
         pieces.append(entry)
         if len(derivation.pieces) > EXCERPT_LIMIT and i == EXCERPT_HEAD:
@@ -860,8 +1026,8 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         "section": section,
         "label": slug(stem),
         "model": case.system.model,
-        "equation": Math(model.equation),
-        "equation_values": _equation_with_values(model),
+        "equation": check.form(Math(model.equation)),
+        "equation_values": check.form(_equation_with_values(model)),
         "variable": inline(variable),
         "variable_name": Math(variable),
         "load_name": inline(rf"{model.load_name}(t)"),
@@ -897,6 +1063,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         if plotted else None,
         "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
+        "printed": check.records,
     }
 
 
@@ -972,13 +1139,23 @@ def _sort_time(units: Units):
     return key
 
 
-def _singularity_term(coefficient: sympy.Expr, basis: sympy.Expr, shift: str) -> str:
-    body = typeset(coefficient * basis)
+def _singularity_term(coefficient: sympy.Expr, mode, shift: str) -> str:
+    """c·g(t − a)·H(t − a) with g written in the shifted time (t − a) as one factor, so a
+    constant part of c·g can never stand outside its step."""
+    shifted = sympy.Symbol("__shifted")
+    basis = mode.expression(shifted)
     step = rf"H\!\left({shift}\right)"
-    if body == "1":
-        return step
-    if body == "-1":
-        return "-" + step
+    shown = shift if shift == "t" else rf"\left({shift}\right)"
+    basis_text = Math(sympy.latex(_rounded(basis), ln_notation=True,
+                                  symbol_names={shifted: shown})) if basis != 1 else ""
+    factor = _factor(coefficient)
+    parts = ([] if factor in ("1", "-1") or (factor == "1" and basis_text) else [factor]) \
+        + ([basis_text] if basis_text else [])
+    body = r"\,".join(parts)
+    if factor == "-1":
+        body = "-" + (body or "")
+    if body in ("", "-"):
+        return body + step
     return rf"{body}\,{step}"
 
 
@@ -994,7 +1171,8 @@ def _simple_fraction(coefficient: str, root: str, order: int) -> str:
     return rf"\frac{{{coefficient}}}{{(s - {root})^{{{order}}}}}"
 
 
-def _inversion_context(inversion, name: str, variable: sympy.Symbol) -> dict[str, Any]:
+def _inversion_context(inversion, name: str, variable: sympy.Symbol,
+                       check: _EquationRecorder, what: str) -> dict[str, Any]:
     """One inverse transform as the sheet shows it: the rational function, its partial
     fractions (roots, orders, coefficients) and the time function."""
     transform_name = rf"\mathcal{{L}}\{{{name}\}}"
@@ -1012,18 +1190,22 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol) -> dict[str
             "root": inline(rf"r_{{{index}}} = {typeset(fraction.root)}"),
             "order": fraction.order,
             "pair": fraction.is_pair,
-            "coefficient": display(lhs, terms or ["0"]),
+            "coefficient": check.constant(f"{what}: partial-fraction coefficient {index}",
+                                          fraction.coefficient, display(lhs, terms or ["0"])),
         })
     time_lhs = rf"{name}({sympy.latex(variable)})"
     return {
         "name": inline(name),
-        "transform": Display(Math(rf"{transform_name}(s)"),
-                             tuple(join_lines([typeset(inversion.transform.expression())],
-                                              available_width(f"{transform_name}(s)")))),
-        "fractions": display(rf"{transform_name}(s)", symbolic),
+        "transform": check.of_s(f"{what}: transform", inversion.transform.expression(), Display(
+            Math(rf"{transform_name}(s)"), tuple(join_lines(
+                [typeset(inversion.transform.expression())],
+                available_width(f"{transform_name}(s)"))))),
+        "fractions": check.form(display(rf"{transform_name}(s)", symbolic)),
         "roots": roots,
-        "time": display(time_lhs, grouped_terms(polynomial_rows(inversion.time_function),
-                                                variable, available_width(time_lhs))),
+        "time": check.time_function(f"{what}: time function", inversion.time_function,
+                                    sympy.latex(variable), display(
+            time_lhs, grouped_terms(polynomial_rows(inversion.time_function), variable,
+                                    available_width(time_lhs)))),
     }
 
 

@@ -329,7 +329,9 @@ def test_a_claimed_response_gets_the_same_checks_as_the_derivation(derive_case):
                           f'expr = "{last["expr"]}" }}]\n')
     (verdict,) = audit(claimed).verdicts
     assert verdict.confirmed, verdict.line()
-    assert [c.name for c in verdict.checks] == [c.name for c in derivation.checks]
+    sheet_only = {"printed equations re-read"}     # a check of our own sheet, not of the claim
+    assert [c.name for c in verdict.checks] == [c.name for c in derivation.checks
+                                                if c.name not in sheet_only]
     assert any(c.name.startswith("energy balance") for c in verdict.checks)
 
 
