@@ -31,7 +31,7 @@ from .errors import CaseError, DerivationError
 
 APPENDIX_FORMATS = ("md", "tex", "pdf")
 DOCUMENT_NAME = "appendix"
-STATUS_TEXT = {"verified": "checked", "failed": "FAILED", "not derived": "FAILED (not derived)"}
+STATUS_TEXT = {"verified": "verified", "failed": "FAILED", "not derived": "FAILED (not derived)"}
 
 
 @dataclass(frozen=True)

@@ -67,9 +67,22 @@ _LOAD_KEYS = {
     "formula": ("expr", "duration", "unit"),
 }
 _COMMON_LOAD_KEYS = ("shape", "at", "repeat", "label")
-_REPORT_KEYS = ("until", "units")
-_DISPLAY_QUANTITIES = ("displacement", "velocity", "acceleration", "force", "time", "voltage",
-                       "current", "response")
+_REPORT_KEYS = ("until", "units", "numbers", "digits", "paper")
+# [report] units: every quantity a sheet shows, with the dimension its unit must have
+# (None: the model's response, whatever it measures).
+_DISPLAY_DIMENSIONS = {
+    "displacement": "length", "velocity": "velocity", "acceleration": "acceleration",
+    "force": "force", "time": "time", "mass": "mass", "stiffness": "stiffness",
+    "damping": "damping", "moment": "energy", "pressure": "pressure", "voltage": "voltage",
+    "current": "current", "temperature": "temperature", "impulse": "impulse",
+    "energy": "energy", "charge": "charge", "resistance": "resistance",
+    "inductance": "inductance", "capacitance": "capacitance", "frequency": "frequency",
+    "power": "power", "response": None,
+}
+_DISPLAY_QUANTITIES = tuple(_DISPLAY_DIMENSIONS)
+NUMBER_STYLES = ("auto", "exact", "decimal")
+PAPER_SIZES = ("a4", "letter")
+DIGITS_RANGE = (2, 15)
 _INITIAL_KEYS = ("values", "displacement", "velocity")
 # Claim names are the result names of the JSON result, known only once the case is derived
 # (closedform.claims checks them then); here a claim key must merely look like one.
@@ -182,6 +195,9 @@ class LoadSpec:
 class ReportSpec:
     until: sympy.Expr | None
     units: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
+    numbers: str = "auto"       # auto | exact | decimal: how the sheet prints numbers
+    digits: int = 6             # significant digits of decimals on the sheet
+    paper: str = "a4"           # a4 | letter
 
 
 @dataclass(frozen=True)
@@ -448,7 +464,7 @@ class _Reader:
                       for i, item in enumerate(loads_data, start=1))
         self.breakpoint_limit(loads)
         initial = self.initial(data.get("initial"), system)
-        report = self.report(self.table(data.get("report", {}), "report"))
+        report = self.report(self.table(data.get("report", {}), "report"), system)
         claims = self.table(data.get("claims", {}), "claims")
         for name in claims:
             if not _CLAIM_NAME_RE.fullmatch(name):
@@ -965,7 +981,7 @@ class _Reader:
             result[1] = self.quantity(data["velocity"], dimensions[1], "initial.velocity")
         return tuple(result)
 
-    def report(self, data: Mapping[str, Any]) -> ReportSpec:
+    def report(self, data: Mapping[str, Any], system: SystemSpec | None = None) -> ReportSpec:
         self.check_keys(data, _REPORT_KEYS, "report")
         until = None
         if "until" in data:
@@ -979,12 +995,46 @@ class _Reader:
                 if not isinstance(unit, str):
                     raise self.error(f"report.units.{name}", f"expected a unit string, got {_toml_type(unit)}")
                 try:
-                    quantities.unit_factor(unit, key=f"report.units.{name}")
+                    _factor, dimension = quantities.unit_factor(unit, key=f"report.units.{name}")
                 except CaseError as error:
                     raise error.located(file=self.file, key=f"report.units.{name}",
                                         line=self.line_of(f"report.units.{name}"))
+                wanted = _DISPLAY_DIMENSIONS[name]
+                expected = (quantities.dimension(wanted) if wanted is not None
+                            else system.response_dimension if system is not None else None)
+                if expected is not None and dimension != expected:
+                    raise self.error(
+                        f"report.units.{name}",
+                        f"unit {unit!r} measures {quantities.describe(dimension)}, not "
+                        f"{quantities.describe(expected)} (expected a unit such as "
+                        f"{quantities.si_unit_text(expected)})")
                 units[name] = unit
-        return ReportSpec(until, MappingProxyType(units))
+        numbers = data.get("numbers", "auto")
+        if numbers not in NUMBER_STYLES:
+            raise self.error("report.numbers", f"expected one of {', '.join(NUMBER_STYLES)}, "
+                                               f"got {_shown_value(numbers)}")
+        digits = data.get("digits", 6)
+        if isinstance(digits, bool) or not isinstance(digits, int) \
+                or not DIGITS_RANGE[0] <= digits <= DIGITS_RANGE[1]:
+            raise self.error("report.digits", f"expected a whole number of significant digits "
+                                              f"from {DIGITS_RANGE[0]} to {DIGITS_RANGE[1]}, "
+                                              f"got {_shown_value(digits)}")
+        paper = data.get("paper", "a4")
+        if paper not in PAPER_SIZES:
+            raise self.error("report.paper", f"expected one of {', '.join(PAPER_SIZES)}, "
+                                             f"got {_shown_value(paper)}")
+        return ReportSpec(until, MappingProxyType(units), numbers, digits, paper)
+
+
+def _shown_value(value: Any) -> str:
+    """A TOML value as a message shows it: strings quoted, others by their TOML type."""
+    if isinstance(value, str):
+        return repr(value[:40])
+    if isinstance(value, bool):
+        return str(value).lower()
+    if isinstance(value, int):
+        return str(value)
+    return _toml_type(value)
 
 
 def _function_names() -> tuple[str, ...]:

@@ -142,15 +142,21 @@ def transform_of_mode(mode: Mode) -> tuple[RationalTransform, TablePair]:
     return transform, pair
 
 
+def _power_name(power: int) -> str:
+    return "t" if power == 1 else f"t^{power}"
+
+
 def _pair_name(mode: Mode) -> str:
     if mode.frequency == 0:
         if mode.rate == 0:
-            return "unit step" if mode.power == 0 else f"power t^{mode.power}"
-        return "exponential" if mode.power == 0 else f"t^{mode.power} times exponential"
+            return "unit step" if mode.power == 0 else (
+                "unit ramp t" if mode.power == 1 else f"power t^{mode.power}")
+        return "exponential" if mode.power == 0 else \
+            f"{_power_name(mode.power)} times exponential"
     base = "sine" if mode.kind == SIN else "cosine"
     if mode.rate != 0:
         base = "damped " + base
-    return base if mode.power == 0 else f"t^{mode.power} times {base}"
+    return base if mode.power == 0 else f"{_power_name(mode.power)} times {base}"
 
 
 def _pair_source(mode: Mode) -> str:

@@ -95,6 +95,7 @@ CHARGE = CURRENT * TIME
 ENERGY = FORCE * LENGTH
 POWER = ENERGY / TIME
 PRESSURE = FORCE / LENGTH ** 2
+TEMPERATURE = _make(temperature=1)
 
 #: Every named dimension, by the name :func:`dimension` accepts.
 DIMENSIONS: Mapping[str, Dimension] = MappingProxyType({
@@ -103,7 +104,7 @@ DIMENSIONS: Mapping[str, Dimension] = MappingProxyType({
     "velocity": VELOCITY, "acceleration": ACCELERATION, "impulse": IMPULSE,
     "voltage": VOLTAGE, "resistance": RESISTANCE, "inductance": INDUCTANCE,
     "capacitance": CAPACITANCE, "frequency": FREQUENCY, "charge": CHARGE,
-    "energy": ENERGY, "power": POWER, "pressure": PRESSURE,
+    "energy": ENERGY, "power": POWER, "pressure": PRESSURE, "temperature": TEMPERATURE,
 })
 
 # How each named dimension reads in a message and which SI unit labels it.
@@ -114,13 +115,35 @@ _DESCRIPTIONS = {
     IMPULSE: "force*time", VOLTAGE: "voltage", RESISTANCE: "resistance",
     INDUCTANCE: "inductance", CAPACITANCE: "capacitance", FREQUENCY: "1/time",
     CHARGE: "charge", ENERGY: "energy", POWER: "power", PRESSURE: "force/length^2",
+    TEMPERATURE: "temperature",
 }
 _SI_UNITS = {
     DIMENSIONLESS: "1", TIME: "s", MASS: "kg", LENGTH: "m", CURRENT: "A", FORCE: "N",
     STIFFNESS: "N/m", DAMPING: "N*s/m", VELOCITY: "m/s", ACCELERATION: "m/s^2",
     IMPULSE: "N*s", VOLTAGE: "V", RESISTANCE: "ohm", INDUCTANCE: "H", CAPACITANCE: "F",
     FREQUENCY: "1/s", CHARGE: "C", ENERGY: "J", POWER: "W", PRESSURE: "Pa",
+    TEMPERATURE: "K",
+    # rates and other derived forms, as the trades write them
+    PRESSURE / TIME: "Pa/s", PRESSURE * TIME: "Pa*s", FORCE / TIME: "N/s",
+    ACCELERATION / TIME: "m/s^3", VOLTAGE / TIME: "V/s", CURRENT / TIME: "A/s",
+    TEMPERATURE / TIME: "K/s", POWER / TIME: "W/s", ENERGY * TIME: "J*s",
+    VOLTAGE * TIME: "V*s", STIFFNESS / TIME: "N/(m*s)", PRESSURE / LENGTH: "Pa/m",
+    ACCELERATION * TIME: "m/s", TEMPERATURE * TIME: "K*s", CURRENT * TIME ** 2: "C*s",
 }
+
+# Unit characters outside ASCII that the trades write, and the ASCII pint reads.
+_UNIT_CHARACTERS = (("°C", "delta_degC"), ("°F", "delta_degF"), ("°", "deg"), ("Ω", "ohm"),
+                    ("\u2126", "ohm"), ("·", "*"), ("⋅", "*"))
+_MICRO_RE = re.compile(r"[µμ](?=[A-Za-zΩ\u2126])")
+
+
+def ascii_unit(text: str) -> str:
+    """A unit text with µ/μ (micro, before a unit name), Ω (ohm), ° (degree; °C and °F as
+    temperature differences) and the middle dot spelled the way pint reads them."""
+    text = _MICRO_RE.sub("u", text)
+    for character, spelled in _UNIT_CHARACTERS:
+        text = text.replace(character, spelled)
+    return text
 
 
 def dimension(name: str) -> Dimension:
@@ -343,7 +366,7 @@ def unit_factor(unit_text: str, *, key: str | None) -> tuple[sympy.Expr, Dimensi
         raise ExpressionError(f"not a unit (expected text, got {type(unit_text).__name__})",
                               key=key)
     try:
-        return _unit_lookup(unit_text.strip(" \t"))
+        return _unit_lookup(ascii_unit(unit_text.strip(" \t")))
     except _UnitProblem as problem:
         raise ExpressionError(str(problem), key=key) from None
 
@@ -585,7 +608,7 @@ def parse_quantity(value: Any, *, expected: Dimension | str,
         # The shortest repr is the decimal the author wrote, so 0.02 stays exactly 1/50.
         text = repr(value)
     else:
-        text = value
+        text = ascii_unit(value)
     if not isinstance(value, str):
         number = parse_number(text, key=key)
         if expected != DIMENSIONLESS:

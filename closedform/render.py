@@ -304,7 +304,27 @@ def number(value: float | None, digits: int = REPORT_DIGITS) -> Math | None:
     return Math(text)
 
 
-_UNIT_TOKEN = re.compile(r"[A-Za-z_]+|\d+(?:\.\d+)?|\S")
+_UNIT_TOKEN = re.compile(r"g0\b|[A-Za-z_µμΩ°]+|\d+(?:\.\d+)?|\S")
+# Units written with a "u" for micro ("us", "uF") print with the micro sign.
+_MICRO_UNITS = {"s", "m", "g", "A", "V", "F", "H", "W", "J", "N", "Pa", "C", "K", "ohm", "in",
+                "L", "l"}
+
+
+def _unit_name_latex(name: str) -> str:
+    """One unit name (with its prefix) as upright LaTeX: µs, kΩ, °C, not us, kohm, degC."""
+    if name == "g0":
+        return r"\mathrm{g}_{0}"
+    for micro in ("µ", "μ"):
+        name = name.replace(micro, "u") if name.startswith(micro) else name
+    if name.startswith("u") and name[1:] in _MICRO_UNITS:
+        return r"\mu" + _unit_name_latex(name[1:])
+    for ohm in ("ohm", "Ω"):
+        if name.endswith(ohm):
+            prefix = name[:-len(ohm)]
+            return (r"\mathrm{" + prefix + "}" if prefix else "") + r"\Omega"
+    if name.startswith("°"):
+        return r"{}^{\circ}" + (r"\mathrm{" + name[1:] + "}" if name[1:] else "")
+    return r"\mathrm{" + name.replace("_", r"\_") + "}"
 
 
 def unit_latex(unit: str) -> str:
@@ -336,10 +356,8 @@ def unit_latex(unit: str) -> str:
             tokens[i + 1] = "^"
         elif token in ("*", "."):
             out.append(r"\,")
-        elif token == "ohm":
-            out.append(r"\Omega")
-        elif token[0].isalpha() or token[0] == "_":
-            out.append(r"\mathrm{" + token.replace("_", r"\_") + "}")
+        elif token[0].isalpha() or token[0] in "_°":
+            out.append(_unit_name_latex(token))
         elif token[0].isdigit() or token in "/()-":
             out.append(token)
         i += 1
@@ -552,7 +570,7 @@ class Units:
         else:
             si = inline(with_unit(decimal, si_unit))
         unit = self.unit_for(dimension, prefer)
-        if unit is None or unit.text.strip() == si_unit:
+        if unit is None:
             return si, None
         converted = numeric / float(sympy.N(unit.factor, 30))
         return si, inline(with_unit(number(converted), unit.text))
@@ -1013,7 +1031,8 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         "suffix": "" if section else ".",
         "title_prefix": "" if derivation.passed else "FAILED — do not use: ",
         "title": case.title,
-        "reference": case.reference or None,
+        "reference": (Math(r"\mbox{" + latex_escape(case.reference) + "}") if target == "tex"
+                      else case.reference) if case.reference else None,
         "case_file": Path(case.source).name,
         "sha256": case.sha256 or None,
         "version": __version__,
@@ -1055,14 +1074,14 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         "window_note": derivation.window.note,
         "results": rows,
         "results_available": peak is not None,
-        "static_gain": inline(rf"b/a_0 = {_factor(model.input_scale)} / "
-                              rf"{_factor(model.coefficients[-1])}"),
+        "static_gain": _static_gain(model.input_scale, model.coefficients[-1]),
         "peak_label": peak_label,
         "figures": {"load": Math(figure_name(stem, "load", figure_suffix)),
                     "response": Math(figure_name(stem, "response", figure_suffix))}
         if plotted else None,
         "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
+        "paper": case.report.paper,
         "printed": check.records,
     }
 
@@ -1159,6 +1178,17 @@ def _singularity_term(coefficient: sympy.Expr, mode, shift: str) -> str:
     return rf"{body}\,{step}"
 
 
+def _static_gain(b: sympy.Expr, a0: sympy.Expr) -> Math:
+    """b/a_0 as the sheet states it: the ratio, with b and a_0 shown only where they are
+    not already the ratio (no "1/1")."""
+    if a0 == 0:
+        return inline(r"b/a_0")
+    ratio = sympy.simplify(b / a0)
+    if a0 == 1 or b == 1 or b == ratio:
+        return inline(rf"b/a_0 = {typeset(ratio)}")
+    return inline(rf"b/a_0 = {_factor(b)} / {_factor(a0)} = {typeset(ratio)}")
+
+
 def _impulse_term(impulse: sympy.Expr, shift: str) -> str:
     body = typeset(impulse)
     delta = rf"\delta\!\left({shift}\right)"
@@ -1234,9 +1264,29 @@ def _field_rows(key: str, value: Any, units: Units, escape) -> list[dict[str, An
         for i, item in enumerate(value, start=1):
             label = f"{name}, load {item['load']}" if "load" in item else f"{name} {i}"
             rest = {k: v for k, v in item.items() if k != "load"}
-            rows.append({"name": label, **_field_text(rest, units, escape)})
+            rows.extend(_mapping_rows(label, rest, units, escape))
         return rows
+    if isinstance(value, Mapping):
+        return _mapping_rows(name, value, units, escape)
     return [{"name": name, **_field_text(value, units, escape)}]
+
+
+SPLIT_PARTS = 3     # a result with more parts than this gets one row per part
+
+
+def _mapping_rows(label: str, value: Mapping, units: Units, escape) -> list[dict[str, Any]]:
+    """One row for a short mapping (or a value at a time), else a row per part."""
+    parts = [k for k in value if k != "unit" and not k.endswith("_unit")]
+    if len(parts) <= SPLIT_PARTS or ("value" in value and "time" in value):
+        return [{"name": label, **_field_text(value, units, escape)}]
+    own_unit = value.get("unit") if isinstance(value.get("unit"), str) else None
+    rows = []
+    for k in parts:
+        part_unit = value.get(f"{k}_unit") if isinstance(value.get(f"{k}_unit"), str) else (
+            "s" if k in TIME_KEYS else own_unit if k in VALUE_KEYS else None)
+        rows.append({"name": f"{label}: {k.replace('_', ' ')}",
+                     **_field_text(value[k], units, escape, part_unit)})
+    return rows
 
 
 def _field_text(value: Any, units: Units, escape, unit: str | None = None) -> dict[str, Any]:
@@ -1314,6 +1364,7 @@ def render_markdown(derivation, *, stem: str | None = None, section: int | None 
     return make_environment("md").get_template("sheet.md.j2").render(context)
 
 
+PAPER_OPTIONS = {"a4": "a4paper", "letter": "letterpaper"}
 LATEX_PACKAGES = ("amsmath", "amssymb", "booktabs", "longtable", "array", "graphicx")
 
 
@@ -1335,7 +1386,8 @@ def render_latex(derivation, standalone: bool = True, *, stem: str | None = None
         return body
     return environment.get_template("document.tex.j2").render(
         {"preamble": Math(latex_preamble()), "body": Math(body), "title": context["title"],
-         "status": context["status"], "label": context["label"]})
+         "status": context["status"], "label": context["label"],
+         "paper": Math(PAPER_OPTIONS[context["paper"]])})
 
 
 def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:

@@ -595,7 +595,8 @@ def _coverage_check(problem: Any, values: Mapping,
             problems.append(f"the last piece starts at or after until = {_short(until)} s")
         if problems:
             return False, "; ".join(problems)
-        return True, f"{len(pieces)} pieces on [0, {_short(until)}] s, end to end"
+        count = f"{len(pieces)} piece" + ("" if len(pieces) == 1 else "s")
+        return True, f"{count} on [0, {_short(until)}] s, end to end"
     return _guard("pieces cover the analysis window", run)
 
 

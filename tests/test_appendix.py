@@ -77,7 +77,7 @@ def test_appendix_writes_one_document_with_contents_summary_and_sections(cases, 
     md = (out / "appendix.md").read_text(encoding="utf-8")
     lines = md.splitlines()
     assert lines[0] == "# Appendix: transient-response derivations"
-    assert lines[2] == "**Status: CHECKED — all 2 cases passed every independent check.**"
+    assert lines[2] == "**Status: VERIFIED — all 2 cases passed every independent check.**"
     assert "1. [Tap on a lag & its 100% reading](#case-a-tap)" in md
     assert "2. [Step on a spring-mass](#case-b-step)" in md
     assert md.index("## Contents") < md.index("## Summary") < md.index("## 1. Tap on a lag")

@@ -55,7 +55,7 @@ def test_the_summary_counts_the_claims_and_each_audited_case_shows_its_verdicts(
     assert "| Section | Case | Reference | Peak | DLF | Claims | Status |" in markdown
     rows = [row for row in markdown.splitlines() if row.startswith("| [")]
     assert "| **1 confirmed, 1 refuted** |" in rows[0]
-    assert rows[1].endswith("| — | checked |")          # no claims
+    assert rows[1].endswith("| — | verified |")          # no claims
     assert "### Claims audited for section 1: 1 confirmed, 1 refuted" in markdown
     assert "| 2 | static | 0.025 m | 0.02 m | $0.25$ | $0.005$ | **REFUTED** |" in markdown
     tex = (out / "appendix.tex").read_text()

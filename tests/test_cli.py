@@ -64,7 +64,7 @@ def test_derive_writes_sheet_and_json_into_the_folder(tmp_path):
                                                      "skid.json", "skid.md"]
     sheet = (out / "skid.md").read_text()
     assert sheet.splitlines()[0] == "# Hammer on a skid"
-    assert "CHECKED" in "\n".join(sheet.splitlines()[:4])
+    assert "VERIFIED" in "\n".join(sheet.splitlines()[:4])
     assert "does not replace" in sheet
 
 

@@ -104,7 +104,7 @@ def test_sheet_states_header_assumptions_and_caution():
     md = sheets("drop-hammer-skid")["md"]
     lines = md.splitlines()
     assert lines[0] == "# Drop-hammer blow on an instrument skid"
-    assert lines[2].startswith("**Status: CHECKED")
+    assert lines[2].startswith("**Status: VERIFIED")
     assert "| Reference | CF-DEMO-001 |" in md
     assert "| Case file | drop-hammer-skid.toml |" in md
     assert f"| Tool | closedform {closedform.__version__} |" in md
@@ -236,17 +236,17 @@ def test_failed_derivation_starts_with_the_failure():
     md = render.render_markdown(derivation)
     lines = md.splitlines()
     assert lines[0] == "# FAILED — do not use: Drop-hammer blow on an instrument skid"
-    assert lines[2] == ("**FAILED — 1 of 1 independent checks did not pass. Do not use this "
+    assert lines[2] == ("**Status: FAILED — 1 of 1 independent checks did not pass. Do not use this "
                         "result.**")
     assert lines[4] == r"- FAILED: ode residual on (0, 0.02) — max \|residual\|/scale = 3e-4"
-    assert "CHECKED" not in md
+    assert "VERIFIED" not in md
     tex = render.render_latex(derivation, standalone=True)
     assert tex.startswith("% closedform derivation sheet: FAILED, do not use\n")
     body = tex[tex.index(r"\begin{document}"):]
     assert body.splitlines()[1] == (r"\section{FAILED --- do not use: Drop-hammer blow on an "
                                     r"instrument skid}\label{case:drop-hammer-skid}")
-    assert r"\textbf{FAILED --- 1 of 1 independent checks did not pass. Do not use this result.}" in body
-    assert "CHECKED" not in tex
+    assert r"\textbf{Status: FAILED --- 1 of 1 independent checks did not pass. Do not use this result.}" in body
+    assert "VERIFIED" not in tex
 
 
 def test_derivation_without_checks_is_not_shown_as_checked():
@@ -254,7 +254,7 @@ def test_derivation_without_checks_is_not_shown_as_checked():
     md = render.render_markdown(derivation)
     assert md.startswith("# FAILED — do not use:")
     assert "no independent check was run" in md
-    assert "CHECKED" not in md
+    assert "VERIFIED" not in md
 
 
 # ----------------------------------------------------------------------------- reproducibility

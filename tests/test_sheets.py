@@ -144,7 +144,7 @@ def test_mutation_the_old_load_line_fails_the_sheet(monkeypatch):
     assert derivation.status == "failed"
     markdown = render.render_markdown(derivation)
     assert markdown.startswith("# FAILED — do not use: ")
-    assert "**FAILED" in markdown.splitlines()[2]
+    assert markdown.splitlines()[2].startswith("**Status: FAILED")
 
 
 def test_mutation_one_corrupted_interval_line_fails_the_sheet(monkeypatch):
@@ -204,3 +204,168 @@ def test_an_equation_printed_without_a_record_fails_the_sheet(monkeypatch):
     check = check_of(derive_text(RAMP))
     assert not check.passed
     assert "without a record" in check.detail
+
+
+# ----------------------------------------------------------------------------- 11.3: report units
+
+ISOLATOR = """
+title = "Equipment on isolators"
+reference = "T-US-1"
+[system]
+model = "spring-mass-damper"
+mass = "150 lb"
+stiffness = "4.5 kip/in"
+damping_ratio = 0.05
+[[load]]
+shape = "half-sine"
+amplitude = "2.4 kip"
+duration = "38 ms"
+[report]
+until = "0.3 s"
+units = { displacement = "in", force = "kip", time = "ms", mass = "lb", stiffness = "kip/in" }
+"""
+
+
+def run_cli(tmp_path, capsys, text, *extra):
+    from closedform.cli import main
+    case = tmp_path / "case.toml"
+    case.write_text(textwrap.dedent(text), encoding="utf-8")
+    code = main(["derive", str(case), *extra])
+    captured = capsys.readouterr()
+    return code, captured.out, captured.err
+
+
+@pytest.mark.parametrize("line, message", [
+    ('units = { displacement = "kg" }',
+     "case.toml:15: report.units.displacement: unit 'kg' measures mass, not length "
+     "(expected a unit such as m)"),
+    ('units = { stiffness = "kip" }',
+     "case.toml:15: report.units.stiffness: unit 'kip' measures force, not force/length "
+     "(expected a unit such as N/m)"),
+    ('units = { response = "s" }',
+     "case.toml:15: report.units.response: unit 's' measures time, not length "
+     "(expected a unit such as m)"),
+    ('units = { colour = "mm" }',
+     "case.toml:15: report.units.colour: unknown key 'colour' (expected one of: "
+     "displacement, velocity, acceleration, force, time, mass, stiffness, damping, moment, "
+     "pressure, voltage, current, temperature, impulse, energy, charge, resistance, "
+     "inductance, capacitance, frequency, power, response)"),
+    ('numbers = "fractions"',
+     "case.toml:15: report.numbers: expected one of auto, exact, decimal, got 'fractions'"),
+    ('digits = 30', "case.toml:15: report.digits: expected a whole number of significant "
+                    "digits from 2 to 15, got 30"),
+    ('digits = true', "case.toml:15: report.digits: expected a whole number of significant "
+                      "digits from 2 to 15, got true"),
+    ('paper = "a3"', "case.toml:15: report.paper: expected one of a4, letter, got 'a3'"),
+])
+def test_report_errors_are_located_input_errors(tmp_path, capsys, line, message):
+    text = ISOLATOR.replace(
+        'units = { displacement = "in", force = "kip", time = "ms", mass = "lb", '
+        'stiffness = "kip/in" }', line)
+    code, out, err = run_cli(tmp_path, capsys, text)
+    assert code == 2
+    assert err.strip().endswith(message), err
+    assert len(err.strip().splitlines()) == 1
+
+
+def test_parameters_show_in_their_report_units():
+    markdown = render.render_markdown(derive_text(ISOLATOR))
+    rows = {line.split("|")[1].strip(): line for line in markdown.splitlines()
+            if line.startswith("| mass") or line.startswith("| stiffness")}
+    assert r"$150\,\mathrm{lb}$" in rows["mass"]
+    assert r"$4.5\,\mathrm{kip}/\mathrm{in}$" in rows["stiffness"]
+
+
+@pytest.mark.parametrize("text, si", [
+    ("1 µs", "1/1000000"), ("1 μs", "1/1000000"), ("4.7 kΩ", "4700"), ("6.8 µH", "17/2500000"),
+    ("3 °C", "3"), ("90 °", "pi/2"), ("2 g0", "196133/10000"), ("5 kN·m", "5000"),
+])
+def test_unicode_units_are_read(text, si):
+    import sympy
+    from closedform import quantities
+    dimension = {"1 µs": "time", "1 μs": "time", "4.7 kΩ": "resistance",
+                 "6.8 µH": "inductance", "3 °C": "temperature", "90 °": "dimensionless",
+                 "2 g0": "acceleration", "5 kN·m": "energy"}[text]
+    value = quantities.parse_quantity(text, expected=dimension, names={}, name_dimensions={},
+                                      key="x")
+    # factors: 1 µs = 1e-6 s, 1 °C step = 1 K, 1° = pi/180 rad, g0 = 9.80665 m/s^2
+    # (BIPM, The International System of Units, 9th ed. (2019), tables 7-8 and CGPM 1901)
+    assert sympy.simplify(value - sympy.sympify(si)) == 0
+
+
+@pytest.mark.parametrize("unit, latex", [
+    ("us", r"\mu\mathrm{s}"), ("µs", r"\mu\mathrm{s}"), ("kΩ", r"\mathrm{k}\Omega"),
+    ("kohm", r"\mathrm{k}\Omega"), ("°C", r"{}^{\circ}\mathrm{C}"), ("g0", r"\mathrm{g}_{0}"),
+])
+def test_units_print_in_the_trades_form(unit, latex):
+    assert render.unit_latex(unit) == latex
+
+
+def test_derived_si_units_print_in_the_trades_form():
+    from closedform import quantities as q
+    assert q.si_unit_text(q.PRESSURE / q.TIME) == "Pa/s"
+    assert q.si_unit_text(q.FORCE / q.TIME) == "N/s"
+    assert q.si_unit_text(q.TEMPERATURE / q.TIME) == "K/s"
+
+
+def test_a_report_unit_equal_to_si_still_fills_its_cell():
+    text = RAMP.replace('until = "12 s"', 'until = "12 s"\nunits = { time = "s" }')
+    markdown = render.render_markdown(derive_text(text))
+    [row] = [line for line in markdown.splitlines() if line.startswith("| time of peak")]
+    assert row.rstrip().endswith(r"| $12\,\mathrm{s}$ |")
+
+
+# ----------------------------------------------------------------------------- 11.4: status words
+
+
+def test_one_status_vocabulary_across_sheet_json_and_console(tmp_path, capsys):
+    import json
+    code, out, err = run_cli(tmp_path, capsys, RAMP, "--json", "-")
+    assert code == 0 and json.loads(out)["status"] == "verified"
+    code, out, err = run_cli(tmp_path, capsys, RAMP)
+    assert "VERIFIED" in out
+    derivation = derive_text(RAMP)
+    markdown = render.render_markdown(derivation)
+    assert markdown.splitlines()[2].startswith("**Status: VERIFIED")
+    tex = render.render_latex(derivation)
+    assert r"\textbf{Status: VERIFIED}" in tex
+    assert "CHECKED" not in markdown and "CHECKED" not in tex
+
+
+# ----------------------------------------------------------------------------- 11.9: cosmetics
+
+
+def test_ramp_kernel_is_named_without_a_first_power():
+    markdown = render.render_markdown(derive_text(RAMP))
+    assert "t^1" not in markdown and "unit ramp t" in markdown
+
+
+def test_one_piece_is_not_called_pieces():
+    text = RAMP.replace('until = "12 s"', 'until = "5 s"')
+    markdown = render.render_markdown(derive_text(text))
+    assert r"1 piece on \[0, 5\] s" in markdown and "1 pieces" not in markdown
+
+
+def test_static_gain_is_not_written_as_one_over_one():
+    markdown = render.render_markdown(derive_text(RAMP))
+    assert "b/a_0 = 1$" in markdown and "1 / 1" not in markdown
+
+
+def test_impulse_idealization_gets_a_row_per_figure():
+    derivation = closedform.derive(closedform.load_case(WORKED / "panel-pressure-pulse.toml"))
+    markdown = render.render_markdown(derivation)
+    rows = [line for line in markdown.splitlines() if line.startswith("| impulse idealization")]
+    assert len(rows) >= 5
+    assert all(line.count(";") <= 1 for line in rows)
+
+
+def test_reference_is_never_broken_in_latex():
+    assert r"Reference & \mbox{T-US-1} \\" in render.render_latex(derive_text(ISOLATOR))
+
+
+@pytest.mark.parametrize("paper, option", [("a4", "a4paper"), ("letter", "letterpaper")])
+def test_paper_size(paper, option):
+    text = RAMP.replace('until = "12 s"', f'until = "12 s"\npaper = "{paper}"')
+    tex = render.render_latex(derive_text(text))
+    assert rf"\documentclass[10pt,{option}]{{article}}" in tex
+    assert rf"\usepackage[{option},margin=22mm]{{geometry}}" in tex
