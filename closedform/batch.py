@@ -111,12 +111,10 @@ def internal_error(shown: str, error: BaseException) -> str:
 
 
 def summary_line(derivation) -> str:
-    results = derivation.numbers
+    from .render import summary_figures
+
     parts = [f"{derivation.case.source}: {derivation.status.upper()}"]
-    if results.peak is not None:
-        parts.append(f"peak {results.peak.value:.6g} at t = {results.peak.time:.6g} s")
-    if results.dlf is not None:
-        parts.append(f"DLF {results.dlf:.4g}")
+    parts.extend(summary_figures(derivation))
     failed = [c.name for c in derivation.checks if not c.passed]
     if failed:
         parts.append(f"failed checks: {', '.join(failed)}")

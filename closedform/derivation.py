@@ -223,11 +223,18 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
             from .render import printed_equation_check
             checks += (printed_equation_check(partial),)
     return Derivation(case, model, history, window, solution, results, checks,
-                      window_warnings(case, window))
+                      window_warnings(case, window, results))
 
 
-def window_warnings(case: Case, window: Window) -> tuple[str, ...]:
-    """Loads that never act inside the analysis window (a warning, not an error)."""
+def _seconds(value: sympy.Expr) -> str:
+    return f"{float(value):.6g} s"
+
+
+def window_warnings(case: Case, window: Window, results: Results | None = None
+                    ) -> tuple[str, ...]:
+    """What an engineer must know before using the numbers (warnings, not errors): loads
+    outside the window, a window that ends before the loads do, a peak at the end of the
+    window or at t = 0, a damping ratio of 1 or more, a residual that cannot be given."""
     values = case.symbol_values()
     warnings = []
     for load in case.loads:
@@ -238,6 +245,37 @@ def window_warnings(case: Case, window: Window) -> tuple[str, ...]:
         if late.is_nonnegative:
             warnings.append(f"{case.source}: {load.key}: starts at or after the end of the "
                             "analysis window and does not act on it")
+    numeric = not case.symbols or case.is_fully_valued
+    until = sympy.sympify(window.until).subs(values)
+    end = sympy.sympify(last_load_end(case)).subs(values)
+    if numeric and not until.free_symbols and not end.free_symbols and case.loads:
+        if end > until and not any(
+                sympy.sympify(load.starts()[0]).subs(values) >= until for load in case.loads):
+            warnings.append(f"{case.source}: report.until: the analysis window ends at "
+                            f"{_seconds(until)}, before the last load ends at {_seconds(end)}; "
+                            "nothing after the window is covered (extend until)")
+        if end == until and results is not None and results.residual is None \
+                and case.system.model != "first-order":
+            warnings.append(f"{case.source}: report.until: the last load ends exactly at the "
+                            f"end of the analysis window ({_seconds(until)}), so no residual "
+                            "vibration after it is reported (extend until past the load)")
+    zeta = case.system.parameters.get("damping_ratio")
+    if zeta is not None and not sympy.sympify(zeta).subs(values).free_symbols \
+            and sympy.sympify(zeta).subs(values) >= 1:
+        shown = sympy.sympify(zeta).subs(values)
+        warnings.append(f"{case.source}: system.damping_ratio: {float(shown):g} is 1 or more "
+                        "(critically damped or overdamped, no oscillation); did you mean "
+                        f"{float(shown):g} % ({float(shown) / 100:g})?")
+    peak = results.peak if results is not None else None
+    if peak is not None and not until.free_symbols:
+        span = float(until)
+        if span > 0 and abs(peak.time - span) <= 1e-9 * span:
+            warnings.append(f"{case.source}: report.until: the peak sits at the end of the "
+                            f"analysis window (t = {_seconds(until)}); the response may still "
+                            "grow after it (extend until)")
+        elif peak.time == 0 and case.initial is not None and any(v != 0 for v in case.initial):
+            warnings.append(f"{case.source}: initial: the peak is the initial value at t = 0; "
+                            "the loads never drive the response past it")
     return tuple(warnings)
 
 

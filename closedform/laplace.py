@@ -35,9 +35,10 @@ SOURCES = {
     "damped cosine": f"{AS}, 29.3.27",
     "frequency shift": f"{AS}, 29.2.12",
     "time shift": f"{AS}, 29.2.13",
-    "multiplication by t^n": f"{AS}, section 29.2 (multiplication by t^n; number from memory)",
-    "impulse": "Kreyszig, Advanced Engineering Mathematics, 10th ed., section 6.4 (from memory)",
-    "derivatives": f"{AS}, section 29.2 (transform of derivatives; number from memory)",
+    # where no book section was checked, the identity itself is cited
+    "multiplication by t^n": "multiplication-by-t identity, L{t^n f(t)} = (−1)^n F⁽ⁿ⁾(s)",
+    "impulse": "sifting property of the Dirac delta, L{δ(t − a)} = e^(−as)",
+    "derivatives": "transform of derivatives, L{f′} = s F(s) − f(0) (integration by parts)",
     "heaviside expansion": f"{AS}, 29.2.20-29.2.21 (Heaviside expansion theorem)",
 }
 

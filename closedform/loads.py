@@ -19,9 +19,10 @@ from .errors import CaseError
 
 MACAULAY = ("Macaulay, 'Note on the deflection of beams', Messenger of Mathematics 48 (1919) "
             "129-130 (singularity functions)")
-SECOND_SHIFTING = ("Kreyszig, Advanced Engineering Mathematics, 10th ed., section 6.3 "
-                   "(unit step function, second shifting theorem; from memory)")
-DIRAC = "Kreyszig, Advanced Engineering Mathematics, 10th ed., section 6.4 (from memory)"
+# Where no book section was checked, the theorem itself is cited.
+SECOND_SHIFTING = ("time-shift (second shifting) theorem with the unit step, "
+                   "f(t − a)·H(t − a) ↔ e^(−as)·F(s)")
+DIRAC = "sifting property of the Dirac delta, ∫ g(t)·δ(t − a) dt = g(a)"
 
 RULES = {
     "step": ("step: A·H(t − a)", SECOND_SHIFTING),

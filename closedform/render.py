@@ -17,6 +17,7 @@ by its name only), fixed number formats and plot settings.
 
 from __future__ import annotations
 
+import contextvars
 import functools
 import os
 import re
@@ -32,6 +33,7 @@ from typing import Any
 import jinja2
 import mpmath
 import sympy
+from sympy.printing.latex import LatexPrinter
 
 from . import __version__, plots, quantities, reread
 from .errors import CaseError, ClosedformError
@@ -252,10 +254,23 @@ def _markdown_equation(equation: Display) -> Math:
                 + "\n\\end{aligned}\n$$")
 
 
+def _fitted(line: str, width: float) -> str:
+    """A display line that cannot be broken between terms (one term wider than the page,
+    as exact forms of non-round inputs can be) scaled down to the line width instead of
+    running off the page."""
+    if visible_width(line) <= width:
+        return line
+    return (r"\resizebox{\ifdim\width>0.78\linewidth 0.78\linewidth\else\width\fi}{!}"
+            r"{$\displaystyle " + line + "$}")
+
+
 def _latex_equation(equation: Display) -> Math:
     """A displayed equation for LaTeX: equation*, long ones in align* one line per row."""
     if not isinstance(equation, Display):
         return Math(f"\\begin{{equation*}}\n{Math(equation)}\n\\end{{equation*}}")
+    width = available_width(equation.lhs) * 1.1
+    equation = Display(equation.lhs, tuple(Math(_fitted(line, width)) for line in equation.lines),
+                       equation.note)
     note = rf" \qquad {equation.note}" if equation.note else ""
     if equation.single:
         return Math(f"\\begin{{equation*}}\n{equation.lhs} = {equation.lines[0]}{note}\n"
@@ -268,25 +283,119 @@ def _latex_equation(equation: Display) -> Math:
 # ----------------------------------------------------------------------------- typesetting
 
 
+@dataclass(frozen=True)
+class NumberStyle:
+    """How a sheet prints numbers ([report] numbers and digits).
+
+    ``exact``: exact forms everywhere, carried floats to DISPLAY_DIGITS; ``auto``: exact
+    forms while every integer in them has at most SHORT_DIGITS digits, decimals of
+    ``digits`` significant digits otherwise; ``decimal``: every non-integer number (and
+    every long integer) as a decimal of ``digits`` significant digits.
+    """
+
+    numbers: str = "exact"
+    digits: int = REPORT_DIGITS
+
+    @property
+    def rounds(self) -> bool:
+        return self.numbers != "exact"
+
+
+SHORT_DIGITS = 6        # auto: an exact form stays while its integers have at most this many digits
+_STYLE: contextvars.ContextVar[NumberStyle] = contextvars.ContextVar(
+    "closedform_number_style", default=NumberStyle())
+
+
+def _long_integer(value: int) -> bool:
+    return len(str(abs(int(value)))) > SHORT_DIGITS
+
+
+def is_short(expr: Any) -> bool:
+    """True when every rational in ``expr`` has a numerator and denominator of at most
+    SHORT_DIGITS digits (the rule for keeping an exact form in ``auto``)."""
+    expr = sympy.sympify(expr)
+    return not any(_long_integer(r.p) or _long_integer(r.q) for r in expr.atoms(sympy.Rational))
+
+
+def decimal_float(value: Any, digits: int) -> sympy.Float:
+    """``value`` rounded to ``digits`` significant decimal digits, held as a 30-digit Float
+    (so that binary rounding never moves the last printed digit)."""
+    return sympy.Float(f"{float(value):.{digits}g}", 30)
+
+
+def _decimal(value: sympy.Expr, digits: int) -> sympy.Expr:
+    number_ = sympy.N(value, 30)
+    real, imaginary = number_.as_real_imag()
+    real = decimal_float(real, digits) if real != 0 else sympy.S.Zero
+    if imaginary == 0:
+        return real
+    return real + sympy.I * decimal_float(imaginary, digits)
+
+
+def _shorten(expr: sympy.Expr, style: NumberStyle) -> sympy.Expr:
+    """Constants that the style prints as decimals replaced by Floats of ``digits`` digits
+    (auto: a constant with a long integer in it, as one decimal; decimal: every constant
+    but a short integer); exponents of powers stay exact (s^2, the square root's 1/2)."""
+    if not expr.free_symbols and expr.is_number:
+        if expr.is_Integer and not _long_integer(expr):
+            return expr
+        if expr.has(sympy.Float) and is_short(expr) and style.numbers == "auto":
+            return expr
+        if style.numbers == "decimal" or not is_short(expr):
+            return _decimal(expr, style.digits)
+        return expr
+    if expr.is_Atom or not expr.args:
+        return expr
+    if isinstance(expr, sympy.Pow):
+        exponent = expr.exp if expr.exp.is_Rational else _shorten(expr.exp, style)
+        return sympy.Pow(_shorten(expr.base, style), exponent)
+    return expr.func(*[_shorten(a, style) for a in expr.args])
+
+
 def _rounded(expr: sympy.Expr, digits: int = DISPLAY_DIGITS) -> sympy.Expr:
-    """Floats shown to at most ``digits`` significant digits (never more than they carry)."""
-    floats = {f: sympy.Float(f, min(digits, mpmath.libmp.prec_to_dps(f._prec)))
-              for f in expr.atoms(sympy.Float)}
-    return expr.xreplace(floats) if floats else expr
+    """The expression with the constants the style prints as decimals made Floats (the
+    printer rounds every Float to the digits it shows)."""
+    style = _STYLE.get()
+    return _shorten(expr, style) if style.rounds else expr
+
+
+def shown_digits(digits: int = DISPLAY_DIGITS) -> int:
+    style = _STYLE.get()
+    return min(digits, style.digits) if style.rounds else digits
+
+
+class _SheetPrinter(LatexPrinter):
+    """sympy's LaTeX with decimals as the sheet writes them: no trailing ".0", powers of
+    ten as "· 10^n" for very large and small values."""
+
+    _default_settings = dict(LatexPrinter._default_settings, digits=DISPLAY_DIGITS)
+
+    def _print_Float(self, expr):
+        digits = max(1, min(self._settings["digits"], mpmath.libmp.prec_to_dps(expr._prec)))
+        return str(number(float(expr), digits)).replace(r"\times", r"\cdot")
+
+
+def latex(expr: Any, digits: int = DISPLAY_DIGITS, **settings) -> str:
+    return _SheetPrinter(dict({"ln_notation": True, "digits": shown_digits(digits)},
+                              **settings)).doprint(expr)
 
 
 def typeset(expr: Any, digits: int = DISPLAY_DIGITS) -> Math:
-    """LaTeX of a sympy expression; floats carried at 30 digits are shown to ``digits``."""
+    """LaTeX of a sympy expression; floats carried at 30 digits are shown to ``digits``
+    (to the sheet's ``digits`` outside exact mode, with long rationals as decimals)."""
     expr = sympy.sympify(expr)
-    return Math(sympy.latex(_rounded(expr, digits), ln_notation=True))
+    return Math(latex(_rounded(expr, digits), digits))
 
 
 def inline(latex: str) -> Math:
     return Math("$" + latex + "$")
 
 
-def number(value: float | None, digits: int = REPORT_DIGITS) -> Math | None:
-    """A float as LaTeX, ``digits`` significant digits, powers of ten written out."""
+def number(value: float | None, digits: int | None = None) -> Math | None:
+    """A float as LaTeX, ``digits`` significant digits (the sheet's by default), powers of
+    ten written out."""
+    if digits is None:
+        digits = _STYLE.get().digits
     if value is None:
         return None
     if value != value:
@@ -432,7 +541,7 @@ def join_lines(terms: Sequence[str], width: float) -> list[Math]:
         if not lines and not current:
             current = term
             continue
-        piece = term if term.startswith("-") else "+ " + term
+        piece = "- " + term[1:].lstrip() if term.startswith("-") else "+ " + term
         if current and visible_width(current + piece) > width:
             lines.append(current)
             current = piece
@@ -560,6 +669,9 @@ class Units:
         else:
             expr = sympy.sympify(value)
             numeric = self.float(expr)
+            style = _STYLE.get()
+            exact = exact and (style.numbers == "exact"
+                               or (style.numbers == "auto" and is_short(expr)))
             exact_text = typeset(expr) if ((exact and not expr.is_Integer) or numeric is None) \
                 else None
         if numeric is None:
@@ -574,6 +686,28 @@ class Units:
             return si, None
         converted = numeric / float(sympy.N(unit.factor, 30))
         return si, inline(with_unit(number(converted), unit.text))
+
+
+# ----------------------------------------------------------------------------- sources
+
+# A citation that was not checked in the book names what it cites instead: the theorem or
+# identity. Product sheets never say "from memory" (that marker belongs in tests).
+_UNCHECKED_CITATION = re.compile(
+    r"(?:(?<=; )|(?<=\()|^)[A-Z][^;()]*?\(([^()]*?);?\s*(?:number |numbers |eq\. )?"
+    r"from memory\)")
+_THEOREMS = {"energy dissipated in viscous damping": "work–energy theorem",
+             "free vibration of a viscously damped system":
+                 "homogeneous solution of the damped oscillator equation",
+             "unit impulse response": "impulse–momentum theorem (impulse response)"}
+
+
+def sheet_source(text: str) -> str:
+    """``text`` with every unchecked book citation replaced by the identity it stands for."""
+    def replace(match: re.Match) -> str:
+        topic = match.group(1).strip()
+        return _THEOREMS.get(topic, topic or "standard identity")
+    text = _UNCHECKED_CITATION.sub(replace, text)
+    return text.replace(" (from memory)", "").replace("; from memory", "")
 
 
 # ----------------------------------------------------------------------------- re-reading
@@ -605,6 +739,47 @@ def _magnitude(numeric) -> Callable[[Any], Any]:
     return size
 
 
+def _propagated(expr: sympy.Expr, symbol: sympy.Symbol, point: Any) -> tuple[Any, Any]:
+    """(value, error scale) of ``expr`` at ``symbol = point``: the first-order error that
+    printing every number of ``expr`` to one relative unit would make (small integers and
+    constants are exact). The re-reading tolerance is a fraction of this scale."""
+    if expr == symbol:
+        return point, mpmath.mpf(0)
+    if expr.is_Number or expr.is_NumberSymbol:
+        value = _mp(expr)
+        exact = expr.is_NumberSymbol or (expr.is_Integer and not _long_integer(expr))
+        return value, mpmath.mpf(0) if exact else abs(value)
+    if expr.is_Atom:
+        return _mp(expr), mpmath.mpf(0)
+    if expr is sympy.I or expr == sympy.I:
+        return mpmath.mpc(0, 1), mpmath.mpf(0)
+    parts = [_propagated(a, symbol, point) for a in expr.args]
+    if isinstance(expr, sympy.Add):
+        return sum(v for v, _ in parts), sum(e for _, e in parts)
+    if isinstance(expr, sympy.Mul):
+        value = mpmath.fprod([v for v, _ in parts])
+        error = mpmath.mpf(0)
+        for i, (_v, e) in enumerate(parts):
+            others = mpmath.fprod([abs(w) for j, (w, _) in enumerate(parts) if j != i])
+            error += e * others
+        return value, error
+    if isinstance(expr, sympy.Pow):
+        (base, base_error), (exponent, exponent_error) = parts
+        value = mpmath.power(base, exponent)
+        error = abs(exponent) * abs(mpmath.power(base, exponent - 1)) * base_error
+        if exponent_error:
+            error += abs(value) * abs(mpmath.log(base)) * exponent_error
+        return value, error
+    if isinstance(expr, sympy.exp):
+        value = mpmath.exp(parts[0][0])
+        return value, abs(value) * parts[0][1]
+    if isinstance(expr, (sympy.sin, sympy.cos)):
+        function = mpmath.sin if isinstance(expr, sympy.sin) else mpmath.cos
+        return function(parts[0][0]), parts[0][1] * mpmath.cosh(abs(mpmath.im(parts[0][0])))
+    value = _mp(expr.subs(symbol, sympy.sympify(complex(point))))
+    return value, abs(value)
+
+
 class _EquationRecorder:
     """Registers every displayed equation of a sheet with the derivation's value of it, so
     that :func:`printed_equation_check` can read the printed line back and compare."""
@@ -631,6 +806,9 @@ class _EquationRecorder:
                              for b in (-0.83, 0.29, 2.3)]
 
     def _add(self, display, **fields) -> Any:
+        style = _STYLE.get()
+        if style.rounds:
+            fields["tolerance"] = max(fields.get("tolerance", 1e-9), 10.0 ** (1 - style.digits))
         self.records.append(reread.Printed(display=display, symbols=self.symbols, **fields))
         return display
 
@@ -643,8 +821,12 @@ class _EquationRecorder:
 
     def of_s(self, what: str, expr: sympy.Expr, display):
         from .laplace import s
+        tree = sympy.sympify(expr).subs(self.values)
         return self._add(display, what=what, variable="s", points=self.s_points,
-                         reference=self._function(expr, s), pointwise=True)
+                         reference=self._function(expr, s),
+                         magnitude=lambda x: _propagated(tree, s, x)[1] + abs(
+                             _propagated(tree, s, x)[0]) * mpmath.mpf(10) ** -30,
+                         tolerance=1e-9 if tree.has(sympy.Float) else 1e-15)
 
     def constant(self, what: str, value: sympy.Expr, display):
         number_ = _mp(sympy.sympify(value).subs(self.values))
@@ -732,6 +914,41 @@ def printed_equation_check(derivation) -> "Check":
                  f"({len(printed) - numeric} forms without numbers)")
 
 
+def plain_number(value: float, digits: int) -> str:
+    """A float as plain text with ``digits`` significant digits (the console's form)."""
+    text = f"{value:.{digits}g}"
+    return "0" if text in ("0", "-0") else text
+
+
+def summary_figures(derivation) -> list[str]:
+    """The console's figures, in the report units and rounded like the sheet:
+    ["peak 13.8231 mm at t = 29.1791 ms", "DLF 1.89446"]."""
+    case = derivation.case
+    results = derivation.numbers
+    digits = case.report.digits
+    units = Units(case)
+
+    def shown(value: float, dimension, prefer) -> str:
+        unit = units.unit_for(dimension, prefer)
+        if unit is None:
+            text = quantities.si_unit_text(dimension)
+            return plain_number(value, digits) + ("" if text == "1" else f" {text}")
+        return f"{plain_number(value / float(sympy.N(unit.factor, 30)), digits)} {unit.text}"
+
+    figures = []
+    peak = results.peak
+    if peak is not None:
+        figures.append(
+            f"peak {shown(peak.value, case.system.response_dimension, RESPONSE_PREFER)} at "
+            f"t = {shown(peak.time, quantities.dimension('time'), ('time',))}")
+    if results.dlf is not None:
+        figures.append(f"DLF {plain_number(results.dlf, digits)}")
+    return figures
+
+
+RESPONSE_PREFER = ("response", "displacement", "voltage", "current", "temperature")
+
+
 # ----------------------------------------------------------------------------- context
 
 
@@ -769,7 +986,19 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     """Everything a sheet template prints, formatted for ``target`` ("md" or "tex").
 
     ``stem`` names the figure files, ``section`` numbers the case within an appendix.
+    Numbers follow the case's ``[report] numbers`` and ``digits``.
     """
+    report = derivation.case.report
+    token = _STYLE.set(NumberStyle(getattr(report, "numbers", "auto"),
+                                   getattr(report, "digits", REPORT_DIGITS)))
+    try:
+        return _sheet_context(derivation, target, stem=stem, section=section)
+    finally:
+        _STYLE.reset(token)
+
+
+def _sheet_context(derivation, target: str, *, stem: str | None,
+                   section: int | None) -> dict[str, Any]:
     escape = latex_escape if target == "tex" else markdown_escape
     case = derivation.case
     model = derivation.model
@@ -782,7 +1011,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
     stem = stem or (Path(case.source).stem or "case")
     coefficient_file = coefficient_file_name(stem)
     variable = model.variable
-    response_prefer = ("response", "displacement", "voltage", "current")
+    response_prefer = RESPONSE_PREFER
     load_prefer = {"spring-mass-damper": ("force",), "base-excitation": ("acceleration",),
                    "series-rlc": ("voltage",)}.get(case.system.model, ())
     u = sympy.Symbol("u")
@@ -877,7 +1106,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         load_name = model.load_name
         rewrites.append({
             "load": rewrite.load_number, "shape": rewrite.shape, "rule": rewrite.rule,
-            "source": rewrite.source,
+            "source": sheet_source(rewrite.source),
             "start": typeset(min((t.at for t in rewrite.terms), key=_sort_time(units))
                              if rewrite.terms else 0),
             "terms": terms,
@@ -919,7 +1148,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
             "title": kernel.name,
             "pair": (inline(typeset(kernel.pair.time_function) + r" \;\leftrightarrow\; "
                             + typeset(kernel.pair.transform)) if kernel.pair else None),
-            "source": kernel.pair.source if kernel.pair else None,
+            "source": sheet_source(kernel.pair.source) if kernel.pair else None,
         })
     free = None
     if solution.free is not None:
@@ -976,14 +1205,15 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
                 if value == 0:
                     continue
                 shown_rows.append((power, _digits(rate * tf, units), _digits(frequency * tf, units),
-                                   kind, sympy.Float(value, REPORT_DIGITS)))
+                                   kind, decimal_float(value, _STYLE.get().digits)))
             response_text = response_unit.text if response_unit else si_response_unit
             time_text = time_unit.text if time_unit else "s"
             shown_lhs = rf"{variable}(t)\,[{unit_latex(response_text) or '1'}]"
             entry["shown"] = None if not shown_rows else check.piece(
                 i, piece, end, display(shown_lhs, grouped_terms(shown_rows, local,
                                                                 available_width(shown_lhs))),
-                response_factor=rf, time_factor=tf, tolerance=1e-5, what="in report units")
+                response_factor=rf, time_factor=tf, tolerance=10.0 ** (1 - _STYLE.get().digits),
+                what="in report units")
             entry["shown_time"] = inline(rf"\hat{{t}}\,[{unit_latex(time_text)}]")
         pieces.append(entry)
         if len(derivation.pieces) > EXCERPT_LIMIT and i == EXCERPT_HEAD:
@@ -1038,9 +1268,9 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         "version": __version__,
         "status": status,
         "passed": derivation.passed,
-        "failed": failed,
+        "failed": [{"name": c.name, "detail": sheet_source(c.detail)} for c in failed],
         "check_count": len(derivation.checks),
-        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+        "checks": [{"name": c.name, "passed": c.passed, "detail": sheet_source(c.detail)}
                    for c in derivation.checks],
         "section": section,
         "label": slug(stem),
@@ -1081,6 +1311,7 @@ def sheet_context(derivation, target: str = "md", *, stem: str | None = None,
         if plotted else None,
         "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
+        "warnings": [w.removeprefix(f"{case.source}: ") for w in derivation.warnings],
         "paper": case.report.paper,
         "printed": check.records,
     }
@@ -1148,7 +1379,7 @@ def figure_name(stem: str, kind: str, fmt: str) -> str:
 
 def _digits(value: sympy.Expr, units: Units) -> sympy.Expr:
     number_ = sympy.N(sympy.sympify(value).subs(units.values), 20)
-    return sympy.S.Zero if number_ == 0 else sympy.Float(number_, REPORT_DIGITS)
+    return sympy.S.Zero if number_ == 0 else decimal_float(number_, _STYLE.get().digits)
 
 
 def _sort_time(units: Units):
@@ -1165,8 +1396,8 @@ def _singularity_term(coefficient: sympy.Expr, mode, shift: str) -> str:
     basis = mode.expression(shifted)
     step = rf"H\!\left({shift}\right)"
     shown = shift if shift == "t" else rf"\left({shift}\right)"
-    basis_text = Math(sympy.latex(_rounded(basis), ln_notation=True,
-                                  symbol_names={shifted: shown})) if basis != 1 else ""
+    basis_text = Math(latex(_rounded(basis), symbol_names={shifted: shown})) \
+        if basis != 1 else ""
     factor = _factor(coefficient)
     parts = ([] if factor in ("1", "-1") or (factor == "1" and basis_text) else [factor]) \
         + ([basis_text] if basis_text else [])
@@ -1213,8 +1444,14 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol,
             symbolic.append(_simple_fraction(rf"\bar{{c}}_{{{index}}}", rf"\bar{{r}}_{{{index}}}",
                                              fraction.order))
         real, imaginary = sympy.sympify(fraction.coefficient).as_real_imag()
-        terms = [typeset(term) for term in ordered_terms(real)] if real != 0 else []
-        terms += [typeset(sympy.I * term) for term in ordered_terms(imaginary)] if imaginary != 0 else []
+        style = _STYLE.get()
+
+        def parts(value):   # a constant printed as decimals is one decimal, never a sum of them
+            whole = style.rounds and not value.free_symbols and (
+                style.numbers == "decimal" or not is_short(value))
+            return [value] if whole else ordered_terms(value)
+        terms = [typeset(term) for term in parts(real)] if real != 0 else []
+        terms += [typeset(sympy.I * term) for term in parts(imaginary)] if imaginary != 0 else []
         lhs = f"c_{{{index}}}"
         roots.append({
             "root": inline(rf"r_{{{index}}} = {typeset(fraction.root)}"),
@@ -1241,7 +1478,7 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol,
 
 def _time_shift_source() -> str:
     from .laplace import SOURCES
-    return SOURCES.get("time shift", "")
+    return sheet_source(SOURCES.get("time shift", ""))
 
 
 def _extra_fields(results) -> dict[str, Any]:

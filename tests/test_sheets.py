@@ -369,3 +369,194 @@ def test_paper_size(paper, option):
     tex = render.render_latex(derive_text(text))
     assert rf"\documentclass[10pt,{option}]{{article}}" in tex
     assert rf"\usepackage[{option},margin=22mm]{{geometry}}" in tex
+
+
+# ----------------------------------------------------------------------------- 11.2: numbers
+
+
+NON_ROUND = ISOLATOR.replace('until = "0.3 s"', 'until = "0.3 s"\nNUMBERS')
+
+
+def sheet_with(numbers: str, digits: int | None = None) -> str:
+    extra = f'numbers = "{numbers}"' + (f"\ndigits = {digits}" if digits else "")
+    return render.render_markdown(derive_text(NON_ROUND.replace("NUMBERS", extra)))
+
+
+def significant_digits(token: str) -> int:
+    if "." in token:
+        return len(token.replace(".", "").lstrip("0"))
+    return len(token.strip("0")) or 1
+
+
+def math_numbers(markdown: str) -> list[str]:
+    """Every number inside the sheet's math ($…$ and $$…$$), exponents of ten excluded."""
+    spans = re.findall(r"\$\$(.*?)\$\$|\$(.*?)\$", markdown, flags=re.S)
+    numbers = []
+    for display, inline in spans:
+        text = re.sub(r"10\^\{-?\d+\}", "", display or inline)
+        numbers += re.findall(r"\d+(?:\.\d+)?", text)
+    return numbers
+
+
+@pytest.mark.parametrize("numbers, digits", [("auto", 4), ("auto", 6), ("decimal", 5)])
+def test_no_number_longer_than_digits_outside_exact_mode(numbers, digits):
+    markdown = sheet_with(numbers, digits)
+    # integers up to six digits are exact small numbers (auto keeps them, as do exponents)
+    long_ = [n for n in math_numbers(markdown)
+             if significant_digits(n) > max(digits, render.SHORT_DIGITS if "." not in n else 0)]
+    assert not long_, long_[:5]
+
+
+def test_exact_mode_keeps_the_long_fractions():
+    markdown = sheet_with("exact")
+    assert re.search(r"\\frac\{\d{7,}", markdown)       # e.g. the mass 136077711/2000000 kg
+    assert r"\frac{136077711}{2000000}" in markdown
+
+
+def test_auto_keeps_short_exact_forms_and_shows_long_ones_as_decimals():
+    markdown = render.render_markdown(derive_text(RAMP))        # round inputs: all exact
+    assert r"\frac{4}{5}" in markdown
+    long_sheet = sheet_with("auto")
+    assert r"\frac{136077711}{2000000}" not in long_sheet
+    assert r"$68.0389\,\mathrm{kg}$" in long_sheet               # 150 lb = 68.0388555 kg
+
+
+def test_decimal_mode_prints_no_fractions_of_numbers():
+    markdown = sheet_with("decimal")
+    assert not re.search(r"\\frac\{\d+\}\{\d+\}", markdown)
+
+
+def test_digits_do_not_change_the_json():
+    import json
+    low = derive_text(NON_ROUND.replace("NUMBERS", "digits = 3"))
+    high = derive_text(NON_ROUND.replace("NUMBERS", "digits = 12"))
+    assert json.loads(low.to_json())["peak"] == json.loads(high.to_json())["peak"]
+
+
+def test_long_lines_stay_readable_in_markdown():
+    markdown = sheet_with("auto")
+    for block in re.findall(r"^\$\$\n(.*?)\n\$\$$", markdown, flags=re.S | re.M):
+        for line in block.splitlines():
+            assert render.visible_width(line) < 1.6 * render.LINE_WIDTH, line[:80]
+
+
+HAS_PDFLATEX = __import__("shutil").which("pdflatex") is not None
+
+
+def overfull_boxes(derivation, stem: str, folder: Path) -> list[float]:
+    import subprocess
+    for name, content in render.render_outputs(derivation, ["tex"], stem).items():
+        (folder / name).write_bytes(content if isinstance(content, bytes) else content.encode())
+    subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error", f"{stem}.tex"],
+                   cwd=folder, capture_output=True, timeout=300, check=False)
+    log = (folder / f"{stem}.log").read_text(encoding="utf-8", errors="replace")
+    assert "Output written" in log, log[-2000:]
+    return [float(w) for w in re.findall(r"Overfull \\hbox \((\d+(?:\.\d+)?)pt too wide\)", log)]
+
+
+@pytest.mark.skipif(not HAS_PDFLATEX, reason="pdflatex not on PATH")
+@pytest.mark.parametrize("stem", CASES + ["test:auto", "test:exact", "test:decimal"])
+def test_no_overfull_box_wider_than_10pt(stem, tmp_path):
+    if stem.startswith("test:"):
+        mode = stem.split(":")[1]
+        derivation = derive_text(NON_ROUND.replace("NUMBERS", f'numbers = "{mode}"'))
+        stem = f"nonround-{mode}"
+    else:
+        derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    widths = overfull_boxes(derivation, stem, tmp_path)
+    assert all(w <= 10 for w in widths), widths
+
+
+# ----------------------------------------------------------------------------- 11.6: warnings
+
+
+def warnings_of(text: str) -> list[str]:
+    return list(derive_text(text).warnings)
+
+
+def test_warning_window_ends_before_the_last_load():
+    [warning] = [w for w in warnings_of(RAMP.replace('until = "12 s"', 'until = "5 s"'))
+                 if "before the last load" in w]
+    assert warning == ("sheet.toml: report.until: the analysis window ends at 5 s, before the "
+                       "last load ends at 6 s; nothing after the window is covered (extend until)")
+
+
+def test_warning_peak_at_the_end_of_the_window_is_on_console_and_sheet(tmp_path, capsys):
+    code, out, err = run_cli(tmp_path, capsys, RAMP)
+    assert ("warning: " + str(tmp_path / "case.toml") + ": report.until: the peak sits at the "
+            "end of the analysis window (t = 12 s); the response may still grow after it "
+            "(extend until)") in err
+    markdown = render.render_markdown(derive_text(RAMP))
+    assert ("- report.until: the peak sits at the end of the analysis window (t = 12 s); the "
+            "response may still grow after it (extend until)") in markdown
+
+
+def test_warning_damping_ratio_of_one_or_more():
+    text = ISOLATOR.replace("damping_ratio = 0.05", "damping_ratio = 5")
+    assert ("sheet.toml: system.damping_ratio: 5 is 1 or more (critically damped or "
+            "overdamped, no oscillation); did you mean 5 % (0.05)?") in warnings_of(text)
+
+
+def test_warning_peak_is_the_initial_value():
+    text = """
+    title = "Released from a displacement"
+    [system]
+    model = "spring-mass-damper"
+    mass = "1 kg"
+    stiffness = "100 N/m"
+    damping_ratio = 0.1
+    [initial]
+    displacement = "10 mm"
+    [[load]]
+    shape = "step"
+    amplitude = "0.1 N"
+    [report]
+    until = "2 s"
+    """
+    assert ("sheet.toml: initial: the peak is the initial value at t = 0; the loads never "
+            "drive the response past it") in warnings_of(text)
+
+
+def test_a_load_ending_at_until_says_why_there_is_no_residual():
+    text = ISOLATOR.replace('until = "0.3 s"', 'until = "38 ms"')
+    assert ("sheet.toml: report.until: the last load ends exactly at the end of the analysis "
+            "window (0.038 s), so no residual vibration after it is reported (extend until "
+            "past the load)") in warnings_of(text)
+
+
+def test_no_warning_for_an_ordinary_case():
+    assert warnings_of(ISOLATOR) == []
+
+
+# ----------------------------------------------------------------------------- 11.7: sources
+
+
+@pytest.mark.parametrize("stem", CASES)
+def test_product_sheets_never_cite_from_memory(stem):
+    derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    for text in (render.render_markdown(derivation), render.render_latex(derivation)):
+        assert "memory" not in text
+
+
+def test_unchecked_citations_become_the_theorem():
+    assert render.sheet_source(
+        "W and D by quadrature; Chopra, Dynamics of Structures, 4th ed., section 3.8 (energy "
+        "dissipated in viscous damping; from memory)") == \
+        "W and D by quadrature; work–energy theorem"
+    assert "time-shift" in render.render_markdown(derive_text(ISOLATOR))
+
+
+# ----------------------------------------------------------------------------- 11.5: console
+
+
+def test_console_summary_in_report_units_rounded_like_the_sheet(tmp_path, capsys):
+    text = ISOLATOR.replace('until = "0.3 s"', 'until = "0.3 s"\ndigits = 4')
+    code, out, err = run_cli(tmp_path, capsys, text)
+    line = out.strip()
+    assert code == 0
+    assert re.fullmatch(re.escape(str(tmp_path / "case.toml")) + r": VERIFIED; peak -?[\d.]+ in "
+                        r"at t = \d\d(?:\.\d{1,2})? ms; DLF \d\.\d{3}", line), line
+    markdown = render.render_markdown(derive_text(text))
+    peak = re.search(r"peak (-?[\d.]+) in", line).group(1)
+    assert significant_digits(peak.lstrip("-")) == 4
+    assert rf"${peak}\,\mathrm{{in}}$" in markdown
