@@ -473,6 +473,16 @@ def unit_latex(unit: str) -> str:
     return "".join(out)
 
 
+def unit_text(unit: str) -> str:
+    """A unit as plain text in the trades' form, for plot labels: µs, kΩ, °C, g0."""
+    def name(match: re.Match) -> str:
+        token = match.group(0)
+        if token.startswith("u") and token[1:] in _MICRO_UNITS:
+            token = "µ" + token[1:]
+        return re.sub(r"ohm$", "Ω", token)
+    return re.sub(r"[A-Za-z_]+", name, unit.strip())
+
+
 def with_unit(latex: str, unit: str) -> Math:
     text = unit_latex(unit)
     return Math(latex + (r"\," + text if text else ""))
@@ -1294,7 +1304,10 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "free": free,
         "superposition": superposition,
         "time_shift_source": _time_shift_source(),
-        "exact": solution.exact,
+        "exact": solution.exact and not any(
+            sympy.sympify(c).has(sympy.Float) for p in derivation.pieces
+            for c in p.local.terms.values()),
+        "shown_digits": shown_digits(),
         "pieces": pieces,
         "converted": converted,
         "si_units": Math(f"{variable} {escape('in')} " + (
@@ -1634,21 +1647,21 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
     case = derivation.case
     units = Units(case)
     time_unit = units.unit_for(quantities.dimension("time"), ("time",))
-    time_axis = plots.Axis(f"t [{time_unit.text if time_unit else 's'}]",
+    time_axis = plots.Axis(f"t [{unit_text(time_unit.text) if time_unit else 's'}]",
                            1 / float(sympy.N(time_unit.factor, 30)) if time_unit else 1.0)
     response_dimension = case.system.response_dimension
     response_unit = units.unit_for(response_dimension, ("response", "displacement", "voltage",
                                                        "current"))
     variable = derivation.model.variable
     value_axis = plots.Axis(
-        f"{variable} [{response_unit.text if response_unit else quantities.si_unit_text(response_dimension)}]",
+        f"{variable} [{unit_text(response_unit.text) if response_unit else quantities.si_unit_text(response_dimension)}]",
         1 / float(sympy.N(response_unit.factor, 30)) if response_unit else 1.0)
     load_dimension = case.system.load_dimension
     load_unit = units.unit_for(load_dimension, {"spring-mass-damper": ("force",),
                                                 "base-excitation": ("acceleration",),
                                                 "series-rlc": ("voltage",)}.get(case.system.model, ()))
     load_axis = plots.Axis(
-        f"{derivation.model.load_name} [{load_unit.text if load_unit else quantities.si_unit_text(load_dimension)}]",
+        f"{derivation.model.load_name} [{unit_text(load_unit.text) if load_unit else quantities.si_unit_text(load_dimension)}]",
         1 / float(sympy.N(load_unit.factor, 30)) if load_unit else 1.0)
     peak_label = None
     peak = derivation.numbers.peak
