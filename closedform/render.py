@@ -28,7 +28,7 @@ import unicodedata
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import jinja2
 import mpmath
@@ -37,6 +37,9 @@ from sympy.printing.latex import LatexPrinter
 
 from . import __version__, plots, quantities, reread
 from .errors import CaseError, ClosedformError
+
+if TYPE_CHECKING:
+    from .verify import Check
 
 FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
 
@@ -303,7 +306,7 @@ class NumberStyle:
 
 SHORT_DIGITS = 6        # auto: an exact form stays while its integers have at most this many digits
 _STYLE: contextvars.ContextVar[NumberStyle] = contextvars.ContextVar(
-    "closedform_number_style", default=NumberStyle())
+    "closedform_number_style", default=NumberStyle())  # noqa: B039 - NumberStyle is frozen
 
 
 def _long_integer(value: int) -> bool:
@@ -886,7 +889,7 @@ class _EquationRecorder:
                          magnitude=lambda local: size(local * tf) * abs(rf), tolerance=tolerance)
 
 
-def printed_equation_check(derivation) -> "Check":
+def printed_equation_check(derivation) -> Check:
     """Every displayed equation of the Markdown sheet read back from the printed text and
     compared with the derivation at many points (see :mod:`closedform.reread`)."""
     from .verify import Check
@@ -1459,7 +1462,7 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol,
         real, imaginary = sympy.sympify(fraction.coefficient).as_real_imag()
         style = _STYLE.get()
 
-        def parts(value):   # a constant printed as decimals is one decimal, never a sum of them
+        def parts(value, style=style):   # a constant printed as decimals is one decimal, never a sum of them
             whole = style.rounds and not value.free_symbols and (
                 style.numbers == "decimal" or not is_short(value))
             return [value] if whole else ordered_terms(value)

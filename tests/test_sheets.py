@@ -282,6 +282,7 @@ def test_parameters_show_in_their_report_units():
 ])
 def test_unicode_units_are_read(text, si):
     import sympy
+
     from closedform import quantities
     dimension = {"1 µs": "time", "1 μs": "time", "4.7 kΩ": "resistance",
                  "6.8 µH": "inductance", "3 °C": "temperature", "90 °": "dimensionless",
