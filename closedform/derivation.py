@@ -7,6 +7,7 @@ intermediate value the sheet shows, so that nothing is re-derived while renderin
 from __future__ import annotations
 
 import json
+import math
 from dataclasses import dataclass
 from typing import Any
 
@@ -15,6 +16,7 @@ import sympy
 from . import __version__
 from .case import Case
 from .energy import energy_checks
+from .extremes import extreme_checks
 from .loads import LoadHistory, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
@@ -152,7 +154,9 @@ class Derivation:
         return result_dictionary(self)
 
     def to_json(self) -> str:
-        return json.dumps(self.to_dict(), indent=2)
+        """Strict JSON (RFC 8259): a non-finite number is never written (it is null in
+        ``to_dict``, and the "finite results" check says which one it was)."""
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
     def _repr_markdown_(self) -> str:
         from .api import sheet_markdown
@@ -222,6 +226,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
         with budget.stage("re-reading the printed equations"):
             from .render import printed_equation_check
             checks += (printed_equation_check(partial),)
+        with budget.stage("extremes"):
+            checks += tuple(extreme_checks(partial))
+        checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results))
 
@@ -279,6 +286,47 @@ def window_warnings(case: Case, window: Window, results: Results | None = None
     return tuple(warnings)
 
 
+def non_finite_results(results: Results) -> list[str]:
+    """The JSON names of reported numbers that are not finite (an overflow: e^(700·t))."""
+    fields = {"peak": _extreme(results.peak), "static": results.static, "dlf": results.dlf,
+              **result_fields(results)}
+    return [name for name, value in _walk(fields) if isinstance(value, float)
+            and not math.isfinite(value)]
+
+
+def _walk(value: Any, name: str = ""):
+    if isinstance(value, dict):
+        for key, item in value.items():
+            yield from _walk(item, f"{name}.{key}" if name else str(key))
+    elif isinstance(value, (list, tuple)):
+        for index, item in enumerate(value):
+            yield from _walk(item, f"{name}[{index}]")
+    else:
+        yield name, value
+
+
+def finite_check(results: Results) -> Check:
+    """Every reported number is a finite float: an overflow is a failure, never a value."""
+    bad = non_finite_results(results)
+    if bad:
+        return Check("finite results", False,
+                     f"not finite in double precision (overflow or undefined): {', '.join(bad)}; "
+                     "reported as null; the response exceeds the float range (about 1.8e308) "
+                     "inside the window")
+    return Check("finite results", True, "every reported number is finite")
+
+
+def _strict(value: Any) -> Any:
+    """The value with every non-finite float replaced by None (JSON null)."""
+    if isinstance(value, dict):
+        return {key: _strict(item) for key, item in value.items()}
+    if isinstance(value, list):
+        return [_strict(item) for item in value]
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    return value
+
+
 def _time_value(value: sympy.Expr | None, values: dict) -> float | str | None:
     if value is None:
         return None
@@ -300,7 +348,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
     case = derivation.case
     values = case.symbol_values()
     results = derivation.numbers
-    return {
+    return _strict({
         "schema": 1,
         "title": case.title,
         "reference": case.reference,
@@ -318,6 +366,6 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "dlf": results.dlf,
         **result_fields(results),
         "warnings": list(derivation.warnings),
-        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
+        "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],
-    }
+    })

@@ -19,6 +19,7 @@ from __future__ import annotations
 
 import contextvars
 import functools
+import math
 import os
 import re
 import shutil
@@ -1701,8 +1702,9 @@ def render_csv(derivation, points: int = CSV_POINTS) -> str:
         time = until * k / points
         while index + 1 < len(starts) and starts[index + 1] <= time:
             index += 1
-        value = functions[index](time - starts[index])
-        lines.append(f"{time:.17g},{float(value):.17g}")
+        value = float(functions[index](time - starts[index]))
+        # beyond the float range (an overflow, reported as a failed check): an empty field
+        lines.append(f"{time:.17g},{value:.17g}" if math.isfinite(value) else f"{time:.17g},")
     return "\n".join(lines) + "\n"
 
 

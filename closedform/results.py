@@ -2,10 +2,12 @@
 DLF, forces on the support, residual vibration and the impulse idealization of each pulse.
 
 Extremes are found from the roots of the derivative on each interval plus the interval
-ends — never by taking the largest of sampled values. A fine float grid only brackets the
-sign changes of the derivative; the roots are narrowed in float to pick the candidates that
-can hold the maximum, and those are refined to 30 significant digits with mpmath and
-evaluated at that precision.
+ends — never by taking the largest of sampled values. The search of peaksearch brackets
+every stationary point that can hold the maximum, each alone (Taylor bounds over cells that
+cover the interval, no sampling grid); the roots are narrowed in float to pick the
+candidates, and those are refined to 30 significant digits with mpmath and evaluated at
+that precision. The check of extremes.py establishes each reported extreme again by a
+method of its own.
 
 Values at interval ends are one-sided: an interval [a, b] contributes f(a⁺) and f(b⁻). This
 matters for the acceleration, which jumps where a step load acts (x'' takes the value just
@@ -18,6 +20,7 @@ Everything is SI; ``result_fields`` gives the JSON fields beyond peak, static an
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
@@ -25,7 +28,7 @@ import mpmath
 import numpy
 import sympy
 
-from . import quantities
+from . import peaksearch, quantities
 from .basis import (
     SIN,
     ExponentialPolynomial,
@@ -38,11 +41,7 @@ from .loads import LoadHistory, pulse_points
 from .response import load_pieces, solve
 
 DIGITS = 30
-GRID_PER_SCALE = 64          # grid points per shortest period or decay time
-GRID_MINIMUM = 64            # per interval, however short
-GRID_LIMIT = 400_000         # per interval
 PEAK_TOLERANCE = 1e-9        # "earliest time within 1e-9 (relative) of the maximum"
-PRESELECT_MARGIN = 1e-2      # grid estimates this close to the largest get a float root
 CANDIDATE_MARGIN = 1e-6      # float candidates this close to the float maximum get 30 digits
 FLOAT_ERROR = 1e-14          # relative float64 evaluation error allowed per unit of term size
 FLOAT_ITERATIONS = 30        # Newton/bisection steps for a float root (a starting value)
@@ -207,50 +206,27 @@ class PreciseEvaluator:
         return totals
 
 
-@dataclass(frozen=True)
-class _Grid:
-    """f and f′ on a float grid over [0, length] and what it tells about the extremes."""
-
-    points: numpy.ndarray
-    values: numpy.ndarray
-    zeros: list                 # grid indices where f′ is exactly 0 (inside)
-    brackets: list              # grid indices i with a sign change of f′ on [i, i + 1]
-
-
-def _grid(evaluator: FloatEvaluator, length) -> _Grid:
-    """Sign changes of f′ on a float grid over (0, length), fine enough (GRID_PER_SCALE
-    points per shortest period or decay time) that a bracket holds one root."""
-    scale = evaluator.scale
-    count = GRID_PER_SCALE * 4 if scale == float("inf") else int(float(length) / scale * GRID_PER_SCALE)
-    count = min(max(count, GRID_MINIMUM), GRID_LIMIT)
-    points = numpy.linspace(0.0, float(length), count + 1)
-    values = evaluator(points, orders=2)
-    signs = numpy.sign(values[1])
-    finite = numpy.isfinite(values[1])
-    zeros, brackets = [], []
-    for i in numpy.flatnonzero(finite[:-1] & finite[1:] & ((signs[:-1] * signs[1:] < 0)
-                                                          | (signs[:-1] == 0))):
-        if signs[i] == 0:
-            if i > 0:
-                zeros.append(int(i))
-        else:
-            brackets.append(int(i))
-    return _Grid(points, values, zeros, brackets)
-
-
 def stationary_points(function: NumericExponentialPolynomial, length: mpmath.mpf) -> list:
-    """Roots of the function's derivative on (0, length), refined to 30 digits."""
+    """Roots of the function's derivative on (0, length), refined to 30 digits: every one,
+    each bracketed alone by the complete search (no pruning by value)."""
     evaluator = FloatEvaluator(function)
     if evaluator.empty or length <= 0:
         return []
-    grid = _grid(evaluator, length)
-    roots = [mpmath.mpf(grid.points[i]) for i in grid.zeros]
-    if grid.brackets:
-        brackets = [(grid.points[i], grid.points[i + 1]) for i in grid.brackets]
-        precise = PreciseEvaluator(function)
-        roots += [_polish(precise, guess, bracket)
-                  for guess, bracket in zip(_float_roots(evaluator, brackets), brackets)]
-    return sorted(r for r in roots if 0 < r < length)
+    interval = Interval(mpmath.mpf(0), mpmath.mpf(length), function)
+    brackets, _estimates, _best, precise_route = interval_brackets(interval, 0.0, prune=False)
+    if not brackets:
+        return []
+    precise = PreciseEvaluator(function)
+    if precise_route:
+        guesses = [float((a + b) / 2) for a, b in brackets]
+    else:
+        guesses = _float_roots(evaluator, brackets)
+    roots = [_polish(precise, guess, bracket) for guess, bracket in zip(guesses, brackets)]
+    unique = []
+    for root in sorted(r for r in roots if 0 < r < length):
+        if not unique or abs(root - unique[-1]) > mpmath.mpf(10) ** (-DIGITS + 5) * max(1, abs(root)):
+            unique.append(root)
+    return unique
 
 
 def _refine(function: Callable, low, high):
@@ -330,81 +306,169 @@ def _float_roots(evaluator: FloatEvaluator, brackets: list) -> numpy.ndarray:
     return root
 
 
+def _route_of(evaluator: FloatEvaluator, length: float) -> float:
+    """The cancellation figure of an interval: the size of the terms over the largest |f| on
+    a few points (large where nearly equal poles give huge coefficients that cancel)."""
+    points = numpy.linspace(0.0, length, 65)
+    with numpy.errstate(over="ignore", invalid="ignore"):
+        values = numpy.abs(evaluator(points, orders=1)[0])
+        size = evaluator.size(points)
+    largest = float(numpy.max(values)) if numpy.all(numpy.isfinite(values)) else math.inf
+    if not math.isfinite(largest) or not numpy.all(numpy.isfinite(size)):
+        return math.inf
+    return float(numpy.max(size)) / max(largest, 1e-300)
+
+
+def _float_distinct(evaluator: FloatEvaluator, function: NumericExponentialPolynomial) -> bool:
+    """Whether float64 keeps the function's exponents apart (nearly equal poles 5e-17 apart
+    are one number in float64, and their huge coefficients would be summed)."""
+    return len(evaluator.orders[0]) == len(_groups(function.rows))
+
+
+def interval_brackets(interval: Interval, best: float, prune: bool = True):
+    """(brackets, estimates, best, precise) of one interval: every stationary point that can
+    hold the maximum, each alone in its bracket (see peaksearch)."""
+    length = interval.end - interval.start
+    evaluator = FloatEvaluator(interval.function, orders=peaksearch.FLOAT_ORDER + 1)
+    if evaluator.empty or length <= 0:
+        return [], [], best, False
+    length_float = float(length)
+    figure = _route_of(evaluator, length_float)
+    if not _float_distinct(evaluator, interval.function):
+        figure = math.inf     # distinct exponents that are one number in float64
+    if figure <= peaksearch.CANCELLATION_LIMIT:
+        groups = _derivatives(_groups(interval.function.rows, float), peaksearch.FLOAT_ORDER + 2)
+        try:
+            plain = FloatEvaluator(interval.function)
+
+            def locate(low, high):
+                roots = _float_roots(plain, list(zip(low, high)))
+                with numpy.errstate(over="ignore", invalid="ignore"):
+                    return roots, plain(roots, orders=1)[0], _float_error(plain, roots)
+            brackets, estimates, best = peaksearch.search_float(
+                evaluator, groups, length_float, best, PEAK_TOLERANCE, prune, locate)
+            return brackets, estimates, best, False
+        except ArithmeticError:
+            pass
+    with mpmath.workdps(DIGITS + 10):
+        order = peaksearch.PRECISE_ORDER
+        precise = PreciseEvaluator(interval.function, orders=order + 1)
+        groups = _derivatives(_groups(interval.function.rows), order + 2)
+        brackets, estimates, found = peaksearch.search_precise(
+            precise, groups, length, best if prune else 0, PEAK_TOLERANCE if prune else 1,
+            DIGITS + 10)
+    return brackets, estimates, max(best, float(found)), True
+
+
+def _float_error(evaluator: FloatEvaluator, u: numpy.ndarray) -> numpy.ndarray:
+    """Float64 evaluation error: relative FLOAT_ERROR of the terms' size, and the rounding of
+    the phase ω·u and the growth σ·u (long windows)."""
+    fastest = 0.0 if evaluator.scale == math.inf else 2 * math.pi / evaluator.scale
+    return evaluator.size(u) * (FLOAT_ERROR + 4 * 2.0 ** -52 * (1 + fastest * numpy.abs(u)))
+
+
 def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     """max |f| over the intervals, signed, at the earliest time it is reached.
 
-    Candidates are the interval ends (one-sided values) and the roots of f′ inside each
-    interval, found in three rounds: (1) on the float grid every bracket of a root gets an
-    estimate of f there (f′ taken linear across the bracket, error ~ (ωh)³ ≈ 1e-4 of the
-    amplitude); (2) brackets within PRESELECT_MARGIN of the largest estimate have their root
-    found in float; (3) candidates within CANDIDATE_MARGIN (plus the float evaluation error)
-    of the largest float value are refined and evaluated at 30 digits, and the earliest
+    Candidates are the interval ends (one-sided values) and the stationary points inside each
+    interval, every one of them bracketed alone by the complete search of peaksearch (cells
+    excluded or resolved by Taylor bounds, never a sampling grid). Float roots and values
+    choose among them; candidates within CANDIDATE_MARGIN (plus the float evaluation error)
+    of the largest are refined and evaluated at 30 digits, in time order, and the earliest
     within PEAK_TOLERANCE of the 30-digit maximum is reported.
     """
-    # (interval index, kind, float local time, bracket or None, value, error)
+    # [interval index, kind, float local time, bracket or None, value, error]
     found: list[list] = []
     evaluators: list[FloatEvaluator] = []
+    best = 0.0
     for index, interval in enumerate(intervals):
         evaluator = FloatEvaluator(interval.function)
         evaluators.append(evaluator)
         length = interval.end - interval.start
-        if length <= 0 or evaluator.empty:
-            value = evaluator(numpy.zeros(1), orders=1)
-            found.append([index, "start", 0.0, None, float(value[0][0]),
-                          float(FLOAT_ERROR * evaluator.size(numpy.zeros(1))[0])])
+        ends = [(0.0, "start")] if (length <= 0 or evaluator.empty) else \
+            [(0.0, "start"), (float(length), "end")]
+        points = numpy.array([u for u, _ in ends])
+        with numpy.errstate(over="ignore", invalid="ignore"):
+            values = evaluator(points, orders=1)[0]
+            errors = _float_error(evaluator, points)
+        if not _float_distinct(evaluator, interval.function):
+            values, errors = [math.inf] * len(ends), [math.inf] * len(ends)   # 30 digits decide
+        for (u, kind), value, error in zip(ends, values, errors):
+            found.append([index, kind, u, None, float(value), float(error)])
+            if numpy.isfinite(value) and numpy.isfinite(error) and error <= 1e-6 * abs(value):
+                best = max(best, abs(float(value)) - float(error))   # a value float can see
+    for index, interval in enumerate(intervals):
+        try:
+            brackets, _estimates, best, precise = interval_brackets(interval, best)
+        except OverflowError:
+            brackets, precise = [], False
+            found.append([index, "overflow", 0.0, None, math.inf, math.inf])
             continue
-        grid = _grid(evaluator, length)
-        f, slope = grid.values[0], grid.values[1]
-        points = [(0, "start")] + [(i, "zero") for i in grid.zeros] + \
-            [(len(grid.points) - 1, "end")]
-        errors = FLOAT_ERROR * evaluator.size(grid.points[[i for i, _ in points]])
-        for (i, kind), error in zip(points, errors):
-            found.append([index, kind, float(grid.points[i]), None, float(f[i]), float(error)])
-        if grid.brackets:
-            low = numpy.array(grid.brackets)
-            width = grid.points[low + 1] - grid.points[low]
-            offset = width * slope[low] / (slope[low] - slope[low + 1])
-            estimates = f[low] + slope[low] * offset / 2
-            errors = FLOAT_ERROR * evaluator.size(grid.points[low] + offset)
-            for i, at, estimate, error in zip(low, grid.points[low] + offset, estimates, errors):
-                found.append([index, "bracket", float(at), (grid.points[i], grid.points[i + 1]),
-                              float(estimate), float(error)])
+        if not brackets:
+            continue
+        if precise:
+            for bracket in brackets:
+                found.append([index, "precise", float((bracket[0] + bracket[1]) / 2), bracket,
+                              math.inf, math.inf])
+            continue
+        roots = _float_roots(evaluators[index], brackets)
+        with numpy.errstate(over="ignore", invalid="ignore"):
+            values = evaluators[index](roots, orders=1)[0]
+            errors = _float_error(evaluators[index], roots)
+        for bracket, root, value, error in zip(brackets, roots, values, errors):
+            found.append([index, "root", float(root), bracket, float(value), float(error)])
     if not found:
         return None
-    if all(numpy.isfinite(item[4]) and numpy.isfinite(item[5]) for item in found):
-        largest = max(abs(item[4]) for item in found)
-        found = [item for item in found
-                 if abs(item[4]) >= largest * (1 - PRESELECT_MARGIN) - 4 * item[5]]
-        for index in sorted({item[0] for item in found if item[1] == "bracket"}):
-            items = [item for item in found if item[0] == index and item[1] == "bracket"]
-            roots = _float_roots(evaluators[index], [item[3] for item in items])
-            values = evaluators[index](roots, orders=1)[0]
-            for item, root, value in zip(items, roots, values):
-                item[1:3], item[4] = ["root", float(root)], float(value)
-        largest = max(abs(item[4]) for item in found)
-        largest_error = max(item[5] for item in found if abs(item[4]) == largest)
-        found = [item for item in found if abs(item[4]) >= largest - CANDIDATE_MARGIN * largest
+    finite = [item for item in found if numpy.isfinite(item[4]) and numpy.isfinite(item[5])]
+    if finite and len(finite) == len([i for i in found if i[1] != "precise"]):
+        largest = max(abs(item[4]) for item in finite)
+        largest_error = max(item[5] for item in finite if abs(item[4]) == largest)
+        found = [item for item in found if item[1] == "precise"
+                 or abs(item[4]) >= largest - CANDIDATE_MARGIN * largest
                  - 4 * (item[5] + largest_error)]
     # else: float overflow somewhere — let 30 digits decide among all candidates
-    candidates = []
     precise: dict[int, PreciseEvaluator] = {}
+
+    def evaluate(item) -> tuple:
+        index, kind, time, bracket = item[:4]
+        interval = intervals[index]
+        if index not in precise:
+            precise[index] = PreciseEvaluator(interval.function)
+        if kind == "start" or kind == "overflow":
+            local = mpmath.mpf(0)
+        elif kind == "end":
+            local = interval.end - interval.start
+        else:
+            local = _polish(precise[index], time, bracket)
+        return interval.start + local, precise[index](local)[0]
+
     with mpmath.workdps(DIGITS + 10):
-        for index, kind, time, bracket, _value, _error in found:
-            interval = intervals[index]
-            if index not in precise:
-                precise[index] = PreciseEvaluator(interval.function)
-            if kind == "start":
-                local = mpmath.mpf(0)
-            elif kind == "end":
-                local = interval.end - interval.start
-            elif kind == "zero":
-                local = mpmath.mpf(time)
-            else:
-                local = _polish(precise[index], time, bracket)
-            candidates.append((interval.start + local, precise[index](local)[0]))
-        largest = max(abs(value) for _time, value in candidates)
+        # the largest few by float value (and every one without a float value) fix the maximum
+        # every candidate without a float value, then by float value + error until the rest
+        # cannot exceed the 30-digit maximum found beyond 1e-10 (relative)
+        def reach(item) -> float:
+            value = abs(item[4]) + 4 * item[5]
+            return value if math.isfinite(value) else math.inf
+        ranked = sorted(found, key=lambda item: -reach(item))
+        done: dict[int, tuple] = {}
+        largest = mpmath.mpf(0)
+        for item in ranked:
+            if math.isfinite(reach(item)) and done and reach(item) <= float(largest) * (1 + 1e-10):
+                break
+            done[id(item)] = evaluate(item)
+            largest = max(largest, abs(done[id(item)][1]))
+        ordered = sorted(found, key=lambda item: (float(intervals[item[0]].start) + item[2]))
+        for item in ordered:
+            threshold = largest * (1 - mpmath.mpf(PEAK_TOLERANCE))
+            if id(item) not in done:
+                if abs(item[4]) + 4 * item[5] < float(threshold) * (1 - 1e-12):
+                    continue
+                done[id(item)] = evaluate(item)
+                largest = max(largest, abs(done[id(item)][1]))
+            if abs(done[id(item)][1]) >= threshold * (1 + mpmath.mpf(10) ** -11):
+                break     # the earliest: nothing unevaluated exceeds `largest` beyond float error
         threshold = largest * (1 - mpmath.mpf(PEAK_TOLERANCE))
-        time, value = min(((time, value) for time, value in candidates if abs(value) >= threshold),
+        time, value = min(((time, value) for time, value in done.values() if abs(value) >= threshold),
                           key=lambda pair: pair[0])
         return Extreme(float(value), float(time), value, time)
 
@@ -428,7 +492,8 @@ def linear_combination(parts: Sequence[tuple[object, NumericExponentialPolynomia
 def _mapped(intervals: Sequence[Interval],
             transform: Callable[[NumericExponentialPolynomial], NumericExponentialPolynomial],
             ) -> list[Interval]:
-    return [Interval(i.start, i.end, transform(i.function)) for i in intervals]
+    with mpmath.workdps(DIGITS + 10):    # derivatives multiply coefficients: keep the digits
+        return [Interval(i.start, i.end, transform(i.function)) for i in intervals]
 
 
 # ----------------------------------------------------------------------------- results

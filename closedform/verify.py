@@ -76,11 +76,24 @@ TINY = mpmath.mpf("1e-300")
 
 @dataclass(frozen=True)
 class Check:
-    """One independent check: its name, whether it passed, and the figure behind it."""
+    """One independent check: its name, whether it passed, and the figure behind it.
+
+    ``inconclusive`` marks a check that could not reach its precision or finish its work
+    (it says why in ``detail``): it is not passed — a result that cannot be established is
+    not verified — but it is told apart from a check that found something wrong.
+    """
 
     name: str
     passed: bool
     detail: str
+    inconclusive: bool = False
+
+    @property
+    def outcome(self) -> str:
+        """"passed", "failed" (something was found wrong) or "inconclusive"."""
+        if self.passed:
+            return "passed"
+        return "inconclusive" if self.inconclusive else "failed"
 
 
 # ----------------------------------------------------------------------------- the model

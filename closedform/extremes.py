@@ -1,0 +1,521 @@
+"""Independent check of every reported extreme (peak, peak velocity, support reaction, …).
+
+The search for the extremes (results.py) and this check share nothing but the pieces: the
+pieces are read again by the verification's own parser (verify._Parser) into complex
+exponential terms, and the quantity behind each JSON name is rebuilt here from the model's
+equation (spring force k·x, support reaction k·x + c·x′, current C·v′, …), never taken from
+the engine's definitions. For each reported extreme (signed value P at time t*) the check
+establishes three things:
+
+1. **the value**: the quantity at t*, evaluated at PARSE_DIGITS digits from the parsed terms,
+   equals P (relative VALUE_TOLERANCE);
+2. **the time**: t* is the end of an interval, or the derivative of the quantity vanishes
+   there (|q′(t*)|·τ ≤ VALUE_TOLERANCE·|P|, τ the fastest time scale of the piece);
+3. **nothing larger**: |q(t)| ≤ |P|·(1 + MAX_TOLERANCE) on every piece, closed at both
+   ends (one-sided values at load steps), proved by enclosure rather than sampled.
+
+The enclosure (3) is the second-order mean-value form: on a cell [m − r, m + r]
+
+    |q(t)| ≤ |q(m)| + |q′(m)|·r + M₂·r²/2,   M₂ ≥ sup |q″| over the cell,
+
+with M₂ summed term by term from the parsed terms (|C|·e^(Re λ·v)·(|λ|²vᵖ + 2p|λ|vᵖ⁻¹ +
+p(p−1)vᵖ⁻²)). Cells whose bound stays below the limit are done; the others are halved
+until they are, or until a point above the limit is found (the check fails there), or the
+work limit is reached (the check fails: a result that cannot be established is not
+verified; the check is marked inconclusive, not wrong). Terms whose exponents lie within 1/(length of the piece) of each other (nearly
+equal poles, nearly critical damping) are first combined exactly into
+C₁e^(λ₁v) + C₂e^(λ₂v) = (C₁ + C₂)e^(λ₁v) + C₂δ·e^(λ₁v)·(e^(δv) − 1)/δ, δ = λ₂ − λ₁, so that
+neither the values nor the bound M₂ (the divided difference bounded through the derivative
+in λ along the segment [λ₁, λ₂]) carry the huge cancelling coefficients.
+
+Cells are evaluated in float64, many at once, with the rounding allowed for: phases ω·v are
+formed in double-double arithmetic (Dekker's product) so that long windows do not lose the
+phase, and each bound carries 8·2⁻⁵³·(8 + |Re λ·v| + p) times the size of the terms added.
+The cells of a piece are processed in blocks of BLOCK cells, so memory does not grow with
+the length of the window.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import mpmath
+import numpy
+import sympy
+
+from .verify import _U, PARSE_DIGITS, Check, _equation, _OutsideStructure, _Parser, _resolved_values
+
+MAX_TOLERANCE = 1.5e-9        # no |q| above |P|·(1 + this): the reported value is the earliest
+                              # within 1e-9 of the maximum, so it may lie up to 1e-9 below it;
+                              # the search may stop 2.5e-10 short in a decayed tail
+VALUE_TOLERANCE = 1e-12       # q(t*) against P, and the stationarity figure
+BLOCK = 1 << 16               # cells evaluated at once
+WORK_LIMIT = 400_000_000      # cell evaluations per extreme, at most
+DEPTH_LIMIT = 64              # halvings of one cell, at most
+ROUNDING = 8 * 2.0 ** -53
+INCONCLUSIVE = "could not be established"   # the start of an inconclusive check's detail
+
+
+# ----------------------------------------------------------------------------- terms
+
+
+Terms = dict  # {(power, λ): C}: Re Σ C·v^power·e^(λv) in the local time v of a piece
+
+
+def _poly_from_factors(factors) -> list:
+    """Π (s·v + q)^k expanded: coefficients, lowest power first."""
+    coefficients = [mpmath.mpf(1)]
+    for s, q, k in factors:
+        for _ in range(k):
+            grown = [c * q for c in coefficients] + [mpmath.mpf(0)]
+            for r, c in enumerate(coefficients):
+                grown[r + 1] += c * s
+            coefficients = grown
+    return coefficients
+
+
+def _add_parsed(terms: Terms, parsed, factor) -> None:
+    for term in parsed:
+        base = factor * term.coefficient * mpmath.exp(term.offset)
+        rate = mpmath.mpc(term.rate)
+        for power, c in enumerate(_poly_from_factors(term.factors)):
+            if c != 0:
+                key = (power, rate)
+                terms[key] = terms.get(key, 0) + base * c
+
+
+def piece_terms(piece: Any, values: Mapping, parser: _Parser) -> Terms:
+    """The piece in its local time v = t − start, read by the verification's parser."""
+    terms: Terms = {}
+    local = piece.local
+    with mpmath.workdps(PARSE_DIGITS):
+        modes = getattr(local, "terms", None)
+        if isinstance(modes, Mapping):
+            for mode, coefficient in modes.items():
+                c = parser.number(sympy.sympify(coefficient).subs(values))
+                parsed = parser.terms(sympy.sympify(mode.expression(_U)).subs(values))
+                _add_parsed(terms, parsed, c)
+        else:
+            _add_parsed(terms, parser.terms(sympy.sympify(local.expression(_U)).subs(values)), 1)
+    return {key: c for key, c in terms.items() if c != 0}
+
+
+def derivative(terms: Terms) -> Terms:
+    result: Terms = {}
+    with mpmath.workdps(PARSE_DIGITS):
+        for (power, rate), c in terms.items():
+            if power > 0:
+                key = (power - 1, rate)
+                result[key] = result.get(key, 0) + c * power
+            if rate != 0:
+                key = (power, rate)
+                result[key] = result.get(key, 0) + c * rate
+    return {key: c for key, c in result.items() if c != 0}
+
+
+def combination(weighted: Sequence[tuple[Any, Terms]]) -> Terms:
+    result: Terms = {}
+    with mpmath.workdps(PARSE_DIGITS):
+        for weight, terms in weighted:
+            if weight == 0:
+                continue
+            for key, c in terms.items():
+                result[key] = result.get(key, 0) + weight * c
+    return {key: c for key, c in result.items() if c != 0}
+
+
+def value_at(terms: Terms, v) -> mpmath.mpf:
+    with mpmath.workdps(PARSE_DIGITS):
+        v = mpmath.mpf(v)
+        return mpmath.re(mpmath.fsum(c * v**power * mpmath.exp(rate * v)
+                                     for (power, rate), c in terms.items()))
+
+
+def fastest_rate(terms: Terms) -> float:
+    return max([float(abs(rate)) for _power, rate in terms] + [0.0])
+
+
+# ----------------------------------------------------------------------------- the quantities
+
+
+def quantity_weights(case) -> dict[str, tuple]:
+    """JSON name → weights (w₀, w₁, w₂) of x, x′, x″, from the model's own equation."""
+    system = case.system
+    equation = _equation(system)
+    values = _resolved_values(case)
+
+    def number(expr):
+        return mpmath.mpf(str(sympy.N(sympy.sympify(expr).subs(values), PARSE_DIGITS)))
+
+    with mpmath.workdps(PARSE_DIGITS):
+        one, zero = mpmath.mpf(1), mpmath.mpf(0)
+        weights: dict[str, tuple] = {"peak": (one,)}
+        model = system.model
+        if model in ("spring-mass-damper", "base-excitation"):
+            m, c, k = (number(a) for a in equation.coefficients)
+            prefix = "peak_relative_" if model == "base-excitation" else "peak_"
+            weights[f"{prefix}velocity"] = (zero, one)
+            weights[f"{prefix}acceleration"] = (zero, zero, one)
+            weights["peak_spring_force"] = (k,)
+            weights["peak_support_reaction"] = (k, c)
+            if model == "base-excitation":    # u″ + a_g = −(k·u + c·u′)/m from the equation
+                weights["peak_absolute_acceleration"] = (-k / m, -c / m)
+        elif model == "series-rlc":
+            weights["peak_current"] = (zero, number(system.parameters["capacitance"]))
+            weights["peak_capacitor_voltage"] = (one,)
+        elif model == "first-order":
+            weights["peak_rate"] = (zero, one)
+        else:
+            weights["peak_derivative"] = (zero, one)
+            weights["peak_second_derivative"] = (zero, zero, one)
+    return weights
+
+
+# ----------------------------------------------------------------------------- float enclosure
+
+
+@dataclass
+class _Prepared:
+    """Float arrays of a piece's quantity: plain terms C·vᵖ·e^(λv) and combined pairs
+    D·vᵖ·e^(λv)·(e^(δv) − 1)/δ."""
+
+    c: numpy.ndarray
+    p: numpy.ndarray
+    sigma: numpy.ndarray
+    omega_hi: numpy.ndarray
+    omega_lo: numpy.ndarray
+    d: numpy.ndarray        # pair coefficient C₂δ (0 for plain terms)
+    delta: numpy.ndarray    # δ = λ₂ − λ₁ (0 for plain terms)
+    top_abs: numpy.ndarray  # max(|λ₁|, |λ₂|) for the bound
+    top_sigma: numpy.ndarray
+    pair: numpy.ndarray     # bool
+
+
+def _split(value) -> tuple[float, float]:
+    hi = float(value)
+    return hi, float(value - mpmath.mpf(hi))
+
+
+def prepare(terms: Terms, length) -> _Prepared:
+    """Float arrays of the terms, nearby exponents combined (see the module docstring)."""
+    with mpmath.workdps(PARSE_DIGITS):
+        items = sorted(terms.items(), key=lambda kv: (kv[0][0], float(mpmath.re(kv[0][1])),
+                                                      float(mpmath.im(kv[0][1]))))
+        used = [False] * len(items)
+        rows = []
+        for i, ((power, rate), c) in enumerate(items):
+            if used[i]:
+                continue
+            used[i] = True
+            partner = None
+            for j in range(i + 1, len(items)):
+                (p2, rate2), c2 = items[j]
+                if not used[j] and p2 == power and abs(rate2 - rate) * length < 1:
+                    partner = j
+                    break
+            if partner is None:
+                rows.append((c, power, rate, 0, 0, abs(rate), mpmath.re(rate), False))
+                continue
+            used[partner] = True
+            (_p2, rate2), c2 = items[partner]
+            delta = rate2 - rate
+            rows.append((c + c2, power, rate, c2 * delta, delta, max(abs(rate), abs(rate2)),
+                         max(mpmath.re(rate), mpmath.re(rate2)), True))
+        split = [_split(mpmath.im(r[2])) for r in rows]
+        return _Prepared(
+            numpy.array([complex(r[0]) for r in rows], dtype=complex),
+            numpy.array([r[1] for r in rows], dtype=float),
+            numpy.array([float(mpmath.re(r[2])) for r in rows]),
+            numpy.array([s[0] for s in split]), numpy.array([s[1] for s in split]),
+            numpy.array([complex(r[3]) for r in rows], dtype=complex),
+            numpy.array([complex(r[4]) for r in rows], dtype=complex),
+            numpy.array([float(r[5]) for r in rows]),
+            numpy.array([float(r[6]) for r in rows]),
+            numpy.array([r[7] for r in rows], dtype=bool))
+
+
+_SPLITTER = 134217729.0   # 2^27 + 1 (Dekker)
+
+
+def _two_product(a: numpy.ndarray, b: numpy.ndarray) -> tuple[numpy.ndarray, numpy.ndarray]:
+    """a·b = p + e exactly (Dekker's algorithm, no fused multiply-add needed)."""
+    p = a * b
+    ca = _SPLITTER * a
+    a_hi = ca - (ca - a)
+    a_lo = a - a_hi
+    cb = _SPLITTER * b
+    b_hi = cb - (cb - b)
+    b_lo = b - b_hi
+    e = ((a_hi * b_hi - p) + a_hi * b_lo + a_lo * b_hi) + a_lo * b_lo
+    return p, e
+
+
+def _enclose(prep: _Prepared, m: numpy.ndarray, r: numpy.ndarray):
+    """|q(m)|, the bound of |q| on [m − r, m + r], and the rounding margin, per cell."""
+    mm = m[:, None]
+    powers = bool(numpy.any(prep.p))
+    pairs = bool(numpy.any(prep.pair))
+    growing = bool(numpy.any(prep.sigma)) or (pairs and bool(numpy.any(prep.top_sigma)))
+    with numpy.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        theta, theta_err = _two_product(prep.omega_hi[None, :], mm)
+        theta_err += prep.omega_lo[None, :] * mm
+        phase = numpy.exp(1j * theta) * (1 + 1j * theta_err)   # |θ_err| ≤ 1e-16·|θ|: cos ≈ 1
+        e = numpy.exp(prep.sigma[None, :] * mm) * phase if growing else phase
+        lam = prep.sigma + 1j * (prep.omega_hi + prep.omega_lo)
+        base = prep.c[None, :] * e
+        if powers:
+            p = prep.p[None, :]
+            vp = mm ** p
+            vp1 = numpy.where(p > 0, p * mm ** numpy.maximum(p - 1, 0), 0.0)
+            value = base * vp
+            slope = base * (vp1 + lam[None, :] * vp)
+        else:
+            vp, vp1 = 1.0, 0.0
+            value = base
+            slope = base * lam[None, :]
+        size_value = numpy.abs(value).sum(axis=1)
+        size_slope = numpy.abs(slope).sum(axis=1)
+        q = numpy.real(value.sum(axis=1))
+        dq = numpy.real(slope.sum(axis=1))
+        hi = (m + r)[:, None]
+        if growing:
+            lo = numpy.maximum(m - r, 0)[:, None]
+            grow_plain = numpy.exp(numpy.maximum(prep.sigma[None, :] * lo, prep.sigma[None, :] * hi))
+        else:
+            grow_plain = 1.0
+        if powers:
+            m2 = (numpy.abs(prep.c)[None, :] * grow_plain
+                  * _second(prep.p[None, :], numpy.abs(lam)[None, :], hi)).sum(axis=1)
+        else:
+            m2 = (numpy.abs(prep.c) * numpy.abs(lam) ** 2 * grow_plain).sum(axis=-1) \
+                if growing else numpy.full(len(m), float(numpy.sum(numpy.abs(prep.c) * numpy.abs(lam) ** 2)))
+        if pairs:
+            # pairs: D·vᵖ·e^(λv)·E(v), E = expm1(δv)/δ, E′ = 1 + δE
+            pair = prep.pair[None, :]
+            dv = prep.delta[None, :] * mm
+            small = numpy.abs(dv) < 1e-8
+            delta = numpy.where(prep.pair, prep.delta, 1.0)[None, :]
+            big_e = numpy.where(small, mm * (1 + dv / 2 + dv * dv / 6), numpy.expm1(dv) / delta)
+            pe = prep.d[None, :] * e
+            pair_value = numpy.where(pair, pe * vp * big_e, 0)
+            pair_slope = numpy.where(pair, pe * ((vp1 + lam[None, :] * vp) * big_e
+                                                 + vp * (1 + prep.delta[None, :] * big_e)), 0)
+            q = q + numpy.real(pair_value.sum(axis=1))
+            dq = dq + numpy.real(pair_slope.sum(axis=1))
+            lo = numpy.maximum(m - r, 0)[:, None]
+            grow_top = numpy.exp(numpy.maximum(prep.top_sigma[None, :] * lo, prep.top_sigma[None, :] * hi))
+            m2 = m2 + numpy.where(pair, numpy.abs(prep.d)[None, :] * grow_top
+                                  * _second(prep.p[None, :] + 1, prep.top_abs[None, :], hi), 0).sum(axis=1)
+            size_value = size_value + numpy.abs(pair_value).sum(axis=1)
+            size_slope = size_slope + numpy.abs(pair_slope).sum(axis=1)
+        size = size_value + r * size_slope
+        scale = 8 + float(numpy.max(prep.p, initial=0.0))
+        if growing:
+            scale = scale + numpy.max(numpy.abs(prep.sigma)[None, :] * mm, axis=1, initial=0.0)
+        margin = ROUNDING * scale * size + ROUNDING * (m2 * r * r)
+        bound = numpy.abs(q) + numpy.abs(dq) * r + m2 * r * r / 2
+    return numpy.abs(q), bound, margin
+
+
+def _second(p: numpy.ndarray, lam: numpy.ndarray, v: numpy.ndarray) -> numpy.ndarray:
+    """sup over [0, v] of |d²/dv² (vᵖ e^(λv))| / e^(Re λ·v), term bound."""
+    with numpy.errstate(invalid="ignore", divide="ignore"):
+        a = lam * lam * v ** p
+        b = numpy.where(p >= 1, 2 * p * lam * v ** numpy.maximum(p - 1, 0), 0.0)
+        c = numpy.where(p >= 2, p * (p - 1) * v ** numpy.maximum(p - 2, 0), 0.0)
+    return a + b + c
+
+
+@dataclass(frozen=True)
+class Enclosure:
+    """What the enclosure of one piece found."""
+
+    proved: bool
+    above: tuple[float, float] | None   # (local time, |q|) of a point above the limit
+    cells: int
+    reason: str = ""
+
+
+def enclose_piece(prep: _Prepared, length: float, limit: float) -> Enclosure:
+    """Prove |q| ≤ limit on [0, length], or find a point above it, or say why not."""
+    if len(prep.c) == 0:
+        return Enclosure(True, None, 0) if limit >= 0 else Enclosure(False, (0.0, 0.0), 0)
+    fastest = float(numpy.max(numpy.abs(prep.sigma + 1j * prep.omega_hi)))
+    fastest = max(fastest, float(numpy.max(prep.top_abs)))
+    width = length if fastest * length <= 1 else 1.0 / fastest
+    count = max(1, int(math.ceil(length / width)))
+    width = length / count
+    work = 0
+    start = 0
+    while start < count:
+        stop = min(count, start + BLOCK)
+        index = numpy.arange(start, stop, dtype=float)
+        r = numpy.full(len(index), width / 2 * (1 + 1e-12))
+        m = (index + 0.5) * width
+        depth = 0
+        while len(m):
+            work += len(m)
+            if work > WORK_LIMIT or depth > DEPTH_LIMIT or len(m) > 64 * BLOCK:
+                return Enclosure(False, None, work,
+                                 f"the enclosure did not close within {work} cells "
+                                 f"(halved {depth} times)")
+            value, bound, margin = _enclose(prep, m, r)
+            if not (numpy.all(numpy.isfinite(bound)) and numpy.all(numpy.isfinite(margin))):
+                return Enclosure(False, None, work, "the bound is not finite in double precision "
+                                 "(the response overflows the float range)")
+            above = value - margin > limit
+            if numpy.any(above):
+                i = int(numpy.argmax(numpy.where(above, value, -numpy.inf)))
+                return Enclosure(False, (float(m[i]), float(value[i])), work)
+            open_ = bound + margin > limit
+            m, r = m[open_], r[open_]
+            if len(m):
+                r = r / 2
+                m = numpy.concatenate([m - r, m + r])
+                r = numpy.concatenate([r, r])
+            depth += 1
+        start = stop
+    return Enclosure(True, None, work)
+
+
+# ----------------------------------------------------------------------------- the check
+
+
+def _pieces(derivation, values: Mapping) -> list[tuple[mpmath.mpf, mpmath.mpf, Terms]]:
+    parser = _Parser(_U)
+    pieces = derivation.pieces
+    with mpmath.workdps(PARSE_DIGITS):
+        starts = [_number(p.start, values) for p in pieces]
+        until = _number(derivation.window.until, values)
+    ends = starts[1:] + [until]
+    return [(a, b, piece_terms(p, values, parser)) for a, b, p in zip(starts, ends, pieces)]
+
+
+def _number(value, values: Mapping) -> mpmath.mpf:
+    value = sympy.sympify(value).subs(values)
+    if value.is_Rational:
+        return mpmath.mpf(int(value.p)) / int(value.q)
+    return mpmath.mpf(str(sympy.N(value, PARSE_DIGITS)))
+
+
+def _reported(derivation) -> list[tuple[str, Any]]:
+    results = derivation.numbers
+    reported = [("peak", results.peak)]
+    reported += [(q.name, q.extreme) for q in results.quantities]
+    return [(name, extreme) for name, extreme in reported if extreme is not None]
+
+
+def extreme_checks(derivation) -> list[Check]:
+    """One check per reported extreme; never raises (a failure to check is a failed check)."""
+    case = derivation.case
+    if not case.is_fully_valued:
+        return []
+    reported = _reported(derivation)
+    if not reported:
+        return []
+    try:
+        values = _resolved_values(case)
+        pieces = _pieces(derivation, values)
+        weights = quantity_weights(case)
+    except (_OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
+        return [Check("extremes read again", False,
+                      f"the pieces could not be read for the check of the extremes: "
+                      f"{type(error).__name__}: {error}")]
+    derived = [[terms] for _a, _b, terms in pieces]
+    checks = []
+    for name, extreme in reported:
+        label = "peak" if name == "peak" else name
+        if name not in weights:
+            checks.append(Check(f"extreme {label}", False, "no independent definition of this "
+                                "quantity in the check of the extremes"))
+            continue
+        w = weights[name]
+        for orders in derived:
+            while len(orders) < len(w) + 1:
+                orders.append(derivative(orders[-1]))
+        quantity = [combination(list(zip(w, orders))) for orders in derived]
+        slopes = [combination(list(zip(w, orders[1:]))) for orders in derived]
+        checks.append(_check_one(label, extreme, pieces, quantity, slopes))
+    return checks
+
+
+def _check_one(label: str, extreme, pieces, quantity: list[Terms], slopes: list[Terms]) -> Check:
+    name = f"extreme {label}"
+    try:
+        passed, detail = _run(extreme, pieces, quantity, slopes)
+    except (ArithmeticError, ValueError, OverflowError) as error:
+        return Check(name, False, f"could not be established: {type(error).__name__}: {error}",
+                     inconclusive=True)
+    return Check(name, passed, detail, inconclusive=detail.startswith(INCONCLUSIVE))
+
+
+def _run(extreme, pieces, quantity, slopes) -> tuple[bool, str]:
+    with mpmath.workdps(PARSE_DIGITS):
+        value = mpmath.mpf(extreme.value_mp if extreme.value_mp is not None else extreme.value)
+        time = mpmath.mpf(extreme.time_mp if extreme.time_mp is not None else extreme.time)
+        size = abs(value)
+        if not mpmath.isfinite(value) or not mpmath.isfinite(time):
+            return False, f"the reported value {_show(value)} at t = {_show(time)} s is not finite"
+        # 1 and 2: value and stationarity at the reported time (either side of a boundary)
+        best = None
+        window = pieces[-1][1]
+        for index, (a, b, _terms) in enumerate(pieces):
+            slack = mpmath.mpf(10) ** -25 * max(abs(window), 1)
+            if not a - slack <= time <= b + slack:
+                continue
+            v = min(max(time - a, 0), b - a)
+            q = value_at(quantity[index], v)
+            mismatch = abs(q - value) / max(size, mpmath.mpf(10) ** -300)
+            at_end = v <= slack or b - a - v <= slack
+            rate = max(fastest_rate(quantity[index]), 1 / max(b - a, slack))
+            stationary = abs(value_at(slopes[index], v)) / rate / max(size, mpmath.mpf(10) ** -300)
+            ok = mismatch <= VALUE_TOLERANCE and (at_end or stationary <= VALUE_TOLERANCE)
+            figure = (mismatch, at_end, stationary, index)
+            if best is None or ok or (not best[0] and mismatch < best[1][0]):
+                best = (ok, figure)
+            if ok:
+                break
+        if best is None:
+            return False, f"the reported time t = {_show(time)} s lies outside the window"
+        ok, (mismatch, at_end, stationary, index) = best
+        if not ok:
+            if mismatch > VALUE_TOLERANCE:
+                return False, (f"the value at the reported time t = {_show(time)} s differs from "
+                               f"the reported {_show(value)} by {_show(mismatch)} (relative; "
+                               f"limit {VALUE_TOLERANCE:g})")
+            return False, (f"the reported time t = {_show(time)} s is neither an interval end nor "
+                           f"a stationary point: |q′|·τ/|P| = {_show(stationary)} (limit "
+                           f"{VALUE_TOLERANCE:g})")
+        where = "an interval end" if at_end else f"a stationary point (|q′|·τ/|P| = {_show(stationary)})"
+    # 3: nothing larger anywhere
+    limit = float(size) * (1 + MAX_TOLERANCE)
+    cells = 0
+    for (a, b, _terms), terms in zip(pieces, quantity):
+        length = float(b - a)
+        if length < 0:
+            return False, f"piece at t = {_show(a)} s has a negative length"
+        prep = prepare(terms, b - a)
+        result = enclose_piece(prep, length, limit)
+        cells += result.cells
+        if not result.proved:
+            if result.above is not None:
+                t_above = a + mpmath.mpf(result.above[0])
+                exact = value_at(terms, mpmath.mpf(result.above[0]))
+                return False, (f"|q| = {_show(abs(exact))} at t = {_show(t_above)} s exceeds the "
+                               f"reported {_show(size)} (relative excess "
+                               f"{_show((abs(exact) - size) / size)}); the reported extreme is wrong")
+            return False, f"{INCONCLUSIVE} on the piece from t = {_show(a)} s: {result.reason}"
+    return True, (f"value {_show(value)} at t = {_show(time)} s, {where}; "
+                  f"|q| ≤ |P|·(1 + {MAX_TOLERANCE:g}) proved on {len(pieces)} piece(s) by "
+                  f"second-order enclosure over {cells} cells (verification's own parse of the "
+                  f"pieces; quantity rebuilt from the equation)")
+
+
+def _show(value) -> str:
+    try:
+        return f"{float(value):.10g}"
+    except (OverflowError, ValueError):
+        return mpmath.nstr(value, 10)
