@@ -32,7 +32,9 @@ Cells are evaluated in float64, many at once, with the rounding allowed for: pha
 formed in double-double arithmetic (Dekker's product) so that long windows do not lose the
 phase, and each bound carries 8·2⁻⁵³·(8 + |Re λ·v| + p) times the size of the terms added.
 The cells of a piece are processed in blocks of BLOCK cells, so memory does not grow with
-the length of the window.
+the length of the window; the rest of a piece is proved at once where the sum of the
+terms' magnitudes (no phase) stays below the limit (a decayed tail, or a response whose
+peaks all reach the same value).
 """
 
 from __future__ import annotations
@@ -329,6 +331,18 @@ def _second(p: numpy.ndarray, lam: numpy.ndarray, v: numpy.ndarray) -> numpy.nda
     return a + b + c
 
 
+def _envelope(prep: _Prepared, lo: float, hi: float) -> float:
+    """sup of Σ|term| over [lo, hi] (0 ≤ lo ≤ hi): |C|·e^(max Re λ·v)·hiᵖ, and for a combined
+    pair |D|·hi^(p+1)·e^(max over the segment [λ₁, λ₂] of Re λ·v) (|E(v)| ≤ v·e^(max(Re δ·v, 0)))."""
+    with numpy.errstate(over="ignore", invalid="ignore"):
+        plain = numpy.abs(prep.c) * numpy.exp(numpy.maximum(prep.sigma * lo, prep.sigma * hi)) \
+            * hi ** prep.p
+        pair = numpy.where(prep.pair, numpy.abs(prep.d) * hi ** (prep.p + 1) * numpy.exp(
+            numpy.maximum(prep.top_sigma * lo, prep.top_sigma * hi)), 0.0)
+        total = float(numpy.sum(plain) + numpy.sum(pair))
+    return total if math.isfinite(total) else math.inf
+
+
 @dataclass(frozen=True)
 class Enclosure:
     """What the enclosure of one piece found."""
@@ -351,6 +365,8 @@ def enclose_piece(prep: _Prepared, length: float, limit: float) -> Enclosure:
     work = 0
     start = 0
     while start < count:
+        if _envelope(prep, start * width, length) * (1 + 64 * ROUNDING) <= limit:
+            break          # no term arrangement can exceed the limit on the rest of the piece
         stop = min(count, start + BLOCK)
         index = numpy.arange(start, stop, dtype=float)
         r = numpy.full(len(index), width / 2 * (1 + 1e-12))

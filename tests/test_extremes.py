@@ -26,7 +26,6 @@ from closedform.render import render_csv
 from tests.conftest import derive_text
 
 
-
 @pytest.fixture(autouse=True)
 def fifty_digits():
     """The references of this module at 50 digits; mpmath's global precision restored after."""
