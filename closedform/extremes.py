@@ -508,6 +508,9 @@ def _run(extreme, pieces, quantity, slopes) -> tuple[bool, str]:
         where = "an interval end" if at_end else f"a stationary point (|q′|·τ/|P| = {_show(stationary)})"
     # 3: nothing larger anywhere
     limit = float(size) * (1 + MAX_TOLERANCE)
+    if not math.isfinite(limit):
+        return False, (f"{INCONCLUSIVE}: the enclosure works in double precision and the "
+                       f"reported |value| {_show(size)} overflows the float range")
     cells = 0
     for (a, b, _terms), terms in zip(pieces, quantity):
         length = float(b - a)

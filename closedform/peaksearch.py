@@ -191,8 +191,18 @@ def search_precise(evaluator, groups_all: list, length, best, tolerance, digits:
         factorials = [mpmath.factorial(i) for i in range(K + 3)]
         brackets, estimates = [], []
         best = mpmath.mpf(best)
-        stack = [((i + mpmath.mpf(1) / 2) * width, width / 2, 0) for i in reversed(range(count))]
-        while stack:
+        size = _amplitudes(groups_all[0], mpmath.mpf)
+        stack: list = []
+        cell = 0
+        while stack or cell < count:
+            if not stack:          # the next cell, unless nothing ahead can beat the best
+                ahead = mpmath.fsum(mpmath.exp(max(rate * cell * width, rate * length))
+                                    * mpmath.fsum(a * length ** k for k, a in enumerate(amps))
+                                    for rate, amps in size)
+                if best > 0 and ahead <= best * (1 + mpmath.mpf(tolerance) / 4):
+                    break
+                stack.append(((cell + mpmath.mpf(1) / 2) * width, width / 2, 0))
+                cell += 1
             m, r, depth = stack.pop()
             if depth > DEPTH_LIMIT:
                 raise ArithmeticError("the peak search did not resolve a cell")
