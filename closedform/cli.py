@@ -19,14 +19,23 @@ from .outputs import safe_stem
 from .workers import DEFAULT_MEMORY, Stopped, format_size, install_stop_handlers, restore_handlers
 
 # Commands that live in modules of their own; each module has register(commands), which
-# adds its sub-parser with set_defaults(run=function returning the exit code).
-COMMAND_MODULES: tuple[str, ...] = ("closedform.audit", "closedform.appendix",
-                                     "closedform.spectrum")
+# adds its sub-parser with set_defaults(run=function returning the exit code). Those modules
+# import the engine (sympy, pint, …), so a module is imported only when its command is the
+# one being run; until then its command is listed by name and one-line help (kept equal to
+# the module's own by tests/test_safety.py), so `closedform --help`, `--version` and an
+# option error of `derive` import nothing heavy.
+COMMAND_MODULES: dict[str, tuple[str, str]] = {
+    "check": ("closedform.audit",
+              "audit the [claims] of a case against a checked derivation"),
+    "appendix": ("closedform.appendix", "every case of a folder in one appendix document"),
+    "spectrum": ("closedform.spectrum",
+                 "peak response of a single pulse against t_d/T_n (shock spectrum)"),
+}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
     argv = list(sys.argv[1:] if argv is None else argv)
-    parser = _parser()
+    parser = _parser(argv)
     try:
         arguments = parser.parse_args(argv)
     except SystemExit as exit_:
@@ -75,7 +84,9 @@ def run_into_file(arguments: argparse.Namespace, json_file: Path) -> int:
     return code
 
 
-def _parser() -> argparse.ArgumentParser:
+def _parser(argv: Sequence[str] = ()) -> argparse.ArgumentParser:
+    """The command line's parser; only the sub-command named in ``argv`` (if any) has its
+    module imported to define its options."""
     parser = argparse.ArgumentParser(
         prog="closedform",
         description="Exact piecewise responses of linear models to load histories, "
@@ -102,8 +113,12 @@ def _parser() -> argparse.ArgumentParser:
     derive.add_argument("--jobs", type=int, default=None,
                         help="processes for several cases (default: all cores)")
     derive.set_defaults(run=run_derive)
-    for module in COMMAND_MODULES:
-        importlib.import_module(module).register(commands)
+    chosen = next((a for a in argv if not a.startswith("-")), None)
+    for name, (module, summary) in COMMAND_MODULES.items():
+        if name == chosen:
+            importlib.import_module(module).register(commands)
+        else:
+            commands.add_parser(name, help=summary)
     return parser
 
 

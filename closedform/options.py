@@ -22,9 +22,12 @@ from .errors import CaseError
 SHEET_FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
 #: Output formats of an appendix (the same as appendix.APPENDIX_FORMATS).
 APPENDIX_FORMATS = ("md", "tex", "pdf")
-#: The formats each command accepts in --format.
-COMMAND_FORMATS = {"derive": SHEET_FORMATS, "check": SHEET_FORMATS,
-                   "appendix": APPENDIX_FORMATS}
+#: Output formats of an audit sheet (the same as audit.AUDIT_FORMATS where it has one).
+AUDIT_FORMATS = ("md", "tex", "pdf", "json")
+#: The formats each command accepts in --format, and what they are called in messages.
+COMMAND_FORMATS = {"derive": (SHEET_FORMATS, "output format"),
+                   "check": (AUDIT_FORMATS, "audit format"),
+                   "appendix": (APPENDIX_FORMATS, "appendix format")}
 #: The largest time budget accepted: a week (the interval timer cannot take much more,
 #: and no case needs it).
 MAX_SECONDS = 7 * 24 * 3600.0
@@ -75,6 +78,11 @@ def check_formats(text: str, known: Sequence[str], what: str = "output format") 
     return formats
 
 
+def format_given(argv: Sequence[str]) -> bool:
+    """Whether --format was written on the command line (not just its default)."""
+    return any(a == "--format" or a.startswith("--format=") for a in argv)
+
+
 def empty_output(argv: Sequence[str]) -> bool:
     """``-o ''``, ``--output ''`` or ``--output=`` (argparse turns '' into Path('.'))."""
     for i, argument in enumerate(argv):
@@ -104,12 +112,11 @@ def check_options(arguments: argparse.Namespace, argv: Sequence[str]) -> None:
     json_target = getattr(arguments, "json_target", None)
     if json_target is not None and json_target != "-":
         check_json_file(json_target)
-    if hasattr(arguments, "format"):
-        known = COMMAND_FORMATS.get(command, SHEET_FORMATS)
+    if getattr(arguments, "format", None) is not None:
+        known, what = COMMAND_FORMATS.get(command, (SHEET_FORMATS, "output format"))
         given = arguments.format
-        if given is not None:
-            check_formats(given, known, "appendix format" if command == "appendix"
-                          else "output format")
+        check_formats(given, known, what)
+        if format_given(argv) and hasattr(arguments, "output"):
             if getattr(arguments, "output", None) is None:
                 raise CaseError(f"writing {', '.join(_format_list(given))} needs -o DIR "
                                 "(the folder for the files); --json - prints the JSON "

