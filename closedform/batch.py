@@ -163,14 +163,17 @@ def lost_outcome(path: str, reason: Lost, memory_budget: int | None) -> CaseOutc
 
 def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[str], *,
               jobs: int | None, progress: Callable[[int, int, str], None] | None = None,
-              memory_budget: int | None = DEFAULT_MEMORY,
+              memory_budget: int | None = None,
               lost: Callable[[int, Lost], object] | None = None,
               on_done: Callable[[int, object], None] | None = None,
               time_budget: float | None = None, preload: Sequence[str] = ()) -> list:
-    """``function(*a)`` for each tuple of ``arguments``, results in order, each call in a
-    worker process of its own (``function`` must be a top-level function), up to ``jobs``
-    at once. A call whose worker ends without a result becomes ``lost(index, Lost)``; with
-    no ``lost`` given, a ClosedformError naming the case."""
+    """``function(*a)`` for each tuple of ``arguments``, results in order.
+
+    With several jobs or a ``memory_budget`` (bytes), each call runs in a worker process of
+    its own (``function`` must be a top-level function, its result picklable), up to
+    ``jobs`` at once; a call whose worker ends without a result becomes ``lost(index,
+    Lost)``, or with no ``lost`` given a ClosedformError naming the case. With one job and
+    no memory budget the calls run here, one after the other."""
     jobs = max(1, min(jobs or os.cpu_count() or 1, len(arguments) or 1))
     if progress is not None and arguments:
         progress(0, len(arguments), names[0])
@@ -190,7 +193,7 @@ def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[st
             progress(finished, len(arguments), names[index])
         return result
 
-    if not fork_available():  # pragma: no cover - POSIX systems fork
+    if not fork_available() or (jobs == 1 and memory_budget is None):
         return [done(i, function(*a)) for i, a in enumerate(arguments)]
     if len(arguments) > 1:    # imported once here, inherited by every forked worker
         for module in (function.__module__, *preload):
