@@ -176,7 +176,8 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
                     del running[index]
                     results[index] = (Lost(index, "ran past the memory budget", memory=True)
                                       if over_memory else
-                                      Lost(index, "did not stop at its time budget"))
+                                      Lost(index, "it ran past its time budget and did not "
+                                                  "stop (its worker process was ended)"))
                     if on_done is not None:
                         on_done(index, results[index])
     finally:

@@ -593,3 +593,35 @@ def test_the_listed_help_of_each_command_is_its_own():
         __import__(module, fromlist=["register"]).register(commands)
         [action] = [a for a in commands._choices_actions if a.dest == name]
         assert action.help == summary, name
+
+
+def test_a_case_stuck_where_the_alarm_cannot_reach_is_ended_by_the_parent(tmp_path, capsys,
+                                                                         monkeypatch):
+    """Compiled code that never returns to Python cannot be interrupted by the budget's
+    alarm (simulated by blocking SIGALRM); the parent ends the worker a grace period past
+    the budget and names the case."""
+    import closedform.batch
+
+    real_verify = closedform.derivation.verify
+
+    def verify(derivation):
+        if derivation.case.title == "Stuck":
+            signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGALRM})
+            time.sleep(600)
+        return real_verify(derivation)
+
+    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    monkeypatch.setattr(closedform.batch, "GRACE_SECONDS", 1.0)
+    cases = tmp_path / "cases"
+    cases.mkdir()
+    (cases / "a.toml").write_text(titled("Stuck"))
+    (cases / "b.toml").write_text(GOOD)
+    start = time.monotonic()
+    code = main(["derive", str(cases), "--json", "-", "--time-budget", "2", "--jobs", "1"])
+    captured = capsys.readouterr()
+    assert time.monotonic() - start < 60
+    assert code == 1
+    assert [r["title"] for r in json.loads(captured.out)] == ["Hammer on a skid"]
+    assert captured.err.splitlines() == [
+        f"error: {cases / 'a.toml'}: the case was not derived: it ran past its time budget "
+        "and did not stop (its worker process was ended)"]
