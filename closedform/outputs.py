@@ -83,7 +83,11 @@ def folder_lock(folder: Path) -> Iterator[None]:
         return
     descriptor = os.open(folder, os.O_RDONLY)
     try:
-        fcntl.flock(descriptor, fcntl.LOCK_EX)
+        try:
+            fcntl.flock(descriptor, fcntl.LOCK_EX)
+        except OSError as error:      # a file system without flock: write unlocked
+            if error.errno not in (errno.ENOLCK, errno.EINVAL, errno.EOPNOTSUPP):
+                raise
         yield
     finally:
         os.close(descriptor)
