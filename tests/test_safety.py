@@ -493,9 +493,10 @@ def test_json_to_a_file_for_check_and_spectrum(tmp_path, capsys):
 
 
 def test_the_light_format_lists_match_the_renderers():
-    from closedform import appendix, options
+    from closedform import appendix, audit, options
     assert options.SHEET_FORMATS == render.FORMATS
     assert options.APPENDIX_FORMATS == appendix.APPENDIX_FORMATS
+    assert getattr(audit, "AUDIT_FORMATS", options.AUDIT_FORMATS) == options.AUDIT_FORMATS
 
 
 # --- 13.13: byte-order mark and invisible characters ---------------------------------------
@@ -625,3 +626,21 @@ def test_a_case_stuck_where_the_alarm_cannot_reach_is_ended_by_the_parent(tmp_pa
     assert captured.err.splitlines() == [
         f"error: {cases / 'a.toml'}: the case was not derived: it ran past its time budget "
         "and did not stop (its worker process was ended)"]
+
+
+def test_check_formats_follow_the_same_rules_once_check_writes_files(tmp_path, capsys):
+    from closedform import cli
+
+    parser = cli._parser(["check"])
+    check = parser._subparsers._group_actions[0].choices["check"]
+    if not any("--format" in a.option_strings for a in check._actions):
+        pytest.skip("check has no --format (yet)")
+    case = tmp_path / "case.toml"
+    case.write_text(GOOD)
+    assert main(["check", str(case), "--format", "pdf"]) == 2
+    assert capsys.readouterr().err.splitlines() == [
+        "--format: writing pdf needs -o DIR (the folder for the files); --json - prints the "
+        "JSON result"]
+    assert main(["check", str(case), "-o", str(tmp_path / "out"), "--format", "docx"]) == 2
+    assert capsys.readouterr().err.splitlines() == [
+        "--format: unknown audit format 'docx' (expected some of: md, tex, pdf, json)"]
