@@ -5,8 +5,9 @@ imported), which gives three guarantees a shared pool cannot:
 
 - a worker that dies (the out-of-memory killer, a crash in compiled code) loses only its
   own case, which is named; the other cases go on;
-- the memory of each case is bounded: the parent reads every worker's resident memory
-  several times a second and ends a worker that passes the budget (the address-space limit
+- the memory of each case is bounded: the parent reads every worker's own memory (its
+  private pages, resident or swapped) 20 times a second and ends a worker that passes the
+  budget (the address-space limit
   ``RLIMIT_AS`` set in the worker at twice the budget is a backstop for a sudden jump);
 - when the run is stopped (Ctrl-C, SIGTERM, SIGHUP) every worker is ended before the
   parent returns: none is left running.
@@ -87,7 +88,19 @@ def fork_available() -> bool:
     return "fork" in multiprocessing.get_all_start_methods()
 
 
+_OWN_FIELDS = ("Private_Clean:", "Private_Dirty:", "Swap:")
+
+
 def _resident(pid: int) -> int:
+    """The memory a worker holds of its own, in bytes: its private pages, resident or
+    swapped out (pages still shared with the parent since the fork are not the case's).
+    Where /proc/PID/smaps_rollup is missing, the whole resident set."""
+    try:
+        with open(f"/proc/{pid}/smaps_rollup") as stream:
+            return 1024 * sum(int(line.split()[1]) for line in stream
+                              if line.startswith(_OWN_FIELDS))
+    except (OSError, ValueError, IndexError):
+        pass
     try:
         with open(f"/proc/{pid}/statm") as stream:
             return int(stream.read().split()[1]) * os.sysconf("SC_PAGE_SIZE")
