@@ -121,9 +121,11 @@ def _child(connection, function, arguments, memory_budget) -> None:
             resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
         except (ImportError, ValueError, OSError):
             pass
+    from multiprocessing.reduction import ForkingPickler  # with the reducers others register
+
     try:
         result = function(*arguments)
-        payload = pickle.dumps(("ok", result), protocol=pickle.HIGHEST_PROTOCOL)
+        payload = bytes(ForkingPickler.dumps(("ok", result), pickle.HIGHEST_PROTOCOL))
     except MemoryError:
         payload = pickle.dumps(("memory", None))
     except BaseException as error:  # noqa: BLE001 - reported by the parent
