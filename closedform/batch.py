@@ -7,14 +7,16 @@ so a batch keeps going past a bad file and reports all problems.
 
 from __future__ import annotations
 
+import importlib
 import os
 import sys
 from collections.abc import Callable, Sequence
-from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from pathlib import Path
 
 from .errors import CaseError, ClosedformError
+from .outputs import safe_stem
+from .workers import DEFAULT_MEMORY, GRACE_SECONDS, Lost, fork_available, format_size, run_tasks
 
 
 @dataclass(frozen=True)
@@ -54,7 +56,7 @@ def refuse_clashing_outputs(sources: Sequence[tuple[Path, Path]]) -> None:
     refuse before deriving, rather than let the later one overwrite the earlier."""
     seen: dict[Path, Path] = {}
     for path, folder in sources:
-        target = folder / (path.stem or "case")
+        target = folder / safe_stem(path)
         if target in seen:
             raise CaseError(f"'{seen[target]}' and '{path}' would write the same sheet files "
                             f"({target}.*); rename one or derive them into separate folders",
@@ -81,7 +83,7 @@ def run_case(path: str, formats: Sequence[str], time_budget: float | None,
                 case = load_case(path)
             derivation = derive(case, time_budget=time_budget)
             with budget.stage("rendering the sheets"):
-                stem = Path(path).stem or "case"
+                stem = safe_stem(path)
                 contents = (renderer or render_outputs)(derivation, formats, stem) \
                     if formats else {}
             with budget.stage("writing the JSON result"):
@@ -95,6 +97,9 @@ def run_case(path: str, formats: Sequence[str], time_budget: float | None,
         return CaseOutcome(path, error.exit_code, one_line(error.show()))
     except RecursionError:
         return CaseOutcome(path, 2, f"{shown}: the input nests too deeply to process")
+    except MemoryError:
+        return CaseOutcome(path, 1, f"error: {shown}: the derivation ran out of memory "
+                                    "(its worker's address-space limit)")
     except Exception as error:  # a defect in closedform itself, reported without a traceback
         return CaseOutcome(path, 1, internal_error(shown, error))
 
@@ -123,34 +128,84 @@ def summary_line(derivation) -> str:
 
 def run_cases(paths: Sequence[Path], formats: Sequence[str], *, time_budget: float | None,
               jobs: int | None = None, renderer: Callable | None = None,
-              progress: bool | None = None) -> list[CaseOutcome]:
-    """Every case, in the given order, using up to ``jobs`` processes (default: all cores)."""
+              progress: bool | None = None, memory_budget: int | None = DEFAULT_MEMORY,
+              on_done: Callable[[int, CaseOutcome], None] | None = None) -> list[CaseOutcome]:
+    """Every case, in the given order, using up to ``jobs`` processes (default: all cores).
+
+    Each case runs in a worker process of its own under ``memory_budget`` bytes; a case
+    whose worker is lost (ended for memory, killed) gets an outcome naming it, exit 1.
+    ``on_done(index, outcome)`` is called as each case finishes, in the parent process.
+    """
     arguments = [(str(p), tuple(formats), time_budget, renderer) for p in paths]
     show = sys.stderr.isatty() if progress is None else progress
+
+    def lost(index: int, reason: Lost) -> CaseOutcome:
+        return lost_outcome(str(paths[index]), reason, memory_budget)
+
     return map_cases(run_case, arguments, [p.name for p in paths], jobs=jobs,
-                     progress=TerminalProgress(sys.stderr) if show else None)
+                     progress=TerminalProgress(sys.stderr) if show else None,
+                     memory_budget=memory_budget, lost=lost, on_done=on_done,
+                     time_budget=time_budget,
+                     preload=("closedform.derivation", "closedform.render"))
+
+
+def lost_outcome(path: str, reason: Lost, memory_budget: int | None) -> CaseOutcome:
+    from .case import display_name
+
+    shown = display_name(path)
+    if reason.memory and memory_budget is not None:
+        message = (f"error: {shown}: the derivation ran past the memory budget of "
+                   f"{format_size(memory_budget)} (raise it with --memory-budget)")
+    else:
+        message = f"error: {shown}: the case was not derived: {reason.reason}"
+    return CaseOutcome(path, 1, one_line(message))
 
 
 def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[str], *,
-              jobs: int | None, progress: Callable[[int, int, str], None] | None = None) -> list:
-    """``function(*a)`` for each tuple of ``arguments``, results in order; with several jobs
-    the calls run in a process pool (``function`` must be a top-level function)."""
+              jobs: int | None, progress: Callable[[int, int, str], None] | None = None,
+              memory_budget: int | None = None,
+              lost: Callable[[int, Lost], object] | None = None,
+              on_done: Callable[[int, object], None] | None = None,
+              time_budget: float | None = None, preload: Sequence[str] = ()) -> list:
+    """``function(*a)`` for each tuple of ``arguments``, results in order.
+
+    With several jobs or a ``memory_budget`` (bytes), each call runs in a worker process of
+    its own (``function`` must be a top-level function, its result picklable), up to
+    ``jobs`` at once; a call whose worker ends without a result becomes ``lost(index,
+    Lost)``, or with no ``lost`` given a ClosedformError naming the case. With one job and
+    no memory budget the calls run here, one after the other."""
     jobs = max(1, min(jobs or os.cpu_count() or 1, len(arguments) or 1))
-    results = []
     if progress is not None and arguments:
         progress(0, len(arguments), names[0])
-    if jobs == 1:
-        for i, a in enumerate(arguments, start=1):
-            results.append(function(*a))
-            if progress is not None:
-                progress(i, len(arguments), names[i - 1])
-        return results
-    with ProcessPoolExecutor(max_workers=jobs) as pool:
-        futures = [pool.submit(function, *a) for a in arguments]
-        for i, future in enumerate(futures, start=1):
-            results.append(future.result())
-            if progress is not None:
-                progress(i, len(arguments), names[i - 1])
+    finished = 0
+
+    def done(index: int, result: object) -> object:
+        nonlocal finished
+        if isinstance(result, Lost):
+            if lost is None:
+                raise ClosedformError(f"{names[index]}: the case was not derived: "
+                                      f"{result.reason}")
+            result = lost(index, result)
+        finished += 1
+        if on_done is not None:
+            on_done(index, result)
+        if progress is not None:
+            progress(finished, len(arguments), names[index])
+        return result
+
+    if not fork_available() or (jobs == 1 and memory_budget is None):
+        return [done(i, function(*a)) for i, a in enumerate(arguments)]
+    if len(arguments) > 1:    # imported once here, inherited by every forked worker
+        for module in (function.__module__, *preload):
+            importlib.import_module(module)
+    results: list = [None] * len(arguments)
+
+    def collect(index: int, result: object) -> None:
+        results[index] = done(index, result)
+
+    hard = time_budget * 1.5 + GRACE_SECONDS if time_budget else None
+    run_tasks(function, arguments, jobs=jobs, memory_budget=memory_budget,
+              hard_seconds=hard, on_done=collect)
     return results
 
 

@@ -26,6 +26,7 @@ import os
 import re
 import stat
 import tomllib
+import unicodedata
 from collections.abc import Mapping
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -108,6 +109,12 @@ MAX_SYMBOLS = 100
 _HIDDEN_CHARACTERS = frozenset(chr(c) for c in (*range(0, 9), *range(10, 32), 127,
                                                 *range(0x80, 0xA0), *range(0x202A, 0x202F),
                                                 *range(0x2066, 0x206A)))
+#: Unicode categories refused in free text besides those: format characters (soft hyphen,
+#: zero-width space/joiners, word joiner, byte-order mark, bidirectional marks, tag
+#: characters), line and paragraph separators, surrogates, private-use and unassigned code
+#: points. Each is invisible or ambiguous on a sheet, so a title, reference or label
+#: holding one is an input error naming the key, the column and the code point.
+_HIDDEN_CATEGORIES = frozenset(("Cf", "Zl", "Zp", "Cs", "Co", "Cn"))
 #: Names the formulas of a case reserve for themselves (time, local time, the Laplace
 #: variable, the constants), in addition to the functions.
 _RESERVED_SYMBOLS = ("t", "tau", "s", "u", "v", "pi", "e", "I", "E")
@@ -327,6 +334,10 @@ def quantity_reader(case: Case) -> _Reader:
 
 
 def _parse(text: str, file: str, folder: Path, digest: str) -> Case:
+    # A UTF-8 byte-order mark at the very start (as some editors write one) is not part of
+    # the TOML document; anywhere else it is refused like any other invisible character.
+    if text.startswith("\ufeff"):
+        text = text[1:]
     if "\x00" in text:
         line = text[:text.index("\x00")].count("\n") + 1
         raise CaseError("the case file contains a NUL byte (expected text)", file=file, line=line)
@@ -485,7 +496,8 @@ class _Reader:
         if len(text) > MAX_TEXT:
             raise self.error(key, f"text too long (at most {MAX_TEXT} characters, got {len(text)})")
         for column, character in enumerate(text, start=1):
-            if character in _HIDDEN_CHARACTERS:
+            if (character in _HIDDEN_CHARACTERS
+                    or unicodedata.category(character) in _HIDDEN_CATEGORIES):
                 raise self.error(key, f"character not allowed at column {column} (expected "
                                       f"printable text, got U+{ord(character):04X})")
 

@@ -4,37 +4,60 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import io
 import json
 import os
 import sys
-import tempfile
 from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
 from .budget import DEFAULT_SECONDS
 from .errors import CaseError, ClosedformError
+from .options import SHEET_FORMATS, check_formats, check_options
+from .outputs import safe_stem
+from .workers import DEFAULT_MEMORY, Stopped, format_size, install_stop_handlers, restore_handlers
 
 # Commands that live in modules of their own; each module has register(commands), which
-# adds its sub-parser with set_defaults(run=function returning the exit code).
-COMMAND_MODULES: tuple[str, ...] = ("closedform.audit", "closedform.appendix",
-                                     "closedform.spectrum")
+# adds its sub-parser with set_defaults(run=function returning the exit code). Those modules
+# import the engine (sympy, pint, …), so a module is imported only when its command is the
+# one being run; until then its command is listed by name and one-line help (kept equal to
+# the module's own by tests/test_safety.py), so `closedform --help`, `--version` and an
+# option error of `derive` import nothing heavy.
+COMMAND_MODULES: dict[str, tuple[str, str]] = {
+    "check": ("closedform.audit",
+              "audit the [claims] of a case against a checked derivation"),
+    "appendix": ("closedform.appendix", "every case of a folder in one appendix document"),
+    "spectrum": ("closedform.spectrum",
+                 "peak response of a single pulse against t_d/T_n (shock spectrum)"),
+}
 
 
 def main(argv: Sequence[str] | None = None) -> int:
-    parser = _parser()
+    argv = list(sys.argv[1:] if argv is None else argv)
+    parser = _parser(argv)
     try:
         arguments = parser.parse_args(argv)
     except SystemExit as exit_:
         return 2 if exit_.code not in (0, None) else 0
+    previous = install_stop_handlers()
     try:
-        return arguments.run(arguments)
+        check_options(arguments, argv)
+        json_file = None
+        if getattr(arguments, "json_target", None) not in (None, "-"):
+            json_file, arguments.json_target = Path(arguments.json_target), "-"
+        if json_file is None:
+            return arguments.run(arguments)
+        return run_into_file(arguments, json_file)
     except ClosedformError as error:
         print(error.show(), file=sys.stderr)
         return error.exit_code
     except KeyboardInterrupt:
-        print("interrupted", file=sys.stderr)
-        return 1
+        print("interrupted (SIGINT); stopped", file=sys.stderr)
+        return 130
+    except Stopped as stop:
+        print(f"interrupted ({stop.name}); stopped", file=sys.stderr)
+        return stop.exit_code
     except RecursionError:
         print("error: the input nests too deeply to process", file=sys.stderr)
         return 2
@@ -42,9 +65,28 @@ def main(argv: Sequence[str] | None = None) -> int:
         print(f"internal error ({type(error).__name__}: {error}); the case was not derived. "
               "Please report this with the case file.", file=sys.stderr)
         return 1
+    finally:
+        restore_handlers(previous)
 
 
-def _parser() -> argparse.ArgumentParser:
+def run_into_file(arguments: argparse.Namespace, json_file: Path) -> int:
+    """Run a command whose JSON goes to ``json_file``: what it would print on standard
+    output is caught and written to the file as a whole (atomically), once it has run."""
+    buffer = io.StringIO()
+    real = sys.stdout
+    sys.stdout = buffer
+    try:
+        code = arguments.run(arguments)
+    finally:
+        sys.stdout = real
+    if buffer.getvalue():
+        write_atomically(json_file.parent, {json_file.name: buffer.getvalue()})
+    return code
+
+
+def _parser(argv: Sequence[str] = ()) -> argparse.ArgumentParser:
+    """The command line's parser; only the sub-command named in ``argv`` (if any) has its
+    module imported to define its options."""
     parser = argparse.ArgumentParser(
         prog="closedform",
         description="Exact piecewise responses of linear models to load histories, "
@@ -56,93 +98,120 @@ def _parser() -> argparse.ArgumentParser:
     derive.add_argument("cases", type=Path, nargs="+", metavar="CASE",
                         help="case files (TOML) or folders holding them")
     derive.add_argument("-o", "--output", type=Path, help="folder for the sheet files")
-    derive.add_argument("--format", default="md,json",
-                        help=f"comma-separated output formats ({', '.join(output_formats())}); "
-                             "default md,json")
-    derive.add_argument("--json", dest="json_target", metavar="-",
-                        help="print the JSON result on standard output ('-'); several cases "
-                             "give a JSON array")
+    derive.add_argument("--format", default=None,
+                        help=f"comma-separated output formats ({', '.join(SHEET_FORMATS)}); "
+                             "default md,json; needs -o")
+    derive.add_argument("--json", dest="json_target", metavar="FILE",
+                        help="write the JSON result to FILE, or to standard output with '-'; "
+                             "several cases give a JSON array")
     derive.add_argument("--time-budget", type=float, default=DEFAULT_SECONDS, metavar="SECONDS",
                         help=f"stop a case whose derivation runs longer (default {DEFAULT_SECONDS:g})")
+    derive.add_argument("--memory-budget", default=format_size(DEFAULT_MEMORY).replace(" ", ""),
+                        metavar="SIZE",
+                        help="stop a case whose worker process uses more memory (default "
+                             f"{format_size(DEFAULT_MEMORY)}; e.g. 512MiB, 8GiB)")
     derive.add_argument("--jobs", type=int, default=None,
                         help="processes for several cases (default: all cores)")
     derive.set_defaults(run=run_derive)
-    for module in COMMAND_MODULES:
-        importlib.import_module(module).register(commands)
+    chosen = next((a for a in argv if not a.startswith("-")), None)
+    for name, (module, summary) in COMMAND_MODULES.items():
+        if name == chosen:
+            importlib.import_module(module).register(commands)
+        else:
+            commands.add_parser(name, help=summary)
     return parser
 
 
 def output_formats() -> tuple[str, ...]:
-    from .render import FORMATS
-    return FORMATS
+    return SHEET_FORMATS
 
 
 def parse_formats(text: str, known: Sequence[str] | None = None,
                   what: str = "output format") -> list[str]:
     """A comma-separated list of formats, each one of ``known``."""
-    known = tuple(known or output_formats())
-    formats = [f.strip() for f in text.split(",") if f.strip()]
-    unknown = [f for f in formats if f not in known]
-    if unknown or not formats:
-        raise CaseError(f"unknown {what} '{', '.join(unknown) or text}' "
-                        f"(expected some of: {', '.join(known)})", file="--format")
-    return formats
+    return check_formats(text, tuple(known or SHEET_FORMATS), what)
 
 
 def run_derive(arguments: argparse.Namespace) -> int:
     from .batch import case_sources, refuse_clashing_outputs, require_cases, run_cases, worst_exit_code
 
-    if arguments.json_target not in (None, "-"):
-        raise CaseError("--json takes '-' (standard output)", file="--json")
-    if arguments.time_budget is not None and not arguments.time_budget > 0:
-        raise CaseError("--time-budget must be a positive number of seconds", file="--time-budget")
-    if arguments.jobs is not None and arguments.jobs < 1:
-        raise CaseError("--jobs must be at least 1", file="--jobs")
-    formats = parse_formats(arguments.format) if arguments.output is not None else []
+    formats = parse_formats(arguments.format or "md,json") if arguments.output is not None else []
     sources = case_sources(arguments.cases)
     paths = [path for path, _folder in sources]
     require_cases(paths)
     if arguments.output is not None:
         usable_output_folder(arguments.output)
         refuse_clashing_outputs(sources)
-    outcomes = run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs)
-    for outcome, (_path, folder) in zip(outcomes, sources):
+    outcomes: list = [None] * len(paths)
+    written: list[str] = []
+    unwritten: dict[int, str] = {}     # index → the one line saying why nothing was written
+    shown = 0
+
+    def finished(index: int, outcome) -> None:
+        """Write a finished case's files at once (as one set), then report the cases
+        finished so far in the order they were given."""
+        nonlocal shown
+        folder = sources[index][1]
+        if arguments.output is not None and outcome.contents:
+            try:
+                write_atomically(arguments.output / folder, outcome.contents)
+                written.append(str(paths[index]))
+            except CaseError as error:
+                unwritten[index] = (f"error: {display(str(paths[index]))}: derived, but "
+                                    f"nothing of it was written: {error.message}")
+        outcomes[index] = outcome
+        while shown < len(outcomes) and outcomes[shown] is not None:
+            report(shown)
+            shown += 1
+
+    def report(index: int) -> None:
+        outcome = outcomes[index]
         for warning in outcome.warnings:
             print(f"warning: {warning}", file=sys.stderr)
-        if outcome.result is None:
+        if index in unwritten:
+            print(unwritten[index], file=sys.stderr)
+        elif outcome.result is None:
             print(outcome.message, file=sys.stderr)
         elif arguments.json_target is None:
             print(outcome.message)
-        if arguments.output is not None and outcome.contents:
-            write_atomically(arguments.output / folder, outcome.contents)
-    if arguments.json_target == "-":
+
+    try:
+        run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs,
+                  memory_budget=arguments.memory_budget, on_done=finished)
+    except BaseException:
+        if arguments.output is not None:
+            done = f"{len(written)} of {len(paths)} cases written" + (
+                f" ({', '.join(display(p) for p in written)})" if written else "")
+            print(f"stopped: {done}; the others were not written", file=sys.stderr)
+        raise
+    if arguments.json_target is not None:
         results = [o.result for o in outcomes if o.result is not None]
-        if len(paths) == 1:
-            if results:
-                sys.stdout.write(json.dumps(results[0], indent=2) + "\n")
-        else:
-            sys.stdout.write(json.dumps(results, indent=2) + "\n")
-    return worst_exit_code(outcomes)
+        text = json.dumps(results[0] if len(paths) == 1 else results, indent=2) + "\n" \
+            if results or len(paths) != 1 else ""
+        if text:
+            sys.stdout.write(text)
+    return max(worst_exit_code(outcomes), 2 if unwritten else 0)
+
+
+def display(path: str) -> str:
+    from .case import display_name
+    return display_name(path)
 
 
 def write_outputs(derivation, folder: Path, formats: Sequence[str]) -> list[Path]:
-    """Render everything first, then move each file into place (never half-written)."""
+    """Render everything first, then write the files into place as one set."""
     from .render import render_outputs
 
-    stem = Path(derivation.case.source).stem or "case"
+    stem = safe_stem(derivation.case.source)
     return write_atomically(folder, render_outputs(derivation, formats, stem))
-
-
-def _umask() -> int:
-    """The process umask (read by setting and restoring it)."""
-    mask = os.umask(0o022)
-    os.umask(mask)
-    return mask
 
 
 def usable_output_folder(folder: Path, option: str = "-o") -> None:
     """Refuse, before any work, an output folder that is a file or could not be made; it is
     made only when there is something to write (a failed run leaves no empty folder)."""
+    if str(folder) == "":
+        raise CaseError("the output folder must not be empty (use -o . for the current folder)",
+                        file=option)
     if folder.exists() and not folder.is_dir():
         raise CaseError(f"'{folder}' is a file, not a folder for the output", file=option)
     existing = folder.absolute()
@@ -157,30 +226,15 @@ def usable_output_folder(folder: Path, option: str = "-o") -> None:
 
 
 def write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:
+    """Write ``contents`` into ``folder`` as one set (all new files or all old ones); an
+    OSError becomes a CaseError naming the folder, with nothing of the set left behind."""
+    from .outputs import write_set
+
     try:
-        return _write_atomically(folder, contents)
+        return write_set(folder, contents)
     except OSError as error:
         raise CaseError(f"cannot write into '{folder}': {error.strerror or error}",
                         file=str(folder)) from None
-
-
-def _write_atomically(folder: Path, contents: dict[str, str | bytes]) -> list[Path]:
-    folder.mkdir(parents=True, exist_ok=True)
-    written = []
-    for name, content in contents.items():
-        target = folder / name
-        data = content.encode("utf-8") if isinstance(content, str) else content
-        handle, temporary = tempfile.mkstemp(dir=folder, prefix=f".{name}.", suffix=".part")
-        try:
-            with os.fdopen(handle, "wb") as stream:
-                stream.write(data)
-            os.chmod(temporary, 0o666 & ~_umask())
-            os.replace(temporary, target)
-        except BaseException:
-            Path(temporary).unlink(missing_ok=True)
-            raise
-        written.append(target)
-    return written
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -291,7 +291,7 @@ def test_render_outputs_gives_every_file_of_each_format():
 
 def test_pdf_without_latex_names_the_missing_tool(monkeypatch):
     monkeypatch.setattr(render.shutil, "which", lambda name: None)
-    with pytest.raises(ClosedformError, match="latexmk") as raised:
+    with pytest.raises(ClosedformError, match="pdflatex") as raised:
         render.render_outputs(derive_text(STEP), ["md", "pdf"], "s")
     assert raised.value.exit_code == 1
 
@@ -370,12 +370,13 @@ def test_fragment_can_be_input_into_a_host_document(tmp_path):
     assert render.compile_pdf(host, files, name="host").startswith(b"%PDF")
 
 
-def test_latex_tool_lookup_prefers_latexmk(monkeypatch):
+def test_latex_tool_is_pdflatex_without_shell_escape(monkeypatch):
+    """latexmk is not used: its rc files could decide what runs (tests/test_safety.py)."""
     monkeypatch.setattr(render.shutil, "which", lambda name: f"/usr/bin/{name}")
-    assert render.latex_command()[0] == "latexmk"
+    assert render.latex_command()[:2] == ["pdflatex", "-no-shell-escape"]
     monkeypatch.setattr(render.shutil, "which",
-                        lambda name: "/usr/bin/pdflatex" if name == "pdflatex" else None)
-    assert render.latex_command()[0] == "pdflatex"
+                        lambda name: "/usr/bin/latexmk" if name == "latexmk" else None)
+    assert render.latex_command() is None
 
 
 if __name__ == "__main__":

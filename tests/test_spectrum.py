@@ -338,8 +338,8 @@ def test_range_is_exact():
      "summing to 1)"),
     (["--shape", "trapezoid", "--ratios", "1", "--rise", "0.2", "--hold", "0.5", "--fall", "0.2"],
      "--fall: --rise, --hold and --fall must sum to 1 (fractions of the duration), got 0.9"),
-    (["--shape", "rectangle", "--ratios", "1", "--json", "out.json"],
-     "--json: expected '-' (standard output), got 'out.json'"),
+    (["--shape", "rectangle", "--ratios", "1", "--json", ""],
+     "--json: expected '-' (standard output) or a file name, got ''"),
     (["--shape", "rectangle", "--ratios", "1e9"],
      "--ratios: t_d/T_n must be from 1e-06 to 10000 (the range in which each point is computed "
      "and checked), got 1e9"),
@@ -347,7 +347,7 @@ def test_range_is_exact():
      "--range: t_d/T_n must be from 1e-06 to 10000 (the range in which each point is computed "
      "and checked), got 1e-7"),
     (["--shape", "rectangle", "--ratios", "1", "--time-budget", "0"],
-     "--time-budget: must be a positive number of seconds"),
+     "--time-budget: must be a positive number of seconds up to 604800 (a week), got 0"),
 ])
 def test_bad_arguments_give_one_line_and_exit_2(capsys, arguments, message):
     code = main(["spectrum", *arguments])

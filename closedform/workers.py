@@ -1,0 +1,225 @@
+"""Running cases in worker processes: one process per case, under a memory budget.
+
+Each task runs in a process of its own (forked, so it starts with what the parent has
+imported), which gives three guarantees a shared pool cannot:
+
+- a worker that dies (the out-of-memory killer, a crash in compiled code) loses only its
+  own case, which is named; the other cases go on;
+- the memory of each case is bounded: the parent reads every worker's own memory (its
+  private pages, resident or swapped) 20 times a second and ends a worker that passes the
+  budget (the address-space limit
+  ``RLIMIT_AS`` set in the worker at twice the budget is a backstop for a sudden jump);
+- when the run is stopped (Ctrl-C, SIGTERM, SIGHUP) every worker is ended before the
+  parent returns: none is left running.
+
+Light module: standard library only.
+"""
+
+from __future__ import annotations
+
+import os
+import pickle
+import signal
+import time
+from collections.abc import Callable, Sequence
+from dataclasses import dataclass
+
+GIB = 1024 ** 3
+MIB = 1024 ** 2
+#: The default memory budget of one case (the machine this was made on has 24 GiB).
+DEFAULT_MEMORY = 4 * GIB
+#: Seconds between looks at the workers' memory.
+POLL_SECONDS = 0.05
+#: A worker still running this long past its time budget (stuck in compiled code that the
+#: alarm cannot interrupt) is ended by the parent.
+GRACE_SECONDS = 30.0
+
+
+class Stopped(BaseException):
+    """The run was stopped by a signal (SIGTERM, SIGHUP); ``exit_code`` is 128 + signal."""
+
+    def __init__(self, signum: int) -> None:
+        super().__init__(signum)
+        self.signum = signum
+        self.exit_code = 128 + signum
+        self.name = signal.Signals(signum).name
+
+
+def _raise_stopped(signum, _frame) -> None:
+    raise Stopped(signum)
+
+
+def install_stop_handlers() -> dict:
+    """SIGTERM and SIGHUP raise :class:`Stopped` in the main thread (SIGINT already raises
+    KeyboardInterrupt); returns the previous handlers for :func:`restore_handlers`."""
+    previous = {}
+    for signum in (signal.SIGTERM, signal.SIGHUP):
+        try:
+            previous[signum] = signal.signal(signum, _raise_stopped)
+        except (ValueError, OSError):  # not the main thread
+            pass
+    return previous
+
+
+def restore_handlers(previous: dict) -> None:
+    for signum, handler in previous.items():
+        signal.signal(signum, handler)
+
+
+@dataclass(frozen=True)
+class Lost:
+    """A task whose worker ended without a result: ``reason`` says how."""
+
+    index: int
+    reason: str
+    memory: bool = False     # ended for passing the memory budget
+
+
+def format_size(size: int) -> str:
+    if size % GIB == 0:
+        return f"{size // GIB} GiB"
+    if size >= GIB:
+        return f"{size / GIB:.3g} GiB"
+    return f"{size / MIB:.4g} MiB"
+
+
+def fork_available() -> bool:
+    import multiprocessing
+    return "fork" in multiprocessing.get_all_start_methods()
+
+
+_OWN_FIELDS = ("Private_Clean:", "Private_Dirty:", "Swap:")
+
+
+def _resident(pid: int) -> int:
+    """The memory a worker holds of its own, in bytes: its private pages, resident or
+    swapped out (pages still shared with the parent since the fork are not the case's).
+    Where /proc/PID/smaps_rollup is missing, the whole resident set."""
+    try:
+        with open(f"/proc/{pid}/smaps_rollup") as stream:
+            return 1024 * sum(int(line.split()[1]) for line in stream
+                              if line.startswith(_OWN_FIELDS))
+    except (OSError, ValueError, IndexError):
+        pass
+    try:
+        with open(f"/proc/{pid}/statm") as stream:
+            return int(stream.read().split()[1]) * os.sysconf("SC_PAGE_SIZE")
+    except (OSError, ValueError, IndexError):
+        return 0
+
+
+def _child(connection, function, arguments, memory_budget) -> None:
+    """The worker: no Ctrl-C of its own (the parent ends it), an address-space backstop,
+    the result sent back pickled."""
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+    for signum in (signal.SIGTERM, signal.SIGHUP):
+        signal.signal(signum, signal.SIG_DFL)
+    if memory_budget is not None:
+        try:
+            import resource
+            limit = 2 * memory_budget + GIB
+            resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
+        except (ImportError, ValueError, OSError):
+            pass
+    from multiprocessing.reduction import ForkingPickler  # with the reducers others register
+
+    try:
+        result = function(*arguments)
+        payload = bytes(ForkingPickler.dumps(("ok", result), pickle.HIGHEST_PROTOCOL))
+    except MemoryError:
+        payload = pickle.dumps(("memory", None))
+    except BaseException as error:  # noqa: BLE001 - reported by the parent
+        payload = pickle.dumps(("error", f"{type(error).__name__}: {error}"))
+    connection.send_bytes(payload)
+    connection.close()
+
+
+def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
+              memory_budget: int | None = DEFAULT_MEMORY, hard_seconds: float | None = None,
+              on_done: Callable[[int, object], None] | None = None) -> list:
+    """``function(*a)`` for each tuple in ``arguments``, each in a forked worker, at most
+    ``jobs`` at once; returns the results in order, a :class:`Lost` where a worker ended
+    without one. ``on_done(index, result)`` is called as each task finishes. Every worker is
+    ended before this returns or raises (Ctrl-C, :class:`Stopped`)."""
+    import multiprocessing
+    from multiprocessing.connection import wait
+
+    context = multiprocessing.get_context("fork")
+    results: list = [None] * len(arguments)
+    pending = list(range(len(arguments)))
+    running: dict[int, tuple] = {}      # index → (process, connection, started)
+    try:
+        while pending or running:
+            while pending and len(running) < jobs:
+                index = pending.pop(0)
+                receiver, sender = context.Pipe(duplex=False)
+                process = context.Process(target=_child, daemon=True,
+                                          args=(sender, function, arguments[index], memory_budget))
+                process.start()
+                sender.close()
+                running[index] = (process, receiver, time.monotonic())
+            handles = {r[1]: i for i, r in running.items()}
+            ready = wait(list(handles), timeout=POLL_SECONDS)
+            for handle in ready:
+                index = handles[handle]
+                process, receiver, _started = running.pop(index)
+                try:
+                    status, value = pickle.loads(receiver.recv_bytes())
+                except (EOFError, OSError, pickle.UnpicklingError):
+                    status, value = "died", None
+                receiver.close()
+                process.join()
+                if status == "ok":
+                    result = value
+                elif status == "memory":
+                    result = Lost(index, "ran out of memory", memory=True)
+                elif status == "error":
+                    result = Lost(index, f"the worker failed ({value})")
+                else:
+                    result = Lost(index, _death(process.exitcode))
+                results[index] = result
+                if on_done is not None:
+                    on_done(index, result)
+            now = time.monotonic()
+            for index, (process, receiver, started) in list(running.items()):
+                over_memory = (memory_budget is not None
+                               and _resident(process.pid) > memory_budget)
+                over_time = hard_seconds is not None and now - started > hard_seconds
+                if over_memory or over_time:
+                    _end(process)
+                    receiver.close()
+                    del running[index]
+                    results[index] = (Lost(index, "ran past the memory budget", memory=True)
+                                      if over_memory else
+                                      Lost(index, "it ran past its time budget and did not "
+                                                  "stop (its worker process was ended)"))
+                    if on_done is not None:
+                        on_done(index, results[index])
+    finally:
+        for process, receiver, _started in running.values():
+            _end(process)
+            receiver.close()
+    return results
+
+
+def _end(process) -> None:
+    """End a worker: SIGTERM, then SIGKILL if it has not gone within a second."""
+    if process.is_alive():
+        process.terminate()
+        process.join(1.0)
+    if process.is_alive():
+        process.kill()
+    process.join()
+
+
+def _death(exit_code: int | None) -> str:
+    if exit_code is not None and exit_code < 0:
+        name = signal.Signals(-exit_code).name if -exit_code in signal.Signals._value2member_map_ \
+            else f"signal {-exit_code}"
+        hint = " (as the out-of-memory killer does)" if -exit_code == signal.SIGKILL else ""
+        return f"its worker process was killed by {name}{hint}"
+    return f"its worker process ended unexpectedly (exit status {exit_code})"
+
+
+__all__ = ["DEFAULT_MEMORY", "Lost", "Stopped", "format_size", "install_stop_handlers",
+           "restore_handlers", "run_tasks"]
