@@ -69,9 +69,9 @@ FLOAT_TOLERANCE = 1e-10              # relative closure in float64 (long histori
 LONG_NODES = 8                       # Gauss–Legendre nodes per span in float64
 LONG_PHASE = 0.5                     # radians of the fastest mode or load per span, at most
 
+# The product cites the identity itself; book references with "from memory" stay in tests.
 SOURCE = ("work-energy balance of the equation of motion (multiply by x′ and integrate); "
-          "Chopra, Dynamics of Structures, 4th ed., section 3.8 (energy dissipated in viscous "
-          "damping; from memory)")
+          "work–energy theorem")
 
 
 def energy_checks(derivation) -> list[Check]:

@@ -133,6 +133,10 @@ _GREEK_CAPITALS = {"GAMMA", "DELTA", "THETA", "LAMDA", "XI", "PI", "SIGMA", "UPS
                    "PSI", "OMEGA"}
 
 
+#: Combining marks of Greek letters as math accents (tonos is the acute accent).
+_GREEK_MATH_ACCENTS = {"\u0301": "acute", "\u0308": "ddot", "\u0300": "grave"}
+
+
 def _latex_character(character: str) -> str:
     """One non-ASCII character for pdfLaTeX with its default fonts (no extra packages)."""
     if character in _TEXT_CHARACTERS:
@@ -144,7 +148,15 @@ def _latex_character(character: str) -> str:
     if character in _SUBSCRIPTS:
         return r"\ensuremath{_{" + _SUBSCRIPTS[character] + "}}"
     name = unicodedata.name(character, "")
-    if name.startswith("GREEK "):
+    if name.startswith("GREEK ") and " WITH " in name:   # ά, ϊ …: the letter under a math accent
+        base, *marks = unicodedata.normalize("NFD", character)
+        text = _latex_character(base) if base != character else ""
+        if text.startswith(r"\ensuremath{") and all(mark in _GREEK_MATH_ACCENTS for mark in marks):
+            inner = text[len(r"\ensuremath{"):-1]
+            for mark in marks:
+                inner = "\\" + _GREEK_MATH_ACCENTS[mark] + "{" + inner + "}"
+            return r"\ensuremath{" + inner + "}"
+    if name.startswith("GREEK ") and " WITH " not in name:
         letter = name.split()[-1]
         small = " SMALL " in name
         if letter == "LAMDA":

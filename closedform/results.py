@@ -47,11 +47,10 @@ FLOAT_ERROR = 1e-14          # relative float64 evaluation error allowed per uni
 FLOAT_ITERATIONS = 30        # Newton/bisection steps for a float root (a starting value)
 NON_OSCILLATORY_SPAN = 40    # slowest time constants searched after a pulse (no oscillation)
 
-# Sources of the closed forms used here (numbers of equations recalled, see each use).
-SOURCE_FREE_VIBRATION = ("Chopra, Dynamics of Structures, 4th ed., section 2.2, eq. 2.2.4 "
-                         "(free vibration of a viscously damped system; from memory)")
-SOURCE_IMPULSE_RESPONSE = ("Chopra, Dynamics of Structures, 4th ed., section 4.1, eq. 4.1.7 "
-                           "(unit impulse response; from memory); peak derived from it")
+# The closed forms used here, named by the identity they rest on (the product cites no book
+# section it has not checked; the tests hold the book references).
+SOURCE_FREE_VIBRATION = "homogeneous solution of the damped oscillator equation"
+SOURCE_IMPULSE_RESPONSE = "impulse–momentum theorem (impulse response); peak derived from it"
 
 
 @dataclass(frozen=True)

@@ -416,3 +416,16 @@ until = "0.2 s"
     intervals = {row.split(",")[1] for row in rows if row.startswith("interval,")}
     assert len(intervals) == len(derivation.pieces)
     assert sum(row.startswith("load term,") for row in rows) == len(derivation.history.terms)
+
+
+def test_accented_greek_letters_print_under_math_accents():
+    """ά (alpha with tonos) once became ``\\tonos``, an undefined command that stopped
+    pdfLaTeX; now the letter sits under its accent, or a code-point placeholder is printed."""
+    from closedform.render import latex_escape
+    assert latex_escape("ά") == r"\ensuremath{\acute{\alpha}}"
+    assert latex_escape("ϊ") == r"\ensuremath{\ddot{\iota}}"
+    assert "tonos" not in latex_escape("Ά ΐ ώ").lower()
+    if shutil.which("pdflatex"):
+        from closedform.render import compile_pdf
+        assert compile_pdf("\\documentclass{article}\\begin{document}"
+                           + latex_escape("Πλάκα ϊ Ά") + "\\end{document}\n").startswith(b"%PDF")
