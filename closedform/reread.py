@@ -354,7 +354,11 @@ def compare(record: Printed, block: str) -> str | None:
         for x, weight in record.impulses:
             env = dict(record.symbols)
             env[record.variable] = x
-            env["\\delta"] = lambda argument: 1 if abs(argument) < mpmath.mpf(10) ** -25 else 0
+            # The printed time is a decimal and x a binary number: t − a is round-off there,
+            # not zero. Within the line's own tolerance of |x| it is the printed impulse.
+            near = max(mpmath.mpf(record.tolerance), mpmath.mpf(10) ** -9) * abs(x) \
+                + mpmath.mpf(10) ** -25
+            env["\\delta"] = lambda argument, near=near: 1 if abs(argument) <= near else 0
             try:
                 with_delta = mpmath.mpmathify(value(env))
                 env["\\delta"] = _no_delta

@@ -561,3 +561,13 @@ def test_console_summary_in_report_units_rounded_like_the_sheet(tmp_path, capsys
     peak = re.search(r"peak (-?[\d.]+) in", line).group(1)
     assert significant_digits(peak.lstrip("-")) == 4
     assert rf"${peak}\,\mathrm{{in}}$" in markdown
+
+
+def test_an_impulse_at_a_decimal_time_reads_back_from_its_load_line():
+    """Found by fuzzing: an impulse at 0.000167 s printed correctly, but the re-reading check
+    compared the printed decimal time with its binary value and found no delta there."""
+    derivation = closedform.derive(closedform.load_case_text(
+        'title = "Impulse at a decimal time"\n[system]\nmodel = "spring-mass-damper"\n'
+        'mass = "1 kg"\nstiffness = "1.416e+05 N/m"\n[[load]]\nshape = "impulse"\n'
+        'at = "0.000167 s"\nimpulse = "0.0167 N*s"\n', "impulse.toml"))
+    assert derivation.status == "verified", [c.detail for c in derivation.checks if not c.passed]
