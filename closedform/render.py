@@ -871,15 +871,18 @@ class _EquationRecorder:
         for term in rewrite.terms:
             at = _mp(sympy.sympify(term.at).subs(self.values))
             if hasattr(term, "mode"):
-                parts.append((at, self._function(term.coefficient * term.mode.expression(x), x)))
+                tree = sympy.sympify(term.coefficient * term.mode.expression(x)).subs(self.values)
+                parts.append((at, self._function(tree, x), tree))
             else:
                 impulses.append((at, _mp(sympy.sympify(term.impulse).subs(self.values))))
 
         def reference(t):
-            return sum((g(t - at) for at, g in parts if t > at), mpmath.mpf(0))
+            return sum((g(t - at) for at, g, _tree in parts if t > at), mpmath.mpf(0))
 
-        def magnitude(t):
-            return sum((abs(g(t - at)) for at, g in parts if t > at), mpmath.mpf(0))
+        def magnitude(t):   # each term's size plus the error its printed numbers can make
+            # (a rounded frequency shifts the phase by ω·u·δ: large where the terms cancel)
+            return sum((abs(g(t - at)) + _propagated(tree, x, t - at)[1]
+                        for at, g, tree in parts if t > at), mpmath.mpf(0))
         points = [self.until * f for f in self.fractions]
         return self._add(display, what=f"load line {rewrite.load_number}", variable="t",
                          points=points, reference=reference, impulses=impulses,

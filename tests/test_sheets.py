@@ -571,3 +571,13 @@ def test_an_impulse_at_a_decimal_time_reads_back_from_its_load_line():
         'mass = "1 kg"\nstiffness = "1.416e+05 N/m"\n[[load]]\nshape = "impulse"\n'
         'at = "0.000167 s"\nimpulse = "0.0167 N*s"\n', "impulse.toml"))
     assert derivation.status == "verified", [c.detail for c in derivation.checks if not c.passed]
+
+
+def test_a_rounded_half_sine_frequency_is_judged_by_the_phase_error_it_makes():
+    """Found by fuzzing: π/0.000717 s printed as 1394.7π; after the pulse the two sine terms
+    cancel, and the rounding's phase error (ω·u·δ) was judged against their near-zero sum."""
+    derivation = closedform.derive(closedform.load_case_text(
+        'title = "Short half-sine"\n[system]\nmodel = "spring-mass-damper"\nmass = "1 kg"\n'
+        'stiffness = "3.948e+07 N/m"\n[[load]]\nshape = "half-sine"\n'
+        'duration = "0.000717 s"\namplitude = "1 N"\n', "half-sine.toml"))
+    assert derivation.status == "verified", [c.detail for c in derivation.checks if not c.passed]
