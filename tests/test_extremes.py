@@ -363,3 +363,16 @@ def test_overflow_is_a_failure_and_the_json_stays_strict():
 def test_finite_results_pass_on_an_ordinary_case():
     derivation = _skid()
     assert finite_check(derivation.numbers).passed
+
+
+def test_a_turning_point_where_the_pulse_ends_is_no_internal_error():
+    """Found by fuzzing: a one-period rectangle (T_n = 1 s, k = 39.48 N/m, m = 1 kg) after an
+    initial velocity leaves x′ = x″ = 0 at a point the cell bounds cannot settle; the search
+    raised ArithmeticError. The peak must now be derived and pass the independent check."""
+    import closedform
+    derivation = closedform.derive(closedform.load_case_text(
+        'title = "One-period rectangle"\n[system]\nmodel = "spring-mass-damper"\nmass = "1 kg"\n'
+        'stiffness = "39.48 N/m"\n[[load]]\nshape = "rectangle"\nat = "1 s"\nduration = "1 s"\n'
+        'amplitude = "1 N"\n[initial]\nvalues = ["0 m", "0.0001 m/s"]\n', "rectangle.toml"))
+    assert derivation.status == "verified", [c.detail for c in derivation.checks if not c.passed]
+    assert any(c.name == "extreme peak" and c.passed for c in derivation.checks)
