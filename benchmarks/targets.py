@@ -28,6 +28,9 @@ import sys
 import tempfile
 from pathlib import Path
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
+from scale import write_history  # noqa: E402 - the same invented history as scale.py
+
 ROOT = Path(__file__).resolve().parent.parent
 PYTHON = sys.executable
 
@@ -65,30 +68,6 @@ def write_record(folder: Path, samples: int = 4000, seed: int = 11) -> Path:
     path = folder / "record.csv"
     path.write_text("\n".join(rows) + "\n")
     return path
-
-
-def write_history(folder: Path, segments: int, seed: int = 7) -> Path:
-    rng = random.Random(seed + segments)
-    rows = ["time [ms], force [kN]"]
-    for i in range(segments + 1):
-        value = 0.0 if i in (0, segments) else max(
-            0.0, 6 + 5 * math.sin(i / 17) + 3 * math.sin(i / 5.3) + rng.uniform(-0.5, 0.5))
-        rows.append(f"{i * 0.5:g}, {value:.3f}")
-    (folder / f"history-{segments}.csv").write_text("\n".join(rows) + "\n")
-    case = folder / f"history-{segments}.toml"
-    case.write_text(f"""title = "Invented history, {segments} segments"
-[system]
-model = "spring-mass-damper"
-mass = "750 kg"
-stiffness = "3.1 MN/m"
-damping_ratio = 0.05
-[[load]]
-shape = "table"
-csv = "history-{segments}.csv"
-[report]
-until = "{segments * 0.5 + 100:g} ms"
-""")
-    return case
 
 
 def report(name: str, result: dict, floor: float, target: float, unit: str = "floor",

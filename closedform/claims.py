@@ -191,7 +191,7 @@ def claimed_number(reader, value: Any, dimension, key: str, values: Mapping) -> 
     if dimension is None:
         dimension = _dimension_as_given(value, key)
     quantity = reader.quantity(value, dimension, key)
-    return float(sympy.N(sympy.sympify(quantity).subs(values), 30))
+    return float(sympy.N(quantity.subs(values), 30))
 
 
 def _dimension_as_given(value: Any, key: str):

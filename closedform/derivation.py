@@ -253,8 +253,8 @@ def window_warnings(case: Case, window: Window, results: Results | None = None
             warnings.append(f"{case.source}: {load.key}: starts at or after the end of the "
                             "analysis window and does not act on it")
     numeric = not case.symbols or case.is_fully_valued
-    until = sympy.sympify(window.until).subs(values)
-    end = sympy.sympify(last_load_end(case)).subs(values)
+    until = window.until.subs(values)
+    end = last_load_end(case).subs(values)
     if numeric and not until.free_symbols and not end.free_symbols and case.loads:
         if end > until and not any(
                 sympy.sympify(load.starts()[0]).subs(values) >= until for load in case.loads):

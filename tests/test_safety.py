@@ -25,25 +25,11 @@ import pytest
 import closedform.derivation
 from closedform import outputs, render
 from closedform.cli import main
+from tests.test_cli import GOOD
 
 ROOT = Path(__file__).resolve().parent.parent
 PYTHON = sys.executable
 
-GOOD = textwrap.dedent("""
-    title = "Hammer on a skid"
-    [system]
-    model = "spring-mass-damper"
-    mass = "420 kg"
-    stiffness = "2.6 MN/m"
-    damping_ratio = 0.02
-    [[load]]
-    shape = "rectangle"
-    at = "20 ms"
-    duration = "1.5 ms"
-    impulse = "95 N*s"
-    [report]
-    until = "250 ms"
-    """)
 
 needs_latex = pytest.mark.skipif(render.latex_command() is None, reason="pdflatex not on PATH")
 
