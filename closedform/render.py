@@ -714,28 +714,6 @@ class Units:
         return si, inline(with_unit(number(converted), unit.text))
 
 
-# ----------------------------------------------------------------------------- sources
-
-# A citation that was not checked in the book names what it cites instead: the theorem or
-# identity. Product sheets never say "from memory" (that marker belongs in tests).
-_UNCHECKED_CITATION = re.compile(
-    r"(?:(?<=; )|(?<=\()|^)[A-Z][^;()]*?\(([^()]*?);?\s*(?:number |numbers |eq\. )?"
-    r"from memory\)")
-_THEOREMS = {"energy dissipated in viscous damping": "work–energy theorem",
-             "free vibration of a viscously damped system":
-                 "homogeneous solution of the damped oscillator equation",
-             "unit impulse response": "impulse–momentum theorem (impulse response)"}
-
-
-def sheet_source(text: str) -> str:
-    """``text`` with every unchecked book citation replaced by the identity it stands for."""
-    def replace(match: re.Match) -> str:
-        topic = match.group(1).strip()
-        return _THEOREMS.get(topic, topic or "standard identity")
-    text = _UNCHECKED_CITATION.sub(replace, text)
-    return text.replace(" (from memory)", "").replace("; from memory", "")
-
-
 # ----------------------------------------------------------------------------- re-reading
 
 
@@ -1135,7 +1113,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         load_name = model.load_name
         rewrites.append({
             "load": rewrite.load_number, "shape": rewrite.shape, "rule": rewrite.rule,
-            "source": sheet_source(rewrite.source),
+            "source": rewrite.source,
             "start": typeset(min((t.at for t in rewrite.terms), key=_sort_time(units))
                              if rewrite.terms else 0),
             "terms": terms,
@@ -1177,7 +1155,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
             "title": kernel.name,
             "pair": (inline(typeset(kernel.pair.time_function) + r" \;\leftrightarrow\; "
                             + typeset(kernel.pair.transform)) if kernel.pair else None),
-            "source": sheet_source(kernel.pair.source) if kernel.pair else None,
+            "source": kernel.pair.source if kernel.pair else None,
         })
     free = None
     if solution.free is not None:
@@ -1297,9 +1275,9 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "version": __version__,
         "status": status,
         "passed": derivation.passed,
-        "failed": [{"name": c.name, "detail": sheet_source(c.detail)} for c in failed],
+        "failed": [{"name": c.name, "detail": c.detail} for c in failed],
         "check_count": len(derivation.checks),
-        "checks": [{"name": c.name, "passed": c.passed, "detail": sheet_source(c.detail)}
+        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail}
                    for c in derivation.checks],
         "section": section,
         "label": slug(stem),
@@ -1510,7 +1488,7 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol,
 
 def _time_shift_source() -> str:
     from .laplace import SOURCES
-    return sheet_source(SOURCES.get("time shift", ""))
+    return SOURCES.get("time shift", "")
 
 
 def _extra_fields(results) -> dict[str, Any]:

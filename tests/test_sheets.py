@@ -8,6 +8,7 @@ functions; the check itself is shown to catch corrupted printed lines (mutation 
 
 from __future__ import annotations
 
+import json
 import re
 import textwrap
 from pathlib import Path
@@ -539,12 +540,14 @@ def test_product_sheets_never_cite_from_memory(stem):
         assert "memory" not in text
 
 
-def test_unchecked_citations_become_the_theorem():
-    assert render.sheet_source(
-        "W and D by quadrature; Chopra, Dynamics of Structures, 4th ed., section 3.8 (energy "
-        "dissipated in viscous damping; from memory)") == \
-        "W and D by quadrature; work–energy theorem"
-    assert "time-shift" in render.render_markdown(derive_text(ISOLATOR))
+def test_sources_cite_the_theorem_in_the_json_too():
+    """The product's own source strings name the identity (the JSON carries them as they
+    are, so no rewriting on the sheet alone can hide a 'from memory' there)."""
+    derivation = derive_text(ISOLATOR)
+    details = [check["detail"] for check in json.loads(derivation.to_json())["checks"]]
+    assert not any("memory" in detail for detail in details)
+    assert any(detail.endswith("work–energy theorem") for detail in details)
+    assert "time-shift" in render.render_markdown(derivation)
 
 
 # ----------------------------------------------------------------------------- 11.5: console
