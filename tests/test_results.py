@@ -21,7 +21,7 @@ import pytest
 import sympy
 
 import closedform
-from closedform.energy import SUMMARY_LIMIT, energy_checks
+from closedform.checks.energy import SUMMARY_LIMIT, energy_checks
 from closedform.results import impulse_response_peak, result_fields, stationary_points
 from closedform.systems import build_model
 
@@ -456,12 +456,12 @@ def test_energy_balance_in_floats_agrees_with_the_25_digit_quadrature(history):
     25-digit mpmath.quad route give the same work, energy and dissipation at every breakpoint
     to 1e-11 relative (two independent quadratures of the same integrals), for polynomial
     load branches with an impulse and for sine branches evaluated point by point."""
-    from closedform.energy import _balance, _balance_in_floats
-    from closedform.verify import _equation
+    from closedform.checks.energy import _balance, _balance_in_floats
+    from closedform.checks.model import equation_of
 
     derivation = long_history() if history == "table-and-impulse" \
         else derive_text(REPEATED_HALF_SINE)
-    equation = _equation(derivation.case.system)
+    equation = equation_of(derivation.case.system)
     floats = _balance_in_floats(derivation, equation)
     precise = _balance(derivation, equation, {})
     assert len(floats) == len(precise) == len(derivation.pieces) > 40

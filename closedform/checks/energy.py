@@ -47,19 +47,16 @@ import mpmath
 import numpy
 import sympy
 
-from .results import FloatEvaluator, Interval, PreciseEvaluator, numeric_intervals, piece_functions
-from .verify import (
-    Check,
-    T,
-    _draws,
-    _equation,
-    _load_model,
-    _long_number,
-    _numeric_branches,
-    _NumericLoads,
-    _problem,
-    _resolved_values,
-)
+from ..results import FloatEvaluator, Interval, PreciseEvaluator, numeric_intervals, piece_functions
+from .base import Check, T
+from .long import NumericLoads as _NumericLoads
+from .long import long_number as _long_number
+from .long import numeric_branches as _numeric_branches
+from .model import equation_of as _equation
+from .model import load_model as _load_model
+from .model import problem_of as _problem
+from .substitutions import random_substitutions as _draws
+from .substitutions import resolved_values as _resolved_values
 
 DIGITS = 25                          # working precision of the quadrature
 TOLERANCE = mpmath.mpf("1e-12")      # relative closure of the balance
