@@ -31,7 +31,7 @@ one check each, **ode residual on N pieces** and **breakpoint conditions at N âˆ
 boundaries**, with the worst figure and where it occurs (residual at 3 points per interval
 between load breakpoints). The integration is compared at one or more points inside every
 load interval, at most LONG_SAMPLES, never on a breakpoint; steps of equal length share
-their matrix exponential. See "long histories" below.
+their matrix exponential. See the notes at the top of long.py.
 
 Symbolic cases get the residual, initial and breakpoint checks symbolically, and the numeric
 checks with the declared values (all symbols valued) or at three seeded random positive
