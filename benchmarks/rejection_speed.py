@@ -60,7 +60,7 @@ def main() -> None:
         print(f"slowest refusal of {len(rows)}: {worst[1]} {worst[0] * 1e3:.2f} ms "
               f"= {worst[0] / baseline:.1f}x baseline")
     derivation = derived("damped-half-sine")
-    from closedform.verify import verify
+    from closedform.checks.verification import verify
     seconds = best_of(lambda: verify(derivation), 3)
     print(f"verify one damped half-sine case: {seconds:.3f} s = {seconds / baseline:.0f}x baseline")
 

@@ -5,8 +5,9 @@ Run from the repository root::
 
     python benchmarks/verify_speed.py [--repeat 5] [--segments 100,1000] [--per-piece]
 
-Single pulse: derive() calls closedform.verify.verify at its end; "without verification"
-replaces that call by one returning no checks (the Derivation is then simply "failed", which
+Single pulse: derive() runs closedform.checks.verification.verify (the registry's
+"verification" family) after the results; "without verification" replaces that family's run
+by one returning no checks (the Derivation is then simply "failed", which
 does not matter for timing). Each variant is run ``--repeat`` times, alternating, and the
 fastest run of each is reported (sympy's caches make later runs faster; alternating keeps
 that fair).
@@ -29,10 +30,19 @@ from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
+import dataclasses  # noqa: E402
+
 import closedform.derivation as derivation_module  # noqa: E402
-import closedform.verify as verify_module  # noqa: E402
 from closedform.case import load_case  # noqa: E402
-from closedform.verify import verify  # noqa: E402
+from closedform.checks import long as long_route  # noqa: E402
+from closedform.checks import registry  # noqa: E402
+from closedform.checks.verification import verify  # noqa: E402
+
+
+def set_verification(run) -> None:
+    """Put ``run`` in place of the registry's verification family."""
+    registry.FAMILIES = tuple(dataclasses.replace(f, run=run) if f.name == "verification" else f
+                              for f in registry.FAMILIES)
 
 # A machine skid struck by a short half-sine pulse: a damped oscillator, window ≈ 10 periods.
 CASE = """
@@ -77,7 +87,7 @@ until = "{segments * 0.5 + 100:g} ms"
 
 
 def timed(with_checks: bool) -> tuple[float, int]:
-    derivation_module.verify = verify if with_checks else (lambda _partial: [])
+    set_verification(verify if with_checks else (lambda _partial: []))
     case = load_case("", text=CASE, name="benchmark.toml")
     began = time.perf_counter()
     result = derivation_module.derive(case)
@@ -93,7 +103,7 @@ def single_pulse(repeat: int) -> None:
             elapsed, checks = timed(True)
             with_.append(elapsed)
     finally:
-        derivation_module.verify = verify
+        set_verification(verify)
     plain, checked = min(without), min(with_)
     print(f"derive() without verification: {plain:8.3f} s  (fastest of {repeat})")
     print(f"derive() with verification:    {checked:8.3f} s  ({checks} checks)")
@@ -103,13 +113,13 @@ def single_pulse(repeat: int) -> None:
 
 def long_history(segments: int, per_piece: bool) -> None:
     case = load_case("", text=long_case(segments), name=f"history-{segments}.toml")
-    derivation_module.verify = lambda _partial: []
+    set_verification(lambda _partial: [])
     try:
         began = time.perf_counter()
         derivation = derivation_module.derive(case, time_budget=None)
         derived = time.perf_counter() - began
     finally:
-        derivation_module.verify = verify
+        set_verification(verify)
     began = time.perf_counter()
     checks = verify(derivation)
     verified = time.perf_counter() - began
@@ -118,14 +128,14 @@ def long_history(segments: int, per_piece: bool) -> None:
           f"verification {derived:7.2f} s, verify() {verified:7.2f} s ({len(checks)} checks, "
           f"{'all passed' if not failed else f'{failed} FAILED'})")
     if per_piece:
-        saved = verify_module.LONG_HISTORY
-        verify_module.LONG_HISTORY = len(derivation.pieces)
+        saved = long_route.LONG_HISTORY
+        long_route.LONG_HISTORY = len(derivation.pieces)
         try:
             began = time.perf_counter()
             checks = verify(derivation)
             elapsed = time.perf_counter() - began
         finally:
-            verify_module.LONG_HISTORY = saved
+            long_route.LONG_HISTORY = saved
         failed = sum(not c.passed for c in checks)
         print(f"{'':>7s}per-piece route on the same derivation: {elapsed:7.2f} s "
               f"({len(checks)} checks, {'all passed' if not failed else f'{failed} FAILED'})")

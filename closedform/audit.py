@@ -13,7 +13,7 @@ value, the relative difference and the tolerance:
   1. **against the equation**: the formula is put in place of our pieces on its interval,
      after our response up to ``from`` (which supplies the state it has to continue from),
      and the window is cut at ``to``; that response gets the very checks our own derivation
-     gets, through the same entry points (``verify.verify`` and ``energy.energy_checks``):
+     gets, through the same registry (``checks.registry.run_checks``, its ``CLAIM`` families):
      ODE residual on the interval, initial values (``from = 0``) or continuity at ``from``,
      the independent integration of the equation and the energy balance. These checks
      keep the limits they have for our derivation (round-off of 30-digit arithmetic), so
@@ -44,6 +44,7 @@ import mpmath
 import sympy
 
 from . import quantities
+from .checks.base import Check
 from .claims import (
     Claimable,
     ClaimedPiece,
@@ -59,7 +60,6 @@ from .claims import (
 from .errors import CaseError
 from .response import Piece, t
 from .results import real_number
-from .verify import Check
 
 SAMPLES_PER_INTERVAL = 200
 AUDIT_FORMATS = ("md", "tex", "pdf", "json")
@@ -287,11 +287,11 @@ def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
 
 
 def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
-    """The checks of our own derivation (one list: verify, then the energy balance)."""
-    from .energy import energy_checks
-    from .verify import verify
+    """The checks of our own derivation that apply to a claimed response (the registry's
+    ``CLAIM`` families: the verification, then the energy balance)."""
+    from .checks.registry import CLAIM, run_checks
 
-    return tuple(verify(response)) + tuple(energy_checks(response))
+    return run_checks(response, CLAIM)
 
 
 def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:

@@ -15,13 +15,12 @@ import sympy
 
 from . import __version__
 from .case import Case
-from .energy import energy_checks
-from .extremes import extreme_checks
+from .checks.base import Check
+from .checks.registry import DERIVE, run_checks
 from .loads import LoadHistory, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
-from .verify import Check, verify
 
 DEFAULT_PERIODS = 5   # default window: last load end + this many slowest periods/time constants
 
@@ -219,15 +218,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
         with budget.stage("results"):
             results = evaluate_results(case, model, history, solution, window)
         partial = Derivation(case, model, history, window, solution, results, ())
-        with budget.stage("verification"):
-            checks = tuple(verify(partial))
-        with budget.stage("energy balance"):
-            checks += tuple(energy_checks(partial))
-        with budget.stage("re-reading the printed equations"):
-            from .render import printed_equation_check
-            checks += (printed_equation_check(partial),)
-        with budget.stage("extremes"):
-            checks += tuple(extreme_checks(partial))
+        checks = run_checks(partial, DERIVE, stage=budget.stage)
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results))

@@ -36,11 +36,12 @@ import mpmath
 import sympy
 from sympy.printing.latex import LatexPrinter
 
-from . import __version__, plots, quantities, reread
+from . import __version__, plots, quantities
+from .checks import reread
 from .errors import CaseError, ClosedformError
 
 if TYPE_CHECKING:
-    from .verify import Check
+    from .checks.base import Check
 
 FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
 
@@ -885,8 +886,8 @@ class _EquationRecorder:
 
 def printed_equation_check(derivation) -> Check:
     """Every displayed equation of the Markdown sheet read back from the printed text and
-    compared with the derivation at many points (see :mod:`closedform.reread`)."""
-    from .verify import Check
+    compared with the derivation at many points (see :mod:`closedform.checks.reread`)."""
+    from .checks.base import Check
 
     name = "printed equations re-read"
     try:

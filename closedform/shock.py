@@ -49,6 +49,7 @@ import sympy
 from .basis import NumericExponentialPolynomial
 from .budget import Budget
 from .case import LoadSpec, SystemSpec
+from .checks.spectrum_check import RATIO_RANGE, PointCheck, check_point
 from .loads import rewrite_loads
 from .response import solve
 from .results import (
@@ -60,7 +61,6 @@ from .results import (
     numeric_intervals,
 )
 from .spectrum import SHAPES
-from .spectrum_check import RATIO_RANGE, PointCheck, check_point
 from .systems import build_model
 
 RATIO = sympy.Symbol("r", positive=True)        # t_d / T_n

@@ -88,7 +88,7 @@ def parse_ratios(text: str) -> list:
 
 
 def _in_range(ratio, text: str, option: str) -> None:
-    from .spectrum_check import RATIO_RANGE
+    from .checks.spectrum_check import RATIO_RANGE
 
     low, high = RATIO_RANGE
     if not low <= ratio <= high:

@@ -13,9 +13,9 @@ import pytest
 import closedform.derivation
 from closedform import appendix, render
 from closedform.batch import TerminalProgress
+from closedform.checks.base import Check
 from closedform.cli import main
 from closedform.errors import DerivationError
-from closedform.verify import Check
 
 STEP = """
 title = "Step on a spring-mass"

@@ -18,7 +18,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from closedform.basis import NumericExponentialPolynomial
-from closedform.extremes import MAX_TOLERANCE, enclose_piece, prepare
+from closedform.checks.extremes import MAX_TOLERANCE, enclose_piece, prepare
 from closedform.results import Interval, extreme_magnitude
 
 DIGITS = 60

@@ -26,8 +26,8 @@ import pytest
 
 import closedform
 from closedform import render
+from closedform.checks.base import Check
 from closedform.errors import ClosedformError
-from closedform.verify import Check
 
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"

@@ -22,7 +22,7 @@ import pytest
 import sympy
 
 import closedform
-from closedform.energy import SUMMARY_LIMIT, energy_checks
+from closedform.checks.energy import SUMMARY_LIMIT, energy_checks
 from closedform.results import impulse_response_peak, result_fields, stationary_points
 from closedform.systems import build_model
 
@@ -474,7 +474,7 @@ def test_energy_balance_in_closed_form_agrees_with_adaptive_quadrature(history):
     summary line) agree with scipy's adaptive quadrature of f·x′ and x′² (a reference
     library) to 1e-9 of the work, for polynomial (table) branches with an impulse and for
     sine branches."""
-    from closedform.energy import balance
+    from closedform.checks.energy import balance
 
     if history == "table-and-impulse":
         derivation = long_history()
@@ -575,7 +575,7 @@ def test_energy_balance_is_inconclusive_where_rounding_exceeds_its_limit():
     """A balance whose rounding allowance (terms cancelling beyond the working digits) is
     above its limit and does not close is inconclusive — not passed, not failed — and says
     why; one that closes anyway passes; a settled balance that does not close fails."""
-    from closedform.energy import _closure, _summarised
+    from closedform.checks.energy import _closure, _summarised
 
     unsettled = _closure(1, mpmath.mpf(1), mpmath.mpf(1), 0, 0, mpmath.mpf(1),
                          mpmath.mpf("1e-9"), "J", "40 digits")

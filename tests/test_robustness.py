@@ -18,8 +18,8 @@ from pathlib import Path
 
 import pytest
 
-import closedform.derivation
 from closedform.cli import main
+from tests.conftest import check_run, replace_check_run
 
 GOOD = """\
 title = "Hammer on a skid"
@@ -254,7 +254,7 @@ def test_budget_names_the_stage_even_when_a_check_swallows_errors(tmp_path, caps
             pass
         return []
 
-    monkeypatch.setattr(closedform.derivation, "verify", stubborn_verify)
+    replace_check_run(monkeypatch, "verification", stubborn_verify)
     case = tmp_path / "case.toml"
     case.write_text(GOOD)
     out = tmp_path / "out"
@@ -329,14 +329,14 @@ def test_folder_with_one_good_and_two_bad_cases(tmp_path, capsys, jobs):
 
 def test_batch_exit_code_is_the_worst_one(tmp_path, capsys, monkeypatch):
     """A good case (0), one past its budget (1) and a bad one (2): exit 2, all reported."""
-    real_verify = closedform.derivation.verify
+    real_verify = check_run("verification")
 
     def verify(derivation):
         if derivation.case.title == "Slow":
             time.sleep(30)
         return real_verify(derivation)
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     folder = tmp_path / "cases"
     folder.mkdir()
     (folder / "a-good.toml").write_text(GOOD)

@@ -25,6 +25,7 @@ import pytest
 import closedform.derivation
 from closedform import outputs, render
 from closedform.cli import main
+from tests.conftest import check_run, replace_check_run
 from tests.test_cli import GOOD
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -260,7 +261,7 @@ def test_a_full_disk_in_a_batch_reports_the_case_and_goes_on(tmp_path, capsys, m
 @pytest.mark.parametrize("jobs", ["1", "2"])
 @pytest.mark.parametrize("death", ["exit", "kill"])
 def test_a_dying_worker_loses_only_its_own_case(tmp_path, capsys, monkeypatch, jobs, death):
-    real_verify = closedform.derivation.verify
+    real_verify = check_run("verification")
 
     def verify(derivation):
         if derivation.case.title == "Doomed":
@@ -269,7 +270,7 @@ def test_a_dying_worker_loses_only_its_own_case(tmp_path, capsys, monkeypatch, j
             os.kill(os.getpid(), signal.SIGKILL)
         return real_verify(derivation)
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     cases = tmp_path / "cases"
     cases.mkdir()
     (cases / "a.toml").write_text(GOOD)
@@ -290,7 +291,7 @@ def test_a_dying_worker_loses_only_its_own_case(tmp_path, capsys, monkeypatch, j
 # --- 13.4: the memory budget -----------------------------------------------------------------
 
 def test_a_case_past_its_memory_budget_fails_cleanly_and_alone(tmp_path, capsys, monkeypatch):
-    real_verify = closedform.derivation.verify
+    real_verify = check_run("verification")
     hoard = []
 
     def verify(derivation):
@@ -300,7 +301,7 @@ def test_a_case_past_its_memory_budget_fails_cleanly_and_alone(tmp_path, capsys,
                 time.sleep(0.02)
         return real_verify(derivation)
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     cases = tmp_path / "cases"
     cases.mkdir()
     (cases / "a.toml").write_text(titled("Greedy"))
@@ -319,7 +320,7 @@ def test_a_memory_error_inside_the_worker_is_reported_as_memory(tmp_path, capsys
     def verify(derivation):
         raise MemoryError
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     case = tmp_path / "case.toml"
     case.write_text(GOOD)
     assert main(["derive", str(case), "--json", "-"]) == 1
@@ -353,16 +354,18 @@ def test_a_memory_budget_beyond_the_machine_is_refused(tmp_path, capsys):
 SLOW_RUNNER = textwrap.dedent("""
     import os, sys, time
     sys.path.insert(0, {root!r})
-    import closedform.derivation
+    import dataclasses
+    from closedform.checks import registry
     from closedform.cli import main
-    real = closedform.derivation.verify
+    real = registry.FAMILIES[0].run
+    assert registry.FAMILIES[0].name == "verification"
     def verify(derivation):
         if derivation.case.title == "Slow":
             with open(os.path.join({pids!r}, str(os.getpid())), "w"):
                 pass
             time.sleep(600)
         return real(derivation)
-    closedform.derivation.verify = verify
+    registry.FAMILIES = (dataclasses.replace(registry.FAMILIES[0], run=verify),) + registry.FAMILIES[1:]
     sys.exit(main(sys.argv[1:]))
     """)
 
@@ -589,7 +592,7 @@ def test_a_case_stuck_where_the_alarm_cannot_reach_is_ended_by_the_parent(tmp_pa
     the budget and names the case."""
     import closedform.batch
 
-    real_verify = closedform.derivation.verify
+    real_verify = check_run("verification")
 
     def verify(derivation):
         if derivation.case.title == "Stuck":
@@ -597,7 +600,7 @@ def test_a_case_stuck_where_the_alarm_cannot_reach_is_ended_by_the_parent(tmp_pa
             time.sleep(600)
         return real_verify(derivation)
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     monkeypatch.setattr(closedform.batch, "GRACE_SECONDS", 1.0)
     cases = tmp_path / "cases"
     cases.mkdir()

@@ -1,7 +1,7 @@
 """Sheets a checker will sign: every printed equation read back, report units, numbers,
 status words, warnings and layout.
 
-The equation re-reading check (closedform.reread) parses the printed LaTeX with its own
+The equation re-reading check (closedform.checks.reread) parses the printed LaTeX with its own
 reader and compares it with the derivation. Its reader is checked here against mpmath's
 functions; the check itself is shown to catch corrupted printed lines (mutation tests).
 """
@@ -17,7 +17,9 @@ import mpmath
 import pytest
 
 import closedform
-from closedform import render, reread
+from closedform import render
+from closedform.checks import reread
+from closedform.checks.base import Check
 
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
@@ -29,7 +31,7 @@ def derive_text(text: str, name: str = "sheet.toml") -> closedform.Derivation:
     return closedform.derive(closedform.load_case_text(textwrap.dedent(text), name))
 
 
-def check_of(derivation) -> closedform.verify.Check:
+def check_of(derivation) -> Check:
     [check] = [c for c in derivation.checks if c.name == CHECK]
     return check
 

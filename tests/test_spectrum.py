@@ -19,9 +19,9 @@ import mpmath
 import pytest
 import sympy
 
+from closedform.checks.spectrum_check import check_point
 from closedform.cli import main
 from closedform.spectrum import Pulse, parse_range, response_spectrum, spectrum_point
-from closedform.spectrum_check import check_point
 
 R = sympy.Rational
 

@@ -1,4 +1,4 @@
-"""The independent verification stage (closedform.verify).
+"""The independent verification stage (closedform.checks.verification).
 
 Three kinds of test:
 
@@ -29,10 +29,11 @@ from functools import cache
 import pytest
 import sympy
 
-import closedform.verify as verify_module
 from closedform.case import load_case
+from closedform.checks import long as long_route
+from closedform.checks.base import Check, T
+from closedform.checks.verification import verify
 from closedform.derivation import derive
-from closedform.verify import Check, T, verify
 
 # ----------------------------------------------------------------------------- helpers
 
@@ -798,7 +799,7 @@ def long_derivation():
 def test_long_history_gets_one_aggregated_check_of_each_kind():
     derivation = long_derivation()
     count = len(derivation.pieces)
-    assert count > verify_module.LONG_HISTORY
+    assert count > long_route.LONG_HISTORY
     checks = verify(derivation)
     assert not failures(checks), explain(checks)
     assert [c.name for c in checks] == [
@@ -810,7 +811,7 @@ def test_long_history_gets_one_aggregated_check_of_each_kind():
     assert "x' jumps by b·J/a_n at t = 0.0205 (impulse of load[2])" in checks[3].detail
     points = int(check_named(checks, "independent integration")[0].detail.split(" points")[0]
                  .rsplit(" ", 1)[1])
-    assert 50 <= points <= verify_module.LONG_SAMPLES
+    assert 50 <= points <= long_route.LONG_SAMPLES
 
 
 def test_long_history_is_read_from_the_local_form_without_substitution():

@@ -1,7 +1,7 @@
 """Independent check of every reported extreme (peak, peak velocity, support reaction, …).
 
 The search for the extremes (results.py) and this check share nothing but the pieces: the
-pieces are read again by the verification's own parser (verify._Parser) into complex
+pieces are read again by the verification's own parser (checks.long.Parser) into complex
 exponential terms, and the quantity behind each JSON name is rebuilt here from the model's
 equation (spring force k·x, support reaction k·x + c·x′, current C·v′, …), never taken from
 the engine's definitions. For each reported extreme (signed value P at time t*) the check
@@ -48,7 +48,10 @@ import mpmath
 import numpy
 import sympy
 
-from .verify import _U, PARSE_DIGITS, Check, _equation, _OutsideStructure, _Parser, _resolved_values
+from .base import Check
+from .long import LOCAL_TIME, PARSE_DIGITS, OutsideStructure, Parser
+from .model import equation_of
+from .substitutions import resolved_values
 
 MAX_TOLERANCE = 1.5e-9        # no |q| above |P|·(1 + this): the reported value is the earliest
                               # within 1e-9 of the maximum, so it may lie up to 1e-9 below it;
@@ -89,7 +92,7 @@ def _add_parsed(terms: Terms, parsed, factor) -> None:
                 terms[key] = terms.get(key, 0) + base * c
 
 
-def piece_terms(piece: Any, values: Mapping, parser: _Parser) -> Terms:
+def piece_terms(piece: Any, values: Mapping, parser: Parser) -> Terms:
     """The piece in its local time v = t − start, read by the verification's parser."""
     terms: Terms = {}
     local = piece.local
@@ -98,10 +101,10 @@ def piece_terms(piece: Any, values: Mapping, parser: _Parser) -> Terms:
         if isinstance(modes, Mapping):
             for mode, coefficient in modes.items():
                 c = parser.number(sympy.sympify(coefficient).subs(values))
-                parsed = parser.terms(sympy.sympify(mode.expression(_U)).subs(values))
+                parsed = parser.terms(sympy.sympify(mode.expression(LOCAL_TIME)).subs(values))
                 _add_parsed(terms, parsed, c)
         else:
-            _add_parsed(terms, parser.terms(sympy.sympify(local.expression(_U)).subs(values)), 1)
+            _add_parsed(terms, parser.terms(sympy.sympify(local.expression(LOCAL_TIME)).subs(values)), 1)
     return {key: c for key, c in terms.items() if c != 0}
 
 
@@ -146,8 +149,8 @@ def fastest_rate(terms: Terms) -> float:
 def quantity_weights(case) -> dict[str, tuple]:
     """JSON name → weights (w₀, w₁, w₂) of x, x′, x″, from the model's own equation."""
     system = case.system
-    equation = _equation(system)
-    values = _resolved_values(case)
+    equation = equation_of(system)
+    values = resolved_values(case)
 
     def number(expr):
         return mpmath.mpf(str(sympy.N(sympy.sympify(expr).subs(values), PARSE_DIGITS)))
@@ -401,7 +404,7 @@ def enclose_piece(prep: _Prepared, length: float, limit: float) -> Enclosure:
 
 
 def _pieces(derivation, values: Mapping) -> list[tuple[mpmath.mpf, mpmath.mpf, Terms]]:
-    parser = _Parser(_U)
+    parser = Parser(LOCAL_TIME)
     pieces = derivation.pieces
     with mpmath.workdps(PARSE_DIGITS):
         starts = [_number(p.start, values) for p in pieces]
@@ -433,10 +436,10 @@ def extreme_checks(derivation) -> list[Check]:
     if not reported:
         return []
     try:
-        values = _resolved_values(case)
+        values = resolved_values(case)
         pieces = _pieces(derivation, values)
         weights = quantity_weights(case)
-    except (_OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
+    except (OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
         return [Check("extremes read again", False,
                       f"the pieces could not be read for the check of the extremes: "
                       f"{type(error).__name__}: {error}")]

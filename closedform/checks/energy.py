@@ -43,18 +43,11 @@ from typing import Any
 import mpmath
 import sympy
 
-from .case import TAU
-from .verify import (
-    _U,
-    Check,
-    _draws,
-    _equation,
-    _local_shape,
-    _OutsideStructure,
-    _Parser,
-    _problem,
-    _resolved_values,
-)
+from ..case import TAU
+from .base import Check
+from .long import LOCAL_TIME, OutsideStructure, Parser
+from .model import equation_of, local_shape, problem_of
+from .substitutions import random_substitutions, resolved_values
 from .work_integrals import (
     FLOAT64,
     Arithmetic,
@@ -83,7 +76,7 @@ def energy_checks(derivation) -> list[Check]:
     """One check per breakpoint (and at the end of the window) that the work done by the
     loads equals the kinetic and strain energy gained plus the energy dissipated."""
     case = derivation.case
-    equation = _equation(case.system)
+    equation = equation_of(case.system)
     if equation.order != 2 or not derivation.pieces:
         return []
     try:
@@ -101,7 +94,7 @@ def balance(derivation, values: Mapping | None = None) -> list[Closure]:
     """The balance at every breakpoint, in the first arithmetic that decides all of them:
     40, 80 and 160 digits; for a long numeric history float64 first, each integral redone at
     40 digits where float64's rounding allowance would not be small against the limit."""
-    equation = _equation(derivation.case.system)
+    equation = equation_of(derivation.case.system)
     values = dict(values or {})
     passes: list[tuple[Arithmetic | None, Arithmetic]] = [(None, precise(d)) for d in PRECISIONS]
     if not values and len(derivation.pieces) > SUMMARY_LIMIT:
@@ -121,8 +114,8 @@ def _substitution(derivation) -> dict | None:
     if not case.symbols:
         return {}
     if case.is_fully_valued:
-        return _resolved_values(case)
-    draws = _draws(case, _problem(derivation))
+        return resolved_values(case)
+    draws = random_substitutions(case, problem_of(derivation))
     return draws[0] if draws else None
 
 
@@ -162,7 +155,7 @@ class _Balance:
         return (self.a2 * velocity**2 + self.a0 * x**2) / 2
 
 
-def _scaled_equation(case, equation, number: Callable) -> _Balance:
+def _scaledequation_of(case, equation, number: Callable) -> _Balance:
     a2, a1, a0 = (number(a) for a in equation.coefficients)
     b = number(equation.scale)
     factor = number(case.system.parameters["capacitance"]) \
@@ -206,7 +199,7 @@ class _PieceReader:
 
     def __init__(self, number: _Numbers) -> None:
         self.number = number
-        self.parser = _Parser(_U)
+        self.parser = Parser(LOCAL_TIME)
         self.modes: dict = {}
 
     def __call__(self, piece) -> list[Row]:
@@ -221,14 +214,14 @@ class _PieceReader:
                 c = self.number(coefficient)
                 rows += [_term_row(term, c) for term in self._mode(mode)]
         else:
-            expr = sympy.sympify(local.expression(_U)).subs(self.number.values)
+            expr = sympy.sympify(local.expression(LOCAL_TIME)).subs(self.number.values)
             rows = [_term_row(term) for term in self.parser.terms(expr)]
         return combined(rows)
 
     def _mode(self, mode) -> list:
         if mode not in self.modes:
             if self.number.values:
-                expr = sympy.sympify(mode.expression(_U)).subs(self.number.values)
+                expr = sympy.sympify(mode.expression(LOCAL_TIME)).subs(self.number.values)
                 self.modes[mode] = self.parser.terms(expr)
             else:
                 self.modes[mode] = self.parser.mode(mode)
@@ -255,7 +248,7 @@ class _Loads:
     """The loads from their own definitions: branches and impulses, with numbers."""
 
     def __init__(self, loads, exact: _Numbers, both: _Both) -> None:
-        parser = _Parser(TAU)
+        parser = Parser(TAU)
         self.branches: list[_Branch] = []
         self.impulses: list[tuple[Any, Any]] = []
         number = exact
@@ -270,14 +263,14 @@ class _Loads:
                         row = Row((v0, (v1 - v0) / (t1 - t0)), zero, True)
                         local.append((t0, t1, t0, (row,), None, None))
             else:
-                shape, kicks = _local_shape(load)
+                shape, kicks = local_shape(load)
                 for lo, hi, expression, rate in shape:
                     expression = sympy.sympify(expression).subs(exact.values)
                     top = math.inf if hi is None else number(hi)
                     try:
                         found = combined(_term_row(t) for t in parser.terms(expression))
                         local.append((number(lo), top, zero, tuple(found), None, None))
-                    except _OutsideStructure:
+                    except OutsideStructure:
                         function = sympy.lambdify(TAU, expression, modules="mpmath")
                         local.append((number(lo), top, zero, None, function,
                                       exact(rate) if rate is not None else None))
@@ -351,7 +344,7 @@ def _balance(derivation, equation, values: Mapping, fast: Arithmetic | None,
     with mpmath.workdps(digits):
         both = _Both(fast, exact_arithmetic)
         exact = _Numbers(values)
-        scaled = _scaled_equation(case, equation, exact)
+        scaled = _scaledequation_of(case, equation, exact)
         pieces = derivation.pieces
         starts = [exact(p.start) for p in pieces]
         until = exact(derivation.window.until)

@@ -1,0 +1,70 @@
+"""One registry of the families of checks, in the order they run and are reported.
+
+``derive`` runs every family that applies to a derivation (``DERIVE``), the ``check`` command
+the ones that apply to a claimed response (``CLAIM``: a derivation-shaped response made of our
+pieces up to a claimed formula, see ``audit.ClaimedResponse``). Each family returns its
+checks as a list; the order of the families here is the order of the checks in the JSON
+result and on the sheets.
+
+A new family is one module in this package and one entry in ``FAMILIES``.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import AbstractContextManager, nullcontext
+from dataclasses import dataclass
+from typing import Any
+
+from .base import Check
+from .energy import energy_checks
+from .extremes import extreme_checks
+from .verification import verify
+
+DERIVE = "derive"      # the checks of a derivation (``closedform derive``, ``derive()``)
+CLAIM = "claim"        # the checks of a claimed response (``closedform check``)
+
+
+@dataclass(frozen=True)
+class CheckFamily:
+    """A family of checks: ``name`` is also the stage the time budget names while it runs;
+    ``applies`` the runs it belongs to (``DERIVE``, ``CLAIM``); ``run`` gives its checks."""
+
+    name: str
+    applies: frozenset[str]
+    run: Callable[[Any], Sequence[Check]]
+
+
+def _printed_equations(derivation: Any) -> Sequence[Check]:
+    # The sheet is rendered and read back with the checks' own parser (reread.py); the
+    # rendering lives with the sheets (imported here, when run: render imports this package).
+    from ..render import printed_equation_check
+
+    return [printed_equation_check(derivation)]
+
+
+FAMILIES: tuple[CheckFamily, ...] = (
+    CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify),
+    CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks),
+    CheckFamily("re-reading the printed equations", frozenset({DERIVE}), _printed_equations),
+    CheckFamily("extremes", frozenset({DERIVE}), extreme_checks),
+)
+
+
+def families(run: str) -> Iterator[CheckFamily]:
+    """The families that apply to ``run`` (``DERIVE`` or ``CLAIM``), in order."""
+    if run not in (DERIVE, CLAIM):
+        raise ValueError(f"unknown run of the checks: {run!r}")
+    return (family for family in FAMILIES if run in family.applies)
+
+
+def run_checks(response: Any, run: str,
+               stage: Callable[[str], AbstractContextManager] | None = None) -> tuple[Check, ...]:
+    """The checks of every family that applies to ``run``, in the registry's order.
+
+    ``stage`` (the time budget's ``stage``) is entered around each family with its name."""
+    checks: list[Check] = []
+    for family in families(run):
+        with stage(family.name) if stage is not None else nullcontext():
+            checks += family.run(response)
+    return tuple(checks)
