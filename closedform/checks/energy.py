@@ -213,9 +213,15 @@ class _PieceReader:
             for mode, coefficient in terms.items():
                 c = self.number(coefficient)
                 rows += [_term_row(term, c) for term in self._mode(mode)]
-        else:
+        elif callable(getattr(local, "expression", None)):
             expr = sympy.sympify(local.expression(LOCAL_TIME)).subs(self.number.values)
             rows = [_term_row(term) for term in self.parser.terms(expr)]
+        else:       # no exponential-polynomial form: its numeric form says why, or it has none
+            numeric = getattr(local, "numeric", None)
+            if callable(numeric):
+                numeric(self.number.values, mpmath.mp.dps)
+            raise ValueError("a piece is not a sum of terms u^k·e^(σu)·cos|sin(ωu), which this "
+                             "check integrates")
         return combined(rows)
 
     def _mode(self, mode) -> list:
