@@ -77,6 +77,7 @@ class Flavour:
     figure_suffix: str                  # the plots it references: "svg" | "pdf"
     missing: str                        # what an absent value (None) prints as
     unbroken: Callable[[str], Any]      # a short text that must not be broken across lines
+    document: str | None = None         # the template a standalone sheet is wrapped in
     delimiters: tuple[tuple[str, str], ...] = ()    # Jinja2's options, where not its defaults
 
     def template(self, document: str) -> str:
@@ -91,7 +92,7 @@ class Flavour:
 
 
 MARKDOWN = Flavour("md", markdown_escape, markdown_equation, "svg", "—", str)
-LATEX = Flavour("tex", latex_escape, latex_equation, "pdf", "---", _unbroken_latex,
+LATEX = Flavour("tex", latex_escape, latex_equation, "pdf", "---", _unbroken_latex, "document",
                 (("block_start_string", r"((*"), ("block_end_string", r"*))"),
                  ("variable_start_string", r"((("), ("variable_end_string", r")))"),
                  ("comment_start_string", r"((="), ("comment_end_string", r"=))")))

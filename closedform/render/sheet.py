@@ -9,7 +9,7 @@ from typing import TYPE_CHECKING
 from .. import reread
 from .context import sheet_context
 from .escaping import Math
-from .flavours import LATEX, MARKDOWN
+from .flavours import LATEX, MARKDOWN, Flavour
 
 if TYPE_CHECKING:
     from ..verify import Check
@@ -18,14 +18,28 @@ PAPER_OPTIONS = {"a4": "a4paper", "letter": "letterpaper"}
 LATEX_PACKAGES = ("amsmath", "amssymb", "booktabs", "longtable", "array", "graphicx")
 
 
+def render_sheet(derivation, flavour: Flavour, *, stem: str | None = None,
+                 section: int | None = None, level: int = 1, standalone: bool = True) -> str:
+    """The sheet in ``flavour``, its figures named after ``stem``. ``section`` and ``level``
+    number and nest it inside an appendix; ``standalone`` wraps it in the flavour's
+    document (LaTeX: preamble and paper size) where the flavour has one."""
+    context = sheet_context(derivation, flavour.name, stem=stem, section=section)
+    context.update({"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
+                    "label_anchor": f"case-{context['label']}" if section else None})
+    body = flavour.render("sheet", context)
+    if not standalone or flavour.document is None:
+        return body
+    return flavour.render(flavour.document, {
+        "preamble": Math(latex_preamble()), "body": Math(body), "title": context["title"],
+        "status": context["status"], "label": context["label"],
+        "paper": Math(PAPER_OPTIONS[context["paper"]])})
+
+
 def render_markdown(derivation, *, stem: str | None = None, section: int | None = None,
                     level: int = 1) -> str:
     """The sheet as Markdown with $…$ / $$…$$ math; figures are referenced as SVG files
     named after ``stem``. ``section`` and ``level`` number and nest it inside an appendix."""
-    context = sheet_context(derivation, MARKDOWN.name, stem=stem, section=section)
-    context.update({"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
-                    "label_anchor": f"case-{context['label']}" if section else None})
-    return MARKDOWN.render("sheet", context)
+    return render_sheet(derivation, MARKDOWN, stem=stem, section=section, level=level)
 
 
 def latex_preamble() -> str:
@@ -38,24 +52,7 @@ def render_latex(derivation, standalone: bool = True, *, stem: str | None = None
     """The sheet as LaTeX: a complete document, or (``standalone=False``) a fragment that
     starts with \\section and can be \\input into an appendix whose preamble has
     :func:`latex_preamble`. Figures are referenced as PDF files named after ``stem``."""
-    context = sheet_context(derivation, LATEX.name, stem=stem, section=section)
-    body = LATEX.render("sheet", context)
-    if not standalone:
-        return body
-    return LATEX.render("document", {
-        "preamble": Math(latex_preamble()), "body": Math(body), "title": context["title"],
-        "status": context["status"], "label": context["label"],
-        "paper": Math(PAPER_OPTIONS[context["paper"]])})
-
-
-def render_sheet(derivation, flavour, *, stem: str | None = None, section: int | None = None,
-                 level: int = 1, standalone: bool = True) -> str:
-    """The sheet in ``flavour`` (a :class:`~.flavours.Flavour` or its name): the Markdown
-    sheet at heading ``level``, or the LaTeX document (a fragment unless ``standalone``)."""
-    name = getattr(flavour, "name", flavour)
-    if name == MARKDOWN.name:
-        return render_markdown(derivation, stem=stem, section=section, level=level)
-    return render_latex(derivation, standalone, stem=stem, section=section)
+    return render_sheet(derivation, LATEX, stem=stem, section=section, standalone=standalone)
 
 
 def printed_equation_check(derivation) -> Check:
