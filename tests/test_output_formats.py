@@ -128,3 +128,18 @@ def test_formats_are_gathered_in_the_registrys_order_whatever_order_they_are_ask
     with pytest.raises(ClosedformError, match="no CSV output"):
         render.write_files(Probe("probe"), ["csv"])
     assert [f.name for f in render.flavours_of(["pdf", "json", "tex"])] == ["tex"]
+
+
+@pytest.mark.parametrize("name", sorted(render.FLAVOURS))
+def test_every_flavour_has_a_template_for_every_document(name):
+    flavour = render.flavour(name)
+    templates = Path(render.__file__).parent.parent / "templates"
+    for document in ("sheet", "appendix", "audit", "audit_claims", "inversion",
+                     *([flavour.document] if flavour.document else [])):
+        assert (templates / flavour.template(document)).is_file(), flavour.template(document)
+    assert flavour.figure_suffix in ("svg", "pdf")
+
+
+def test_an_unknown_flavour_is_named():
+    with pytest.raises(ValueError, match="unknown template target 'html'"):
+        render.flavour("html")
