@@ -299,5 +299,5 @@ def run_appendix(arguments: argparse.Namespace) -> int:
     return 1 if failed else 0
 
 
-__all__ = ["APPENDIX_FORMATS", "AppendixDocument", "CaseEntry", "Unusable", "assemble", "build_appendix",
-           "case_files", "prepare_case", "register", "run_appendix"]
+__all__ = ["APPENDIX_FORMATS", "AppendixDocument", "CaseEntry", "Unusable", "assemble",
+           "build_appendix", "case_files", "prepare_case", "register", "run_appendix"]
