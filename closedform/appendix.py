@@ -36,7 +36,7 @@ STATUS_TEXT = {"verified": "verified", "failed": "FAILED", "not derived": "FAILE
 
 @dataclass(frozen=True)
 class SummaryCells:
-    """The summary-table cells of one case for one target (md or tex), already formatted."""
+    """The summary-table cells of one case for one flavour (md or tex), already formatted."""
 
     peak: str | None
     dlf: str | None
@@ -53,18 +53,24 @@ class CaseEntry:
     reference: str
     status: str                    # "verified", "failed" or "not derived"
     problem: str = ""              # why a case was not derived
-    markdown: str = ""
-    latex: str = ""
-    summary: dict[str, SummaryCells] = field(default_factory=dict)
+    bodies: dict[str, str] = field(default_factory=dict)     # flavour name → its section
+    summary: dict[str, SummaryCells] = field(default_factory=dict)   # by flavour name
     files: dict[str, bytes] = field(default_factory=dict)
     confirmed: int | None = None   # claims confirmed and refuted (None: the case claims nothing)
     refuted: int | None = None
-    claims_markdown: str = ""
-    claims_latex: str = ""
+    claim_bodies: dict[str, str] = field(default_factory=dict)   # flavour name → its verdicts
 
     @property
     def passed(self) -> bool:
         return self.status == "verified"
+
+    @property
+    def markdown(self) -> str:
+        return self.bodies.get(render.MARKDOWN.name, "")
+
+    @property
+    def latex(self) -> str:
+        return self.bodies.get(render.LATEX.name, "")
 
 
 @dataclass(frozen=True)
@@ -121,16 +127,15 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
     except DerivationError as error:
         return CaseEntry(number, path.name, stem, case.title, case.reference, "not derived",
                          problem=str(error))
-    markdown = latex = ""
+    flavours = render.flavours_of(formats)     # the texts the formats are written from
+    bodies: dict[str, str] = {}
     files: dict[str, bytes] = {}
-    if "md" in formats:
-        markdown = render.render_markdown(derivation, stem=stem, section=number, level=2)
-        files.update(render.figure_files(derivation, stem, "svg"))
-    if "tex" in formats or "pdf" in formats:
-        latex = render.render_latex(derivation, standalone=False, stem=stem, section=number)
-        files.update(render.figure_files(derivation, stem, "pdf"))
-    summary = {target: summary_cells(derivation, target) for target in ("md", "tex")}
-    audited = {}
+    for flavour in flavours:
+        bodies[flavour.name] = render.render_sheet(derivation, flavour, stem=stem, section=number,
+                                                   level=2, standalone=False)
+        files.update(render.figure_files(derivation, stem, flavour.figure_suffix))
+    summary = {name: summary_cells(derivation, name) for name in render.FLAVOURS}
+    audited: dict = {}
     if case.claims:
         from .audit import audit, render_claims
         from .claims import locate_claim
@@ -138,21 +143,19 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
             result = audit(derivation)
         except CaseError as error:
             return Unusable(path.name, locate_claim(error, path).show())
-        audited = {"confirmed": result.confirmed, "refuted": result.refuted}
-        if "md" in formats:
-            audited["claims_markdown"] = render_claims(result, "md", level=4, numbered="")
-        if "tex" in formats or "pdf" in formats:
-            audited["claims_latex"] = render_claims(result, "tex", numbered="",
-                                                     latex_heading="subsubsection")
+        audited = {"confirmed": result.confirmed, "refuted": result.refuted, "claim_bodies": {
+            flavour.name: render_claims(result, flavour.name, level=4, numbered="",
+                                        latex_heading="subsubsection") for flavour in flavours}}
     return CaseEntry(number, path.name, stem, case.title, case.reference, derivation.status,
-                     markdown=markdown, latex=latex, summary=summary, files=files, **audited)
+                     bodies=bodies, summary=summary, files=files, **audited)
 
 
 def summary_cells(derivation, target: str) -> SummaryCells:
-    """Peak (in the case's report unit, with its time) and DLF, as inline math."""
+    """Peak (in the case's report unit, with its time) and DLF, as inline math, for the
+    flavour called ``target``."""
     units = render.Units(derivation.case)
     results = derivation.numbers
-    escape = render.latex_escape if target == "tex" else render.markdown_escape
+    escape = render.flavour(target).escape
     peak = None
     if results.peak is not None:
         response = derivation.case.system.response_dimension
@@ -177,8 +180,7 @@ def build_appendix(folder: Path, formats: Sequence[str],
     from .batch import map_cases
 
     formats = tuple(formats)
-    if "pdf" in formats:
-        render.require_latex()
+    render.require_tools(formats)      # before any work: name a missing tool
     files = case_files(folder)
     stems = unique_stems(files)
     arguments = [(path, number, stem, formats, time_budget)
@@ -197,35 +199,36 @@ def summary_order(entries: Sequence[CaseEntry]) -> list[CaseEntry]:
     return sorted(entries, key=lambda e: (e.passed, e.number))
 
 
+class AppendixDocument(render.Document):
+    """The appendix as a document for the writers of the output formats: its text in a
+    flavour from the rendered entries, its figures gathered from theirs."""
+
+    kind = "appendix"
+
+    def __init__(self, entries: Sequence[CaseEntry], folder_name: str) -> None:
+        super().__init__(DOCUMENT_NAME)
+        self.entries = list(entries)
+        self.folder_name = folder_name
+
+    def render_text(self, flavour: render.Flavour) -> str:
+        entries = self.entries
+        failed = [e for e in entries if not e.passed]
+        return flavour.render("appendix", {
+            "folder": self.folder_name, "version": __version__, "count": len(entries),
+            "failed_count": len(failed),
+            "caution": render.CAUTION.replace("This sheet supports", "This appendix supports"),
+            "preamble": render.Math(render.latex_preamble()),
+            "entries": [_entry_context(e, flavour.name) for e in entries],
+            "summary": [_entry_context(e, flavour.name) for e in summary_order(entries)]})
+
+    def render_figures(self, suffix: str) -> dict[str, bytes]:
+        return {n: c for e in self.entries for n, c in e.files.items() if n.endswith(f".{suffix}")}
+
+
 def assemble(entries: Sequence[CaseEntry], folder_name: str,
              formats: Sequence[str]) -> dict[str, str | bytes]:
     """The appendix documents and their figure files from rendered entries."""
-    contents: dict[str, str | bytes] = {}
-    figures_svg = {n: c for e in entries for n, c in e.files.items() if n.endswith(".svg")}
-    figures_pdf = {n: c for e in entries for n, c in e.files.items() if n.endswith(".pdf")}
-    failed = [e for e in entries if not e.passed]
-    context = {"folder": folder_name, "version": __version__, "count": len(entries),
-               "failed_count": len(failed),
-               "caution": render.CAUTION.replace("This sheet supports", "This appendix supports")}
-    if "md" in formats:
-        environment = render.make_environment("md")
-        contents[f"{DOCUMENT_NAME}.md"] = environment.get_template("appendix.md.j2").render(
-            context | {"entries": [_entry_context(e, "md") for e in entries],
-                       "summary": [_entry_context(e, "md") for e in summary_order(entries)]})
-        contents.update(figures_svg)
-    if "tex" in formats or "pdf" in formats:
-        environment = render.make_environment("tex")
-        tex = environment.get_template("appendix.tex.j2").render(
-            context | {"preamble": render.Math(render.latex_preamble()),
-                       "entries": [_entry_context(e, "tex") for e in entries],
-                       "summary": [_entry_context(e, "tex") for e in summary_order(entries)]})
-        if "tex" in formats:
-            contents[f"{DOCUMENT_NAME}.tex"] = tex
-            contents.update(figures_pdf)
-        if "pdf" in formats:
-            contents[f"{DOCUMENT_NAME}.pdf"] = render.compile_pdf(tex, figures_pdf,
-                                                                  name=DOCUMENT_NAME)
-    return contents
+    return render.write_files(AppendixDocument(entries, folder_name), list(formats))
 
 
 def _entry_context(entry: CaseEntry, target: str) -> dict:
@@ -237,11 +240,11 @@ def _entry_context(entry: CaseEntry, target: str) -> dict:
         "label": entry.stem,
         "peak": render.Math(cells.peak) if cells and cells.peak else None,
         "dlf": render.Math(cells.dlf) if cells and cells.dlf else None,
-        "body": render.Math(entry.markdown if target == "md" else entry.latex),
+        "body": render.Math(entry.bodies.get(target, "")),
         "claims": None if entry.confirmed is None else
         f"{entry.confirmed} confirmed, {entry.refuted} refuted",
         "refuted": bool(entry.refuted),
-        "claims_body": render.Math(entry.claims_markdown if target == "md" else entry.claims_latex),
+        "claims_body": render.Math(entry.claim_bodies.get(target, "")),
     }
 
 
@@ -296,5 +299,5 @@ def run_appendix(arguments: argparse.Namespace) -> int:
     return 1 if failed else 0
 
 
-__all__ = ["APPENDIX_FORMATS", "CaseEntry", "Unusable", "assemble", "build_appendix",
-           "case_files", "prepare_case", "register", "run_appendix"]
+__all__ = ["APPENDIX_FORMATS", "AppendixDocument", "CaseEntry", "Unusable", "assemble",
+           "build_appendix", "case_files", "prepare_case", "register", "run_appendix"]

@@ -43,7 +43,7 @@ from typing import Any
 import mpmath
 import sympy
 
-from . import quantities
+from . import quantities, render
 from .checks.base import Check
 from .claims import (
     Claimable,
@@ -347,7 +347,7 @@ def _our_value(ours, time):
 
 
 def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
-    from . import __version__, render
+    from . import __version__
 
     derivation = result.derivation
     case = derivation.case
@@ -378,63 +378,59 @@ def render_claims(result: Audit, target: str, *, level: int = 3, numbered: str =
     fragment: the core of the audit sheet, also shown for each case of an appendix.
     ``numbered`` prefixes the two headings ("1." gives 1.1, 1.2; "" leaves them unnumbered);
     ``level`` is their Markdown heading level, ``latex_heading`` their LaTeX command."""
-    from . import render
-
     context = _sheet_context(result, target)
     prefix = (lambda n: f"{numbered}{n} ") if numbered else (lambda n: "")
     context.update({"h3": render.Math("#" * level),
                     "verdicts_heading": f"{prefix(1)}Verdicts on the claims",
                     "formulas_heading": f"{prefix(2)}Claimed formulas against the equation",
                     "subsection": render.Math(latex_heading + ("" if numbered else "*"))})
-    name = "audit_claims.md.j2" if target == "md" else "audit_claims.tex.j2"
-    return render.make_environment(target).get_template(name).render(context)
+    return render.flavour(target).render("audit_claims", context)
+
+
+def render_audit_sheet(result: Audit, target: str, stem: str | None = None) -> str:
+    """The audit sheet in the flavour called ``target``: the verdicts, then our derivation
+    sheet as its basis (section 2)."""
+    flavour = render.flavour(target)
+    context = _sheet_context(result, flavour.name)
+    basis = render.render_sheet(result.derivation, flavour, stem=stem, section=2, level=2,
+                                standalone=False)
+    return flavour.render("audit", context | {
+        "basis": render.Math(basis), "preamble": render.Math(render.latex_preamble()),
+        "fragment": render.Math(render_claims(result, flavour.name))})
 
 
 def render_audit_markdown(result: Audit, stem: str | None = None) -> str:
-    from . import render
-
-    context = _sheet_context(result, "md")
-    basis = render.render_markdown(result.derivation, stem=stem, section=2, level=2)
-    return render.make_environment("md").get_template("audit.md.j2").render(
-        context | {"basis": render.Math(basis),
-                   "fragment": render.Math(render_claims(result, "md"))})
+    return render_audit_sheet(result, render.MARKDOWN.name, stem)
 
 
 def render_audit_latex(result: Audit, stem: str | None = None) -> str:
-    from . import render
+    return render_audit_sheet(result, render.LATEX.name, stem)
 
-    context = _sheet_context(result, "tex")
-    basis = render.render_latex(result.derivation, standalone=False, stem=stem, section=2)
-    return render.make_environment("tex").get_template("audit.tex.j2").render(
-        context | {"basis": render.Math(basis), "preamble": render.Math(render.latex_preamble()),
-                   "fragment": render.Math(render_claims(result, "tex"))})
+
+class AuditDocument(render.Document):
+    """The audit sheet as a document for the writers of the output formats
+    (``STEM-audit.md`` / ``.tex`` / ``.pdf`` / ``.json``, the basis sheet's figures)."""
+
+    kind = "audit sheet"
+
+    def __init__(self, result: Audit, stem: str) -> None:
+        super().__init__(f"{stem}-audit")
+        self.result, self.stem = result, stem
+
+    def render_text(self, flavour: render.Flavour) -> str:
+        return render_audit_sheet(self.result, flavour.name, self.stem)
+
+    def render_figures(self, suffix: str) -> dict[str, bytes]:
+        return render.figure_files(self.result.derivation, self.stem, suffix)
+
+    def json(self) -> str:
+        return json.dumps(self.result.to_dict(), indent=2) + "\n"
 
 
 def render_audit(result: Audit, formats, stem: str) -> dict[str, str | bytes]:
     """File name → content of the audit sheet in every requested format (nothing written):
     ``STEM-audit.md`` / ``.tex`` / ``.pdf`` / ``.json``, with the basis sheet's figures."""
-    from . import render
-
-    formats = list(formats)
-    if "pdf" in formats:
-        render.require_latex()
-    name = f"{stem}-audit"
-    contents: dict[str, str | bytes] = {}
-    derivation = result.derivation
-    if "md" in formats:
-        contents[f"{name}.md"] = render_audit_markdown(result, stem)
-        contents.update(render.figure_files(derivation, stem, "svg"))
-    if "tex" in formats or "pdf" in formats:
-        tex = render_audit_latex(result, stem)
-        figures = render.figure_files(derivation, stem, "pdf")
-        if "tex" in formats:
-            contents[f"{name}.tex"] = tex
-            contents.update(figures)
-        if "pdf" in formats:
-            contents[f"{name}.pdf"] = render.compile_pdf(tex, figures, name=name)
-    if "json" in formats:
-        contents[f"{name}.json"] = json.dumps(result.to_dict(), indent=2) + "\n"
-    return contents
+    return render.write_files(AuditDocument(result, stem), list(formats))
 
 
 # ----------------------------------------------------------------------------- command line
@@ -466,9 +462,7 @@ def run_check(arguments: argparse.Namespace) -> int:
         if arguments.output is not None else []
     if arguments.output is not None:
         usable_output_folder(arguments.output)
-    if "pdf" in formats:
-        from .render import require_latex
-        require_latex()       # before any work: name the missing tool
+    render.require_tools(formats)     # before any work: name a missing tool
     case = load_case(arguments.case)
     try:
         derivation = derive(case, time_budget=arguments.time_budget)

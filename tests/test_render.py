@@ -290,7 +290,7 @@ def test_render_outputs_gives_every_file_of_each_format():
 
 
 def test_pdf_without_latex_names_the_missing_tool(monkeypatch):
-    monkeypatch.setattr(render.shutil, "which", lambda name: None)
+    monkeypatch.setattr(render.pdf.shutil, "which", lambda name: None)
     with pytest.raises(ClosedformError, match="pdflatex") as raised:
         render.render_outputs(derive_text(STEP), ["md", "pdf"], "s")
     assert raised.value.exit_code == 1
@@ -372,9 +372,9 @@ def test_fragment_can_be_input_into_a_host_document(tmp_path):
 
 def test_latex_tool_is_pdflatex_without_shell_escape(monkeypatch):
     """latexmk is not used: its rc files could decide what runs (tests/test_safety.py)."""
-    monkeypatch.setattr(render.shutil, "which", lambda name: f"/usr/bin/{name}")
+    monkeypatch.setattr(render.pdf.shutil, "which", lambda name: f"/usr/bin/{name}")
     assert render.latex_command()[:2] == ["pdflatex", "-no-shell-escape"]
-    monkeypatch.setattr(render.shutil, "which",
+    monkeypatch.setattr(render.pdf.shutil, "which",
                         lambda name: "/usr/bin/latexmk" if name == "latexmk" else None)
     assert render.latex_command() is None
 

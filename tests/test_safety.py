@@ -80,8 +80,8 @@ def test_latex_runs_on_a_fixed_name_as_an_argument_list_without_a_shell(monkeypa
         (folder / "sheet.log").write_text("fine")
         return subprocess.CompletedProcess(command, 0, b"", b"")
 
-    monkeypatch.setattr(render.shutil, "which", lambda name: f"/usr/bin/{name}")
-    monkeypatch.setattr(render.subprocess, "run", fake_run)
+    monkeypatch.setattr(render.pdf.shutil, "which", lambda name: f"/usr/bin/{name}")
+    monkeypatch.setattr(render.pdf.subprocess, "run", fake_run)
     pdf = render.compile_pdf("\\documentclass{article}", {"a-load.pdf": b"x"},
                              name="-pdflatex=`touch x`")
     assert pdf == b"%PDF-fake"
@@ -94,7 +94,7 @@ def test_latex_runs_on_a_fixed_name_as_an_argument_list_without_a_shell(monkeypa
 
 
 def test_latex_refuses_figure_files_with_option_like_names(monkeypatch):
-    monkeypatch.setattr(render.shutil, "which", lambda name: f"/usr/bin/{name}")
+    monkeypatch.setattr(render.pdf.shutil, "which", lambda name: f"/usr/bin/{name}")
     with pytest.raises(closedform.errors.ClosedformError, match="not a plain file name"):
         render.compile_pdf("x", {"-shell-escape.pdf": b""})
 

@@ -128,6 +128,18 @@ def test_every_worked_sheet_reads_back_equal_to_its_derivation(stem):
     assert numeric >= 5, check.detail       # load lines, P, Q, transforms, pieces at least
 
 
+def replace_in_render(monkeypatch, name: str, replacement) -> None:
+    """``name`` replaced in every module of the render package that uses it (each section
+    module imports what it calls), so a mutation reaches every place it is printed from."""
+    import sys
+    package = [m for key, m in list(sys.modules.items()) if key.startswith("closedform.render.")]
+    original = next(getattr(m, name) for m in package if hasattr(m, name))
+    modules = [m for m in package if getattr(m, name, None) is original]
+    assert modules, f"no module of closedform.render uses {name}"
+    for module in modules:
+        monkeypatch.setattr(module, name, replacement)
+
+
 def _buggy_singularity_term(coefficient, mode, shift):
     """The printing before the fix: c·g(t − a) expanded, the step attached to its end."""
     import sympy
@@ -139,7 +151,7 @@ def _buggy_singularity_term(coefficient, mode, shift):
 
 
 def test_mutation_the_old_load_line_fails_the_sheet(monkeypatch):
-    monkeypatch.setattr(render, "_singularity_term", _buggy_singularity_term)
+    replace_in_render(monkeypatch, "singularity_term", _buggy_singularity_term)
     derivation = derive_text(RAMP)
     check = check_of(derivation)
     assert not check.passed
@@ -161,7 +173,7 @@ def test_mutation_one_corrupted_interval_line_fails_the_sheet(monkeypatch):
             first = terms[0]
             terms[0] = first[1:].lstrip() if first.startswith("-") else "- " + first
         return terms
-    monkeypatch.setattr(render, "grouped_terms", corrupt)
+    replace_in_render(monkeypatch, "grouped_terms", corrupt)
     derivation = derive_text(RAMP)
     check = check_of(derivation)
     assert not check.passed, check.detail
@@ -176,7 +188,7 @@ def test_mutation_a_wrong_partial_fraction_coefficient_fails_the_sheet(monkeypat
         if lhs == "c_{2}":
             terms = [t.replace("4", "3", 1) for t in terms]
         return original(lhs, terms, note)
-    monkeypatch.setattr(render, "display", corrupt)
+    replace_in_render(monkeypatch, "display", corrupt)
     check = check_of(derive_text(RAMP))
     assert not check.passed
     assert "partial-fraction coefficient 2" in check.detail
@@ -190,7 +202,7 @@ def test_mutation_an_unreadable_printed_line_fails_the_sheet(monkeypatch):
         if lhs == "P(s)":
             terms[-1] = terms[-1] + r" \frac{1}{"
         return original(lhs, terms, note)
-    monkeypatch.setattr(render, "display", corrupt)
+    replace_in_render(monkeypatch, "display", corrupt)
     check = check_of(derive_text(RAMP))
     assert not check.passed
     assert "could not be read back" in check.detail
@@ -203,7 +215,7 @@ def test_an_equation_printed_without_a_record_fails_the_sheet(monkeypatch):
         context = original(derivation, target, **kwargs)
         context["window_note"] = render.Math("\n\n$$\nz = 1\n$$\n\n")
         return context
-    monkeypatch.setattr(render, "sheet_context", extra)
+    replace_in_render(monkeypatch, "sheet_context", extra)
     check = check_of(derive_text(RAMP))
     assert not check.passed
     assert "without a record" in check.detail
