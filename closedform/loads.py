@@ -1,7 +1,7 @@
 """Load rewrite rules: every load shape as a sum of singularity terms.
 
 The result is a list of terms c · g(t − a) · H(t − a), where g is one basis function of
-``basis.Mode`` (1, (t − a)^n, a sine …), and impulses J · δ(t − a). Each rule that fires is
+``basis.BasisTerm`` (1, (t − a)^n, a sine …), and impulses J · δ(t − a). Each rule that fires is
 recorded with its name and source; the sheet shows that record, it never rewrites loads
 itself.
 """
@@ -13,7 +13,7 @@ from dataclasses import dataclass
 
 import sympy
 
-from .basis import COS, SIN, ExponentialPolynomial, Mode
+from .basis import COS, SIN, BasisTerm, ExponentialPolynomial
 from .case import TAU, LoadSpec
 from .errors import CaseError
 
@@ -42,7 +42,7 @@ class SingularityTerm:
 
     coefficient: sympy.Expr
     at: sympy.Expr
-    mode: Mode
+    mode: BasisTerm
     load_number: int
 
     def expression(self, t: sympy.Symbol) -> sympy.Expr:
@@ -96,8 +96,8 @@ class LoadHistory:
 
 
 ZERO = sympy.S.Zero
-STEP = Mode(0, ZERO, ZERO)
-RAMP = Mode(1, ZERO, ZERO)
+STEP = BasisTerm(0, ZERO, ZERO)
+RAMP = BasisTerm(1, ZERO, ZERO)
 
 
 def rewrite_loads(loads: Sequence[LoadSpec]) -> LoadHistory:
@@ -127,7 +127,7 @@ def rewrite_load(load: LoadSpec, start: sympy.Expr) -> Rewrite:
                         piecewise_linear_terms(pulse_points(load), start, n))
     if load.shape == "half-sine":
         omega = sympy.pi / v["duration"]
-        shape = ExponentialPolynomial.single(Mode(0, ZERO, omega, SIN), v["amplitude"])
+        shape = ExponentialPolynomial.single(BasisTerm(0, ZERO, omega, SIN), v["amplitude"])
         return _rewrite(load, "window", windowed_terms(shape, start, v["duration"], n))
     if load.shape == "formula":
         shape = exponential_polynomial_of(load.expression, TAU, key=f"{load.key}.expr")
@@ -254,11 +254,11 @@ def exponential_polynomial_of(expression: sympy.Expr, variable: sympy.Symbol, *,
             sign = 1
         # sin(ωτ + φ) = sin ωτ cos φ + cos ωτ sin φ;  cos(ωτ + φ) = cos ωτ cos φ − sin ωτ sin φ
         if kind == SIN:
-            pairs = [(Mode(0, ZERO, rate, SIN), sign * sympy.cos(phase)),
-                     (Mode(0, ZERO, rate, COS), sign * sympy.sin(phase))]
+            pairs = [(BasisTerm(0, ZERO, rate, SIN), sign * sympy.cos(phase)),
+                     (BasisTerm(0, ZERO, rate, COS), sign * sympy.sin(phase))]
         else:
-            pairs = [(Mode(0, ZERO, rate, COS), sympy.cos(phase)),
-                     (Mode(0, ZERO, rate, SIN), -sympy.sin(phase))]
+            pairs = [(BasisTerm(0, ZERO, rate, COS), sympy.cos(phase)),
+                     (BasisTerm(0, ZERO, rate, SIN), -sympy.sin(phase))]
         return ExponentialPolynomial.from_terms([p for p in pairs if p[1] != 0])
     if isinstance(expression, (sympy.sinh, sympy.cosh)):
         return exponential_polynomial_of(expression.rewrite(sympy.exp), variable, key=key)
@@ -281,4 +281,4 @@ def _linear(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
 def _exponential(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
                  key: str) -> ExponentialPolynomial:
     rate, phase = _linear(argument, variable, whole, key)
-    return ExponentialPolynomial.single(Mode(0, rate, ZERO), sympy.exp(phase))
+    return ExponentialPolynomial.single(BasisTerm(0, rate, ZERO), sympy.exp(phase))
