@@ -17,44 +17,47 @@ stays one line and cannot drive the terminal.
 from __future__ import annotations
 
 import csv
-import datetime
 import difflib
 import hashlib
 import io
-import json
 import os
 import re
 import stat
 import tomllib
 import unicodedata
 from collections.abc import Mapping
-from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
 import sympy
 
-from . import quantities
+from . import models, quantities
 from .errors import CaseError, ExpressionError
 from .expressions import parse_expression, parse_number, quote
+from .messages import key_part as _key_part
+from .messages import plain as _plain
+from .messages import shown as _shown
+from .messages import shown_value as _shown_value
+from .messages import toml_type as _toml_type
+from .specs import (
+    REGIMES,
+    TAU,
+    Case,
+    LoadSpec,
+    Repeat,
+    ReportSpec,
+    SymbolDeclaration,
+    SystemSpec,
+)
 
-MODELS = ("spring-mass-damper", "base-excitation", "first-order", "series-rlc", "ode")
+#: The built-in models (``closedform.models`` may hold more).
+MODELS = models.names()
 SHAPES = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half-sine",
           "trapezoid", "table", "formula")
-REGIMES = ("undamped", "under-damped", "critically-damped", "over-damped")
 PULSE_SHAPES = ("rectangle", "triangle", "decay", "half-sine", "trapezoid", "table", "formula")
 
-TAU = sympy.Symbol("tau", real=True)
-
 _TOP_KEYS = ("title", "reference", "system", "initial", "load", "report", "symbols", "claims")
-_SYSTEM_KEYS = {
-    "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "first-order": ("model", "time_constant", "gain", "input_unit"),
-    "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime"),
-    "ode": ("model", "coefficients", "regime"),
-}
 _LOAD_KEYS = {
     "step": ("amplitude",),
     "ramp": ("rate", "duration"),
@@ -119,119 +122,6 @@ _HIDDEN_CATEGORIES = frozenset(("Cf", "Zl", "Zp", "Cs", "Co", "Cn"))
 #: variable, the constants), in addition to the functions.
 _RESERVED_SYMBOLS = ("t", "tau", "s", "u", "v", "pi", "e", "I", "E")
 _SYMBOL_NAME_RE = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,30}")
-_BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")
-
-
-@dataclass(frozen=True)
-class SymbolDeclaration:
-    """A name declared under [symbols]: a positive real quantity, maybe with a value."""
-
-    name: str
-    symbol: sympy.Symbol
-    unit: str
-    dimension: Any
-    value: sympy.Expr | None
-
-
-@dataclass(frozen=True)
-class SystemSpec:
-    """The model and its parameters in exact SI (or in declared symbols)."""
-
-    model: str
-    parameters: Mapping[str, sympy.Expr]
-    regime: str | None
-    load_dimension: Any
-    response_dimension: Any
-
-    def get(self, name: str) -> sympy.Expr | None:
-        return self.parameters.get(name)
-
-
-@dataclass(frozen=True)
-class Repeat:
-    count: int
-    every: sympy.Expr
-
-
-@dataclass(frozen=True)
-class LoadSpec:
-    """One [[load]] entry as the engineer gave it, resolved to exact SI.
-
-    ``amplitude`` is always the peak value of a pulse (worked out from ``impulse``, the
-    area, where that was given); ``impulse`` keeps the stated area so verification can
-    check it independently.
-    """
-
-    number: int                       # 1-based position in the file
-    shape: str
-    at: sympy.Expr
-    values: Mapping[str, sympy.Expr]
-    points: tuple[tuple[sympy.Expr, sympy.Expr], ...] = ()
-    expression: sympy.Expr | None = None   # formula loads, in TAU
-    repeat: Repeat | None = None
-    label: str = ""
-
-    @property
-    def key(self) -> str:
-        return f"load[{self.number}]"
-
-    def get(self, name: str) -> sympy.Expr | None:
-        return self.values.get(name)
-
-    def length(self) -> sympy.Expr:
-        """How long one occurrence of the load acts (0 for steps, impulses, open ramps)."""
-        v = self.values
-        if self.shape in ("rectangle", "triangle", "decay", "half-sine", "formula"):
-            return v["duration"]
-        if self.shape == "ramp":
-            return v.get("duration", sympy.S.Zero)
-        if self.shape == "trapezoid":
-            return v["rise"] + v["hold"] + v["fall"]
-        if self.shape == "table":
-            return self.points[-1][0]
-        return sympy.S.Zero
-
-    def starts(self) -> tuple[sympy.Expr, ...]:
-        """Start time of each occurrence (one unless repeated)."""
-        if self.repeat is None:
-            return (self.at,)
-        return tuple(self.at + i * self.repeat.every for i in range(self.repeat.count))
-
-
-@dataclass(frozen=True)
-class ReportSpec:
-    until: sympy.Expr | None
-    units: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
-    numbers: str = "auto"       # auto | exact | decimal: how the sheet prints numbers
-    digits: int = 6             # significant digits of decimals on the sheet
-    paper: str = "a4"           # a4 | letter
-
-
-@dataclass(frozen=True)
-class Case:
-    """One case file, validated: everything the derivation needs and nothing it must guess."""
-
-    title: str
-    reference: str
-    system: SystemSpec
-    loads: tuple[LoadSpec, ...]
-    initial: tuple[sympy.Expr, ...] | None
-    symbols: tuple[SymbolDeclaration, ...]
-    report: ReportSpec
-    claims: Mapping[str, Any]
-    source: str = "<case>"
-    sha256: str = ""
-
-    def symbol_values(self) -> dict[sympy.Symbol, sympy.Expr]:
-        return {d.symbol: d.value for d in self.symbols if d.value is not None}
-
-    @property
-    def is_symbolic(self) -> bool:
-        return bool(self.symbols)
-
-    @property
-    def is_fully_valued(self) -> bool:
-        return all(d.value is not None for d in self.symbols)
 
 
 # ----------------------------------------------------------------------------- loading
@@ -557,88 +447,23 @@ class _Reader:
         return tuple(declarations)
 
     def system(self, data: Mapping[str, Any]) -> SystemSpec:
+        """The [system] table, read by its model's definition (``closedform.models``)."""
         model = data.get("model")
         if model is None:
-            raise self.error("system.model", f"missing (expected one of: {', '.join(MODELS)})")
-        if model not in MODELS:
-            close = difflib.get_close_matches(str(model), MODELS, n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+            raise self.error("system.model", f"missing (expected one of: "
+                                             f"{', '.join(models.names())})")
+        if not models.known(model):
+            close = models.close_match(model)
+            hint = f"; did you mean '{close}'?" if close else ""
             raise self.error("system.model", f"unknown model {_shown(model)} (expected one of: "
-                                             f"{', '.join(MODELS)}){hint}")
-        self.check_keys(data, _SYSTEM_KEYS[model], "system")
-        parameters: dict[str, sympy.Expr] = {}
+                                             f"{', '.join(models.names())}){hint}")
+        definition = models.get(model)
+        self.check_keys(data, definition.keys, "system")
         regime = data.get("regime")
         if regime is not None and regime not in REGIMES:
             raise self.error("system.regime", f"unknown regime {_shown(regime)} (expected one of: "
                                               f"{', '.join(REGIMES)})")
-
-        def required(name: str, dimension: str) -> sympy.Expr:
-            if name not in data:
-                raise self.error(f"system.{name}", f"missing (the {model} model needs {name})")
-            return self.positive(self.quantity(data[name], dimension, f"system.{name}"),
-                                 f"system.{name}", dimension=dimension)
-
-        if model in ("spring-mass-damper", "base-excitation"):
-            parameters["mass"] = required("mass", "mass")
-            parameters["stiffness"] = required("stiffness", "stiffness")
-            if "damping" in data and "damping_ratio" in data:
-                raise self.error("system.damping_ratio", "give damping or damping_ratio, not both")
-            if "damping" in data:
-                parameters["damping"] = self.non_negative(
-                    self.quantity(data["damping"], "damping", "system.damping"), "system.damping",
-                    "damping")
-            elif "damping_ratio" in data:
-                ratio = self.non_negative(self.quantity(data["damping_ratio"], "dimensionless",
-                                                        "system.damping_ratio"),
-                                          "system.damping_ratio")
-                parameters["damping_ratio"] = ratio
-                parameters["damping"] = 2 * ratio * sympy.sqrt(parameters["stiffness"]
-                                                                * parameters["mass"])
-            else:
-                parameters["damping"] = sympy.S.Zero
-        elif model == "first-order":
-            parameters["time_constant"] = required("time_constant", "time")
-            input_unit = data.get("input_unit", "1")
-            if not isinstance(input_unit, str):
-                raise self.error("system.input_unit", "expected a unit string, "
-                                                      f"got {_toml_type(input_unit)}")
-            load_dim = self.unit_dimension(input_unit, "system.input_unit")
-            gain_dim = quantities.dimension("dimensionless")
-            if "gain" in data:
-                gain = data["gain"]
-                if isinstance(gain, str) and _has_unit(gain):
-                    gain_dim = self.unit_dimension(gain.split(None, 1)[1], "system.gain")
-                parameters["gain"] = self.quantity(gain, gain_dim, "system.gain")
-                if parameters["gain"] == 0:
-                    raise self.error("system.gain", "must not be zero")
-            else:
-                parameters["gain"] = sympy.S.One
-            return SystemSpec(model, MappingProxyType(parameters), regime, load_dim,
-                              load_dim * gain_dim)
-        elif model == "series-rlc":
-            parameters["inductance"] = required("inductance", "inductance")
-            parameters["resistance"] = self.non_negative(
-                self.quantity(data.get("resistance", 0), "resistance", "system.resistance"),
-                "system.resistance", "resistance")
-            parameters["capacitance"] = required("capacitance", "capacitance")
-        else:
-            coefficients = data.get("coefficients")
-            if not isinstance(coefficients, list) or not 2 <= len(coefficients) <= 5:
-                raise self.error("system.coefficients", "expected a list [a_n, …, a_0] of 2 to 5 "
-                                 f"numbers (order 1 to 4), got {_shown(coefficients)}")
-            values = []
-            for i, item in enumerate(coefficients):
-                values.append(self.quantity(item, "dimensionless", f"system.coefficients[{i}]"))
-            if values[0] == 0:
-                raise self.error("system.coefficients[0]", "the leading coefficient a_n must not be 0")
-            for i, value in enumerate(values):
-                parameters[f"a{len(values) - 1 - i}"] = value
-        d = quantities.dimension
-        dimensions = {"spring-mass-damper": (d("force"), d("length")),
-                      "base-excitation": (d("acceleration"), d("length")),
-                      "series-rlc": (d("voltage"), d("voltage")),
-                      "ode": (d("dimensionless"), d("dimensionless"))}[model]
-        return SystemSpec(model, MappingProxyType(parameters), regime, *dimensions)
+        return definition.read(self, data)
 
     def unit_dimension(self, unit: str, key: str) -> Any:
         """The dimension of a unit string given in the case ("1" or "" for none)."""
@@ -983,7 +808,7 @@ class _Reader:
                                                    f"got {_shown(raw)}")
             return tuple(self.quantity(v, dimensions[i], f"initial.values[{i}]")
                          for i, v in enumerate(raw))
-        if system.model not in ("spring-mass-damper", "base-excitation"):
+        if not models.get(system.model).mechanical:
             raise self.error("initial.displacement", "displacement/velocity are for mechanical "
                                                      "models; use values = […]")
         result = [sympy.S.Zero] * order
@@ -1038,38 +863,19 @@ class _Reader:
         return ReportSpec(until, MappingProxyType(units), numbers, digits, paper)
 
 
-def _shown_value(value: Any) -> str:
-    """A TOML value as a message shows it: strings quoted, others by their TOML type."""
-    if isinstance(value, str):
-        return repr(value[:40])
-    if isinstance(value, bool):
-        return str(value).lower()
-    if isinstance(value, int):
-        return str(value)
-    return _toml_type(value)
-
-
 def _function_names() -> tuple[str, ...]:
     from .expressions import FUNCTIONS
     return tuple(FUNCTIONS)
 
 
 def _order(system: SystemSpec) -> int:
-    if system.model == "first-order":
-        return 1
-    if system.model == "ode":
-        return len(system.parameters) - 1
-    return 2
+    return models.get(system.model).order(system)
 
 
 def _initial_dimensions(system: SystemSpec, order: int) -> list[Any]:
     base = system.response_dimension
     time = quantities.dimension("time")
     return [base / time**i for i in range(order)]
-
-
-def _has_unit(text: str) -> bool:
-    return bool(re.fullmatch(r"\s*[-+]?[0-9.eE+-]+\s+[A-Za-z].*", text))
 
 
 def _looks_numeric(cell: str) -> bool:
@@ -1089,51 +895,6 @@ def _csv_number(cell: str, column: int) -> sympy.Expr:
                         f"units in the header such as 'time [ms], force [kN]', got {quote(cell)})")
     raise CaseError(f"column {column}: not a number (expected a number such as 0.25 or "
                     f"-1.5e3, got {quote(cell)})")
-
-
-def _toml_type(value: Any) -> str:
-    return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
-            list: "an array", dict: "a table", datetime.datetime: "a date-time",
-            datetime.date: "a date", datetime.time: "a time of day"}.get(type(value),
-                                                                         type(value).__name__)
-
-
-def _shown(value: Any) -> str:
-    """A TOML value for a one-line message: its repr, ASCII only (so a look-alike letter
-    shows as an escape), shortened."""
-    try:
-        text = ascii(value)
-    except RecursionError:
-        text = f"<{_toml_type(value)} nested too deeply>"
-    return _shown_text(text)
-
-
-def _plain(value: sympy.Expr, dimension: str | Any | None = None) -> str:
-    """A value for a message: 6 significant digits, with its SI unit when ``dimension`` is
-    given and the value is not zero (zero is zero in every unit)."""
-    if value.free_symbols:
-        return _shown_text(str(value))
-    number = sympy.N(value, 6)
-    text = f"{float(number):g}"
-    if dimension is None or value.is_zero:
-        return text
-    if isinstance(dimension, str):
-        dimension = quantities.dimension(dimension)
-    unit = quantities.si_unit_text(dimension)
-    return text if unit == "1" else f"{text} {unit}"
-
-
-def _key_part(name: str) -> str:
-    """A TOML key as written in a message: bare when it can be, else quoted and escaped;
-    shortened past 40 characters."""
-    shown = name if len(name) <= 40 else name[:40]
-    if not _BARE_KEY_RE.fullmatch(shown):
-        shown = json.dumps(shown, ensure_ascii=True)
-    return shown + ("..." if len(name) > 40 else "")
-
-
-def _shown_text(text: str) -> str:
-    return text if len(text) <= 60 else text[:57] + "..."
 
 
 def _corners(load: LoadSpec) -> int:

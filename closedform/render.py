@@ -36,7 +36,7 @@ import mpmath
 import sympy
 from sympy.printing.latex import LatexPrinter
 
-from . import __version__, plots, quantities, reread
+from . import __version__, models, plots, quantities, reread
 from .errors import CaseError, ClosedformError
 
 if TYPE_CHECKING:
@@ -47,19 +47,6 @@ FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
 CAUTION = ("This sheet supports, and does not replace, review by a qualified engineer "
            "under the applicable codes and local practice.")
 
-ASSUMPTIONS = {
-    "spring-mass-damper": ["linear elastic spring, lumped mass, small displacements",
-                           "viscous (velocity-proportional) damping",
-                           "load applied at the mass along the single degree of freedom"],
-    "base-excitation": ["linear elastic spring, lumped mass, small displacements",
-                        "viscous damping", "rigid support moving with the given acceleration",
-                        "u is the displacement relative to the support"],
-    "first-order": ["linear first-order lag with constant time constant and gain"],
-    "series-rlc": ["linear, lumped, time-invariant R, L and C in series",
-                   "ideal voltage source; v is the capacitor voltage"],
-    "ode": ["linear ordinary differential equation with constant coefficients",
-            "coefficients, load and response in the consistent units the case gives"],
-}
 COMMON_ASSUMPTIONS = ["parameters constant in time; loads exactly as given in the case file",
                       "the results hold on the analysis window stated with them"]
 
@@ -1319,7 +1306,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "figures": {"load": Math(figure_name(stem, "load", figure_suffix)),
                     "response": Math(figure_name(stem, "response", figure_suffix))}
         if plotted else None,
-        "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
+        "assumptions": list(models.get(case.system.model).assumptions) + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
         "warnings": [w.removeprefix(f"{case.source}: ") for w in derivation.warnings],
         "paper": case.report.paper,

@@ -28,7 +28,7 @@ import mpmath
 import numpy
 import sympy
 
-from . import peaksearch, quantities
+from . import models, peaksearch, quantities
 from .basis import (
     SIN,
     ExponentialPolynomial,
@@ -612,7 +612,8 @@ def _unit(dimension) -> str:
 
 
 def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
-    """(JSON name, description, SI unit, transform of the response) for the model.
+    """(JSON name, description, SI unit, transform of the response) for the model: those
+    of its definition in ``closedform.models``, else the derivatives x′ (and x″).
 
     The transform maps the numeric response on one interval to the quantity on it.
     """
@@ -638,41 +639,12 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
                                              ((x_factor, f), (v_factor, f.derivative()))
                                              if factor != 0])
 
+    definition = models.get(model_name)
+    if definition.quantities is not None:
+        return definition.quantities(models.QuantityContext(
+            case.system.parameters, tuple(model.coefficients), model.order, response, time,
+            number, _unit, derivative, combination))
     first, second = derivative(1), derivative(2)
-    if model_name in ("spring-mass-damper", "base-excitation"):
-        m, c, k = (number(a) for a in model.coefficients)
-        force = _unit(quantities.dimension("force"))
-        relative = "relative " if model_name == "base-excitation" else ""
-        prefix = "peak_relative_" if relative else "peak_"
-        definitions = [
-            (f"{prefix}velocity", f"{relative}velocity x′", _unit(response / time), first),
-            (f"{prefix}acceleration", f"{relative}acceleration x″ (one-sided values at load "
-             "steps; the Dirac part at an impulse is left out)", _unit(response / time**2),
-             second),
-        ]
-        if model_name == "base-excitation":
-            definitions.append(
-                ("peak_absolute_acceleration", "absolute acceleration of the mass, "
-                 "u″ + a_g = −(k·u + c·u′)/m", _unit(response / time**2),
-                 combination(None if m is None else -k / m, None if m is None else -c / m)))
-        where = "between mass and support" if model_name == "base-excitation" else "on the support"
-        definitions += [
-            ("peak_spring_force", f"spring force k·x ({where})", force,
-             combination(k, 0) if k is not None else None),
-            ("peak_support_reaction", f"support reaction k·x + c·x′ ({where})", force,
-             combination(k, c) if k is not None else None),
-        ]
-        return definitions
-    if model_name == "series-rlc":
-        capacitance = number(case.system.parameters["capacitance"])
-        current = _unit(quantities.dimension("current"))
-        return [
-            ("peak_current", "current i = C·v′", current,
-             combination(0, capacitance) if capacitance is not None else None),
-            ("peak_capacitor_voltage", "capacitor voltage v", _unit(response), derivative(0)),
-        ]
-    if model_name == "first-order":
-        return [("peak_rate", "rate of change y′", _unit(response / time), first)]
     definitions = [("peak_derivative", "first derivative x′", _unit(response / time), first)]
     if model.order >= 2:
         definitions.append(("peak_second_derivative", "second derivative x″ (one-sided values)",
