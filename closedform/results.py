@@ -28,7 +28,7 @@ import mpmath
 import numpy
 import sympy
 
-from . import models, peaksearch, quantities
+from . import models, peaksearch, quantities, shapes
 from .basis import (
     SIN,
     ExponentialPolynomial,
@@ -36,9 +36,9 @@ from .basis import (
     NumericExponentialPolynomial,
     fastest_time_scale,
 )
-from .case import PULSE_SHAPES, TAU, LoadSpec
-from .loads import LoadHistory, pulse_points
+from .loads import LoadHistory
 from .response import load_pieces, solve
+from .specs import LoadSpec
 
 DIGITS = 30
 PEAK_TOLERANCE = 1e-9        # "earliest time within 1e-9 (relative) of the maximum"
@@ -680,26 +680,10 @@ def pulse_area_and_centroid(load: LoadSpec, values: Mapping) -> tuple[sympy.Expr
 
     Polylines (rectangle, triangle, decay, trapezoid, table) segment by segment:
     ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6; the
-    half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy.
+    half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy
+    (each shape's definition in ``closedform.shapes`` says how).
     """
-    if load.shape == "half-sine":
-        d, amplitude = load.values["duration"], load.values["amplitude"]
-        return (2 * amplitude * d / sympy.pi).subs(values), (d / 2).subs(values)
-    if load.shape == "formula":
-        d = load.values["duration"]
-        expression = load.expression.subs(values)
-        area = sympy.integrate(expression, (TAU, 0, d.subs(values)))
-        moment = sympy.integrate(TAU * expression, (TAU, 0, d.subs(values)))
-    else:
-        area, moment = sympy.S.Zero, sympy.S.Zero
-        points = [(sympy.sympify(t).subs(values), sympy.sympify(f).subs(values))
-                  for t, f in pulse_points(load)]
-        for (t0, f0), (t1, f1) in zip(points, points[1:]):
-            area += (f0 + f1) * (t1 - t0) / 2
-            moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
-    if area == 0:
-        return sympy.S.Zero, sympy.nan
-    return area, moment / area
+    return shapes.get(load.shape).area_and_centroid(load, values)
 
 
 def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[object, object]:
@@ -748,7 +732,7 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
     area_unit = _area_unit(case.system.load_dimension)
     result = []
     for load in case.loads:
-        if load.shape not in PULSE_SHAPES:
+        if not shapes.get(load.shape).pulse:
             continue
         start = load.starts()[0]
         duration = load.length()

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from pathlib import Path
 from types import MappingProxyType
 from typing import Any, Protocol
 
@@ -25,6 +26,7 @@ class ValueReader(Protocol):
     and exact SI values (see ``case``)."""
 
     file: str
+    folder: Path
     names: dict[str, sympy.Expr]
 
     def error(self, key: str, message: str) -> Exception: ...
@@ -99,17 +101,10 @@ class LoadSpec:
         return self.values.get(name)
 
     def length(self) -> sympy.Expr:
-        """How long one occurrence of the load acts (0 for steps, impulses, open ramps)."""
-        v = self.values
-        if self.shape in ("rectangle", "triangle", "decay", "half-sine", "formula"):
-            return v["duration"]
-        if self.shape == "ramp":
-            return v.get("duration", sympy.S.Zero)
-        if self.shape == "trapezoid":
-            return v["rise"] + v["hold"] + v["fall"]
-        if self.shape == "table":
-            return self.points[-1][0]
-        return sympy.S.Zero
+        """How long one occurrence of the load acts (0 for steps, impulses, open ramps):
+        its shape's definition says (``closedform.shapes``)."""
+        from . import shapes
+        return shapes.get(self.shape).length(self)
 
     def starts(self) -> tuple[sympy.Expr, ...]:
         """Start time of each occurrence (one unless repeated)."""
