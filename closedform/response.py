@@ -29,7 +29,7 @@ from .laplace import (
     transform_of_mode,
 )
 from .loads import LoadHistory
-from .systems import LinearModel
+from .systems import LinearModel, ScalarEquation
 
 t = sympy.Symbol("t", real=True)
 
@@ -130,10 +130,14 @@ def _tidy_exact(c: sympy.Expr) -> sympy.Expr:
     return c
 
 
-def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr] | None,
+def solve(model: LinearModel | ScalarEquation, history: LoadHistory, initial: Sequence[sympy.Expr] | None,
           until: sympy.Expr, *, exact: bool, ordering: Mapping[sympy.Symbol, sympy.Expr] | None
           = None) -> Solution:
-    """Transform, invert and assemble the piecewise response on [0, until]."""
+    """Transform, invert and assemble the piecewise response on [0, until].
+
+    ``model`` is any scalar equation with its poles (``systems.ScalarEquation``; a case's
+    ``LinearModel`` is one): the engine is the same for one mode of a larger model.
+    """
     tidy = coefficient_policy(exact)
     lead = model.lead
     initial = tuple(initial) if initial is not None else (sympy.S.Zero,) * model.order

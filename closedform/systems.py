@@ -90,6 +90,45 @@ class LinearModel:
         return sympy.Max(*scales)
 
 
+@dataclass(frozen=True)
+class ScalarEquation:
+    """One scalar equation aₙx⁽ⁿ⁾ + … + a₀x = b·f(t) with its poles: all the engine
+    (``response.solve``) needs to solve for a load history and initial values.
+
+    A ``LinearModel`` is one (with the case's names and regime); a model of several masses
+    gives one per mode (the modal mass, damping and stiffness, b the participation of the
+    load) and solves each with the same engine.
+    """
+
+    coefficients: tuple[sympy.Expr, ...]
+    input_scale: sympy.Expr
+    poles: tuple[Pole, ...]
+    regime: str
+    exact_poles: bool
+
+    @property
+    def order(self) -> int:
+        return len(self.coefficients) - 1
+
+    @property
+    def lead(self) -> sympy.Expr:
+        return self.coefficients[0]
+
+    def characteristic_polynomial(self) -> sympy.Expr:
+        return sympy.Add(*[a * s ** (self.order - i) for i, a in enumerate(self.coefficients)])
+
+
+def scalar_equation(coefficients: tuple[sympy.Expr, ...], input_scale: sympy.Expr = sympy.S.One,
+                    *, regime: str | None = None,
+                    values: Mapping[sympy.Symbol, sympy.Expr] | None = None) -> ScalarEquation:
+    """The equation with coefficients aₙ…a₀ and input scale b, its poles found as for a
+    case's model (``regime`` settles a second-order regime the symbols cannot)."""
+    coefficients = tuple(sympy.sympify(a) for a in coefficients)
+    system = SystemSpec("ode", {}, regime, None, None)
+    poles, found, exact, _note = _poles(coefficients, system, dict(values or {}), "system")
+    return ScalarEquation(coefficients, sympy.sympify(input_scale), poles, found, exact)
+
+
 def build_model(system: SystemSpec, values: Mapping[sympy.Symbol, sympy.Expr] | None = None,
                 *, key_prefix: str = "system") -> LinearModel:
     """The equation and poles of the case's system.

@@ -58,7 +58,8 @@ class ModelDefinition:
     located errors); ``equation_of(parameters)`` gives ((aₙ, …, a₀), b); ``order(system)``
     the order of the equation. ``quantities`` gives the derived quantities (None: the
     generic derivatives x′ and x″). ``mechanical``: the initial state may be given as
-    displacement and velocity.
+    displacement and velocity. ``example``: a [system] table of this model, used by the
+    tests.
     """
 
     name: str
@@ -71,6 +72,7 @@ class ModelDefinition:
     variable: str
     load_name: str
     assumptions: tuple[str, ...]
+    example: Mapping[str, Any]
     quantities: Callable[[QuantityContext], list[QuantityDefinition]] | None = None
     mechanical: bool = False
     #: the damping ratio, where the case gives one, fixes the poles (−ζω ± ω√(ζ² − 1))

@@ -3,6 +3,8 @@ with the acceleration a_g."""
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 from . import ModelDefinition, mechanical, register, second_order
 
 NAME = "base-excitation"
@@ -17,6 +19,7 @@ DEFINITION = register(ModelDefinition(
     equation=r"m\,\ddot{u} + c\,\dot{u} + k\,u = -m\,a_g(t)",
     variable="u",
     load_name="a_g",
+    example=MappingProxyType({"model": NAME, "mass": "80 kg", "stiffness": "320 kN/m", "damping": "400 N*s/m"}),
     assumptions=(*mechanical.ASSUMPTIONS,
                  "viscous damping", "rigid support moving with the given acceleration",
                  "u is the displacement relative to the support"),

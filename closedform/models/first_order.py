@@ -54,6 +54,7 @@ DEFINITION = register(ModelDefinition(
     equation=r"\tau\,\dot{y} + y = K\,u(t)",
     variable="y",
     load_name="u",
+    example=MappingProxyType({"model": NAME, "time_constant": "40 ms", "gain": "2 K/V", "input_unit": "V"}),
     assumptions=("linear first-order lag with constant time constant and gain",),
     quantities=derived,
 ))

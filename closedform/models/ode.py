@@ -50,6 +50,7 @@ DEFINITION = register(ModelDefinition(
     equation=r"a_n x^{(n)} + \dots + a_1 \dot{x} + a_0 x = f(t)",
     variable="x",
     load_name="f",
+    example=MappingProxyType({"model": NAME, "coefficients": [1, 3, 12, 10]}),
     assumptions=("linear ordinary differential equation with constant coefficients",
                  "coefficients, load and response in the consistent units the case gives"),
 ))

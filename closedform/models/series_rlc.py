@@ -60,6 +60,7 @@ DEFINITION = register(ModelDefinition(
     equation=r"L C\,\ddot{v} + R C\,\dot{v} + v = v_s(t)",
     variable="v",
     load_name="v_s",
+    example=MappingProxyType({"model": NAME, "inductance": "20 mH", "resistance": "4 ohm", "capacitance": "50 uF"}),
     assumptions=("linear, lumped, time-invariant R, L and C in series",
                  "ideal voltage source; v is the capacitor voltage"),
     quantities=derived,

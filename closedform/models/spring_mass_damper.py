@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from types import MappingProxyType
+
 import sympy
 
 from . import ModelDefinition, mechanical, register, second_order
@@ -17,6 +19,7 @@ DEFINITION = register(ModelDefinition(
     equation=r"m\,\ddot{x} + c\,\dot{x} + k\,x = F(t)",
     variable="x",
     load_name="F",
+    example=MappingProxyType({"model": NAME, "mass": "420 kg", "stiffness": "2.6 MN/m", "damping_ratio": 0.05}),
     assumptions=(*mechanical.ASSUMPTIONS,
                  "viscous (velocity-proportional) damping",
                  "load applied at the mass along the single degree of freedom"),
