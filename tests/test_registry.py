@@ -339,3 +339,17 @@ def test_a_registered_name_cannot_be_registered_again_nor_a_built_in_removed():
         models.unregister("ode")
     with pytest.raises(ValueError, match="built in"):
         shapes.unregister("step")
+
+
+def test_reading_a_case_loads_no_engine_module():
+    """The registries are read by case reading, which the independent checks import: the
+    shapes import the engine only inside their rewrites."""
+    import subprocess
+    import sys
+    from pathlib import Path
+    engine = ("loads", "basis", "laplace", "response", "systems", "results")
+    code = ("import sys, closedform.case, closedform.models, closedform.shapes\n"
+            f"print([m for m in {engine!r} if 'closedform.' + m in sys.modules])")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                         cwd=Path(__file__).resolve().parents[1], check=True).stdout
+    assert out.strip() == "[]"

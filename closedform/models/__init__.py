@@ -15,6 +15,7 @@ definition may also be registered from outside the package (a test does so).
 from __future__ import annotations
 
 import difflib
+import pkgutil
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
 from importlib import import_module
@@ -93,7 +94,7 @@ def register(definition: ModelDefinition) -> ModelDefinition:
 
 def unregister(name: str) -> None:
     """Remove a model that was registered from outside the package (tests)."""
-    if name in _built_in_names():
+    if name in _PACKAGED:
         raise ValueError(f"model {name!r} is built in")
     _REGISTRY.pop(name, None)
 
@@ -129,9 +130,15 @@ def second_order(system: SystemSpec) -> int:
     return 2
 
 
-def _built_in_names() -> tuple[str, ...]:
-    return tuple(import_module(f"{__name__}.{module}").DEFINITION.name for module in BUILT_IN)
+def _import_package_modules() -> None:
+    """Every module of this package, those of BUILT_IN first in that order (the order the
+    messages list the models in), then any others by name: a new model is a new file."""
+    others = sorted(info.name for info in pkgutil.iter_modules(__path__)
+                    if info.name not in BUILT_IN)
+    for module in (*BUILT_IN, *others):
+        import_module(f"{__name__}.{module}")
+    _PACKAGED.update(_REGISTRY)
 
 
-for _module in BUILT_IN:
-    import_module(f"{__name__}.{_module}")
+_PACKAGED: set[str] = set()
+_import_package_modules()

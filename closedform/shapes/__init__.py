@@ -18,6 +18,7 @@ definition may also be registered from outside the package (a test does so).
 from __future__ import annotations
 
 import difflib
+import pkgutil
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass, field
 from importlib import import_module
@@ -143,7 +144,7 @@ def register(definition: ShapeDefinition) -> ShapeDefinition:
 
 def unregister(name: str) -> None:
     """Remove a shape that was registered from outside the package (tests)."""
-    if name in {import_module(f"{__name__}.{m}").DEFINITION.name for m in BUILT_IN}:
+    if name in _PACKAGED:
         raise ValueError(f"shape {name!r} is built in")
     _REGISTRY.pop(name, None)
 
@@ -185,5 +186,15 @@ def polyline_area_and_centroid(points: Points, values: Mapping) -> tuple[sympy.E
     return centroid(area, moment)
 
 
-for _module in BUILT_IN:
-    import_module(f"{__name__}.{_module}")
+def _import_package_modules() -> None:
+    """Every module of this package, those of BUILT_IN first in that order (the order the
+    messages list the shapes in), then any others by name: a new shape is a new file."""
+    others = sorted(info.name for info in pkgutil.iter_modules(__path__)
+                    if info.name not in BUILT_IN)
+    for module in (*BUILT_IN, *others):
+        import_module(f"{__name__}.{module}")
+    _PACKAGED.update(_REGISTRY)
+
+
+_PACKAGED: set[str] = set()
+_import_package_modules()
