@@ -3,7 +3,9 @@
 A ``Case`` holds exact SI numbers (sympy Rationals) or expressions in declared symbols,
 never floats and never raw strings that still need interpreting. Every problem in a case
 file becomes a ``CaseError`` naming the file, the TOML key and, where it can be found, the
-line.
+line. The [system] table is read by its model's definition (``closedform.models``) and each
+[[load]] by its shape's (``closedform.shapes``); this module reads the rest and holds the
+limits. The frozen values themselves are in ``specs``, a table's CSV file in ``csvtable``.
 
 Case files are untrusted text. Nothing read here is ever evaluated: values go through the
 whitelisted grammar of ``expressions`` and the unit reader of ``quantities``. Sizes are

@@ -78,6 +78,8 @@ class ModelDefinition:
     mechanical: bool = False
     #: the damping ratio, where the case gives one, fixes the poles (−ζω ± ω√(ζ² − 1))
     damping_ratio_poles: bool = False
+    #: warn when the window ends as the last load does (no residual vibration reported)
+    residual_warning: bool = True
 
 
 _REGISTRY: dict[str, ModelDefinition] = {}

@@ -57,4 +57,5 @@ DEFINITION = register(ModelDefinition(
     example=MappingProxyType({"model": NAME, "time_constant": "40 ms", "gain": "2 K/V", "input_unit": "V"}),
     assumptions=("linear first-order lag with constant time constant and gain",),
     quantities=derived,
+    residual_warning=False,
 ))
