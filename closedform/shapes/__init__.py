@@ -20,9 +20,8 @@ from __future__ import annotations
 import difflib
 import pkgutil
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from importlib import import_module
-from types import MappingProxyType
 from typing import Any
 
 import sympy
@@ -122,7 +121,6 @@ class ShapeDefinition:
     points: Callable[[LoadSpec], Points] | None = None
     endless: Callable[[Mapping[str, sympy.Expr]], bool] = lambda values: False
     spectrum: SpectrumEntry | None = None
-    extra: Mapping[str, Any] = field(default_factory=lambda: MappingProxyType({}))
 
 
 _REGISTRY: dict[str, ShapeDefinition] = {}
