@@ -25,10 +25,10 @@ SIN = "sin"
 
 
 @dataclass(frozen=True, order=False)
-class Mode:
+class BasisTerm:
     """One basis function u^power · e^(rate·u) · cos|sin(frequency·u); frequency ≥ 0.
 
-    A mode with frequency 0 is always of kind ``cos`` (the pure u^k e^(σu) term).
+    A basis term with frequency 0 is always of kind ``cos`` (the pure u^k e^(σu) term).
     """
 
     power: int
@@ -61,18 +61,18 @@ class Mode:
 class ExponentialPolynomial:
     """A finite sum Σ coefficient · mode(u), immutable; zero coefficients are dropped."""
 
-    terms: Mapping[Mode, sympy.Expr] = field(default_factory=dict)
+    terms: Mapping[BasisTerm, sympy.Expr] = field(default_factory=dict)
 
     @staticmethod
-    def from_terms(pairs: Iterator[tuple[Mode, sympy.Expr]] | list[tuple[Mode, sympy.Expr]],
+    def from_terms(pairs: Iterator[tuple[BasisTerm, sympy.Expr]] | list[tuple[BasisTerm, sympy.Expr]],
                    ) -> ExponentialPolynomial:
-        collected: dict[Mode, sympy.Expr] = {}
+        collected: dict[BasisTerm, sympy.Expr] = {}
         for mode, coefficient in pairs:
             collected[mode] = collected.get(mode, sympy.S.Zero) + coefficient
         return ExponentialPolynomial({m: c for m, c in collected.items() if c != 0})
 
     @staticmethod
-    def single(mode: Mode, coefficient: sympy.Expr = sympy.S.One) -> ExponentialPolynomial:
+    def single(mode: BasisTerm, coefficient: sympy.Expr = sympy.S.One) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms([(mode, sympy.sympify(coefficient))])
 
     @staticmethod
@@ -80,7 +80,7 @@ class ExponentialPolynomial:
         """Σ c_k u^k."""
         zero = sympy.S.Zero
         return ExponentialPolynomial.from_terms(
-            [(Mode(k, zero, zero), c) for k, c in coefficients.items()])
+            [(BasisTerm(k, zero, zero), c) for k, c in coefficients.items()])
 
     def is_zero(self) -> bool:
         return not self.terms
@@ -101,8 +101,8 @@ class ExponentialPolynomial:
                          ) -> ExponentialPolynomial:
         return ExponentialPolynomial.from_terms([(m, function(c)) for m, c in self.terms.items()])
 
-    def modes(self) -> list[Mode]:
-        return sorted(self.terms, key=Mode.sort_key)
+    def modes(self) -> list[BasisTerm]:
+        return sorted(self.terms, key=BasisTerm.sort_key)
 
     def shifted(self, delay: sympy.Expr) -> ExponentialPolynomial:
         """g(v + delay) written again as an exponential polynomial in v.
@@ -113,7 +113,7 @@ class ExponentialPolynomial:
         """
         if delay == 0:
             return self
-        pairs: list[tuple[Mode, sympy.Expr]] = []
+        pairs: list[tuple[BasisTerm, sympy.Expr]] = []
         for mode, coefficient in self.terms.items():
             growth = sympy.exp(mode.rate * delay)
             if mode.frequency == 0:
@@ -128,13 +128,13 @@ class ExponentialPolynomial:
             for j in range(mode.power + 1):
                 binomial = comb(mode.power, j) * delay**(mode.power - j)
                 for kind, trig_factor in trig_parts:
-                    pairs.append((Mode(j, mode.rate, mode.frequency, kind),
+                    pairs.append((BasisTerm(j, mode.rate, mode.frequency, kind),
                                   coefficient * growth * binomial * trig_factor))
         return ExponentialPolynomial.from_terms(pairs)
 
     def __mul__(self, other: ExponentialPolynomial) -> ExponentialPolynomial:
         """The product, closed in the basis by the product-to-sum identities."""
-        pairs: list[tuple[Mode, sympy.Expr]] = []
+        pairs: list[tuple[BasisTerm, sympy.Expr]] = []
         for m1, c1 in self.terms.items():
             for m2, c2 in other.terms.items():
                 power, rate = m1.power + m2.power, m1.rate + m2.rate
@@ -145,22 +145,22 @@ class ExponentialPolynomial:
                         frequency = -frequency
                         if kind == SIN:
                             weight = -weight
-                    pairs.append((Mode(power, rate, frequency, kind), c1 * c2 * weight))
+                    pairs.append((BasisTerm(power, rate, frequency, kind), c1 * c2 * weight))
         return ExponentialPolynomial.from_terms(pairs)
 
     def derivative(self) -> ExponentialPolynomial:
         """d/du of the sum, term by term (product rule)."""
-        pairs: list[tuple[Mode, sympy.Expr]] = []
+        pairs: list[tuple[BasisTerm, sympy.Expr]] = []
         for mode, c in self.terms.items():
             if mode.power > 0:
-                pairs.append((Mode(mode.power - 1, mode.rate, mode.frequency, mode.kind),
+                pairs.append((BasisTerm(mode.power - 1, mode.rate, mode.frequency, mode.kind),
                               c * mode.power))
             if mode.rate != 0:
                 pairs.append((mode, c * mode.rate))
             if mode.frequency != 0:
                 other = SIN if mode.kind == COS else COS
                 sign = -1 if mode.kind == COS else 1
-                pairs.append((Mode(mode.power, mode.rate, mode.frequency, other),
+                pairs.append((BasisTerm(mode.power, mode.rate, mode.frequency, other),
                               sign * c * mode.frequency))
         return ExponentialPolynomial.from_terms(pairs)
 
@@ -250,7 +250,7 @@ def fastest_time_scale(modes: Iterable[tuple[object, object]]) -> float:
     return scale
 
 
-def _trig_product(a: Mode, b: Mode) -> list[tuple[str, sympy.Expr, sympy.Expr]]:
+def _trig_product(a: BasisTerm, b: BasisTerm) -> list[tuple[str, sympy.Expr, sympy.Expr]]:
     """cos/sin(αu)·cos/sin(βu) as a sum of cos/sin((α ± β)u) with weights."""
     half = sympy.Rational(1, 2)
     p, q = a.frequency, b.frequency
@@ -277,24 +277,24 @@ class NumericCarrier:
 
     def __init__(self, digits: int = 30) -> None:
         self.digits = digits
-        self._parameters: dict[Mode, tuple] = {}
+        self._parameters: dict[BasisTerm, tuple] = {}
 
     def number(self, value: sympy.Expr):
         with mpmath.workdps(self.digits + 15):
             return mpmath.mpf(sympy.Float(sympy.N(value, self.digits + 15), self.digits + 15)._mpf_)
 
-    def _mode_numbers(self, mode: Mode) -> tuple:
+    def _mode_numbers(self, mode: BasisTerm) -> tuple:
         if mode not in self._parameters:
             self._parameters[mode] = (self.number(mode.rate), self.number(mode.frequency))
         return self._parameters[mode]
 
-    def numeric_terms(self, polynomial: ExponentialPolynomial) -> dict[Mode, object]:
+    def numeric_terms(self, polynomial: ExponentialPolynomial) -> dict[BasisTerm, object]:
         return {mode: self.number(c) for mode, c in polynomial.terms.items()}
 
-    def shifted(self, terms: dict[Mode, object], delay) -> dict[Mode, object]:
+    def shifted(self, terms: dict[BasisTerm, object], delay) -> dict[BasisTerm, object]:
         if delay == 0:
             return dict(terms)
-        result: dict[Mode, object] = {}
+        result: dict[BasisTerm, object] = {}
         with mpmath.workdps(self.digits + 15):
             for mode, coefficient in terms.items():
                 rate, frequency = self._mode_numbers(mode)
@@ -307,11 +307,11 @@ class NumericCarrier:
                 for j in range(mode.power + 1):
                     binomial = comb(mode.power, j) * delay ** (mode.power - j)
                     for kind, factor in trig_parts:
-                        key = Mode(j, mode.rate, mode.frequency, kind)
+                        key = BasisTerm(j, mode.rate, mode.frequency, kind)
                         result[key] = result.get(key, 0) + growth * binomial * factor
         return result
 
-    def add(self, terms: dict[Mode, object], other: dict[Mode, object], scale) -> dict[Mode, object]:
+    def add(self, terms: dict[BasisTerm, object], other: dict[BasisTerm, object], scale) -> dict[BasisTerm, object]:
         """terms + scale·other; a sum that cancels to the guard digits' rounding level (an
         ending load, a slope back to zero) is rounding residue and is dropped."""
         result = dict(terms)
@@ -326,12 +326,12 @@ class NumericCarrier:
                     result[mode] = total
         return result
 
-    def exponential_polynomial(self, terms: dict[Mode, object]) -> ExponentialPolynomial:
+    def exponential_polynomial(self, terms: dict[BasisTerm, object]) -> ExponentialPolynomial:
         """Back to sympy, coefficients as ``digits``-significant-digit Floats."""
         return ExponentialPolynomial.from_terms(
             [(mode, sympy.Float(c, self.digits)) for mode, c in terms.items() if c != 0])
 
-    def numeric_polynomial(self, terms: dict[Mode, object]) -> NumericExponentialPolynomial:
+    def numeric_polynomial(self, terms: dict[BasisTerm, object]) -> NumericExponentialPolynomial:
         rows = []
         for mode, c in terms.items():
             rate, frequency = self._mode_numbers(mode)

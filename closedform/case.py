@@ -3,7 +3,9 @@
 A ``Case`` holds exact SI numbers (sympy Rationals) or expressions in declared symbols,
 never floats and never raw strings that still need interpreting. Every problem in a case
 file becomes a ``CaseError`` naming the file, the TOML key and, where it can be found, the
-line.
+line. The [system] table is read by its model's definition (``closedform.models``) and each
+[[load]] by its shape's (``closedform.shapes``); this module reads the rest and holds the
+limits. The frozen values themselves are in ``specs``, a table's CSV file in ``csvtable``.
 
 Case files are untrusted text. Nothing read here is ever evaluated: values go through the
 whitelisted grammar of ``expressions`` and the unit reader of ``quantities``. Sizes are
@@ -16,58 +18,52 @@ stays one line and cannot drive the terminal.
 
 from __future__ import annotations
 
-import csv
-import datetime
 import difflib
 import hashlib
-import io
-import json
-import os
 import re
-import stat
 import tomllib
 import unicodedata
 from collections.abc import Mapping
-from dataclasses import dataclass, field
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
 import sympy
 
-from . import quantities
-from .errors import CaseError, ExpressionError
-from .expressions import parse_expression, parse_number, quote
+from . import models, quantities, shapes
+from .csvtable import MAX_CSV_BYTES, MAX_TABLE_POINTS
+from .errors import CaseError
+from .expressions import quote
+from .files import display_name, read_limited
+from .messages import key_part as _key_part
+from .messages import plain as _plain
+from .messages import shown as _shown
+from .messages import shown_value as _shown_value
+from .messages import toml_type as _toml_type
+from .specs import (
+    REGIMES,
+    TAU,
+    Case,
+    LoadSpec,
+    Repeat,
+    ReportSpec,
+    SymbolDeclaration,
+    SystemSpec,
+)
 
-MODELS = ("spring-mass-damper", "base-excitation", "first-order", "series-rlc", "ode")
-SHAPES = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half-sine",
-          "trapezoid", "table", "formula")
-REGIMES = ("undamped", "under-damped", "critically-damped", "over-damped")
-PULSE_SHAPES = ("rectangle", "triangle", "decay", "half-sine", "trapezoid", "table", "formula")
+__all__ = ["MAX_BREAKPOINTS", "MAX_CASE_BYTES", "MAX_CSV_BYTES", "MAX_LOADS", "MAX_SYMBOLS",
+           "MAX_TABLE_POINTS", "MAX_TEXT", "MODELS", "PULSE_SHAPES", "REGIMES", "SHAPES", "TAU",
+           "Case", "LoadSpec", "Repeat", "ReportSpec", "SymbolDeclaration", "SystemSpec",
+           "display_name", "load_case", "load_case_text", "locate", "quantity_reader",
+           "read_limited"]
 
-TAU = sympy.Symbol("tau", real=True)
+#: The built-in models (``closedform.models`` may hold more).
+MODELS = models.names()
+#: The built-in shapes and those of them that are pulses (``closedform.shapes`` may hold more).
+SHAPES = shapes.names()
+PULSE_SHAPES = tuple(name for name in SHAPES if shapes.get(name).pulse)
 
 _TOP_KEYS = ("title", "reference", "system", "initial", "load", "report", "symbols", "claims")
-_SYSTEM_KEYS = {
-    "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "first-order": ("model", "time_constant", "gain", "input_unit"),
-    "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime"),
-    "ode": ("model", "coefficients", "regime"),
-}
-_LOAD_KEYS = {
-    "step": ("amplitude",),
-    "ramp": ("rate", "duration"),
-    "impulse": ("impulse",),
-    "rectangle": ("duration", "amplitude", "impulse"),
-    "triangle": ("duration", "amplitude", "impulse", "peak_at"),
-    "decay": ("duration", "amplitude", "impulse"),
-    "half-sine": ("duration", "amplitude", "impulse"),
-    "trapezoid": ("rise", "hold", "fall", "amplitude"),
-    "table": ("points", "csv", "units"),
-    "formula": ("expr", "duration", "unit"),
-}
-_COMMON_LOAD_KEYS = ("shape", "at", "repeat", "label")
 _REPORT_KEYS = ("until", "units", "numbers", "digits", "paper")
 # [report] units: every quantity a sheet shows, with the dimension its unit must have
 # (None: the model's response, whatever it measures).
@@ -92,10 +88,6 @@ _CLAIM_NAME_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
 # Limits that keep a hostile or mistaken case cheap to refuse, each named in its message.
 #: Largest case file read, in bytes.
 MAX_CASE_BYTES = 1_000_000
-#: Largest CSV file read for a table load, in bytes.
-MAX_CSV_BYTES = 2_000_000
-#: Most points in one table load (inline or CSV).
-MAX_TABLE_POINTS = 10_000
 #: Most breakpoints (starts, corners and ends of every occurrence of every load) in one case.
 MAX_BREAKPOINTS = 10_000
 #: Longest title, reference or label, in characters.
@@ -119,119 +111,6 @@ _HIDDEN_CATEGORIES = frozenset(("Cf", "Zl", "Zp", "Cs", "Co", "Cn"))
 #: variable, the constants), in addition to the functions.
 _RESERVED_SYMBOLS = ("t", "tau", "s", "u", "v", "pi", "e", "I", "E")
 _SYMBOL_NAME_RE = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,30}")
-_BARE_KEY_RE = re.compile(r"[A-Za-z0-9_-]+")
-
-
-@dataclass(frozen=True)
-class SymbolDeclaration:
-    """A name declared under [symbols]: a positive real quantity, maybe with a value."""
-
-    name: str
-    symbol: sympy.Symbol
-    unit: str
-    dimension: Any
-    value: sympy.Expr | None
-
-
-@dataclass(frozen=True)
-class SystemSpec:
-    """The model and its parameters in exact SI (or in declared symbols)."""
-
-    model: str
-    parameters: Mapping[str, sympy.Expr]
-    regime: str | None
-    load_dimension: Any
-    response_dimension: Any
-
-    def get(self, name: str) -> sympy.Expr | None:
-        return self.parameters.get(name)
-
-
-@dataclass(frozen=True)
-class Repeat:
-    count: int
-    every: sympy.Expr
-
-
-@dataclass(frozen=True)
-class LoadSpec:
-    """One [[load]] entry as the engineer gave it, resolved to exact SI.
-
-    ``amplitude`` is always the peak value of a pulse (worked out from ``impulse``, the
-    area, where that was given); ``impulse`` keeps the stated area so verification can
-    check it independently.
-    """
-
-    number: int                       # 1-based position in the file
-    shape: str
-    at: sympy.Expr
-    values: Mapping[str, sympy.Expr]
-    points: tuple[tuple[sympy.Expr, sympy.Expr], ...] = ()
-    expression: sympy.Expr | None = None   # formula loads, in TAU
-    repeat: Repeat | None = None
-    label: str = ""
-
-    @property
-    def key(self) -> str:
-        return f"load[{self.number}]"
-
-    def get(self, name: str) -> sympy.Expr | None:
-        return self.values.get(name)
-
-    def length(self) -> sympy.Expr:
-        """How long one occurrence of the load acts (0 for steps, impulses, open ramps)."""
-        v = self.values
-        if self.shape in ("rectangle", "triangle", "decay", "half-sine", "formula"):
-            return v["duration"]
-        if self.shape == "ramp":
-            return v.get("duration", sympy.S.Zero)
-        if self.shape == "trapezoid":
-            return v["rise"] + v["hold"] + v["fall"]
-        if self.shape == "table":
-            return self.points[-1][0]
-        return sympy.S.Zero
-
-    def starts(self) -> tuple[sympy.Expr, ...]:
-        """Start time of each occurrence (one unless repeated)."""
-        if self.repeat is None:
-            return (self.at,)
-        return tuple(self.at + i * self.repeat.every for i in range(self.repeat.count))
-
-
-@dataclass(frozen=True)
-class ReportSpec:
-    until: sympy.Expr | None
-    units: Mapping[str, str] = field(default_factory=lambda: MappingProxyType({}))
-    numbers: str = "auto"       # auto | exact | decimal: how the sheet prints numbers
-    digits: int = 6             # significant digits of decimals on the sheet
-    paper: str = "a4"           # a4 | letter
-
-
-@dataclass(frozen=True)
-class Case:
-    """One case file, validated: everything the derivation needs and nothing it must guess."""
-
-    title: str
-    reference: str
-    system: SystemSpec
-    loads: tuple[LoadSpec, ...]
-    initial: tuple[sympy.Expr, ...] | None
-    symbols: tuple[SymbolDeclaration, ...]
-    report: ReportSpec
-    claims: Mapping[str, Any]
-    source: str = "<case>"
-    sha256: str = ""
-
-    def symbol_values(self) -> dict[sympy.Symbol, sympy.Expr]:
-        return {d.symbol: d.value for d in self.symbols if d.value is not None}
-
-    @property
-    def is_symbolic(self) -> bool:
-        return bool(self.symbols)
-
-    @property
-    def is_fully_valued(self) -> bool:
-        return all(d.value is not None for d in self.symbols)
 
 
 # ----------------------------------------------------------------------------- loading
@@ -276,47 +155,6 @@ def locate(error: CaseError, path: str | Path) -> CaseError:
             text = ""
         line = _Reader(shown, text, Path(path).parent).line_of(error.key)
     return CaseError(error.message, file=shown, key=error.key, line=line)
-
-
-def display_name(path: str) -> str:
-    """A file name as it may appear in a one-line message: unchanged when printable,
-    otherwise with control and invisible characters escaped (a file name from someone else
-    must not break the line or drive the terminal)."""
-    if path.isprintable():
-        return path
-    return "".join(c if c.isprintable() else ascii(c)[1:-1] for c in path)
-
-
-def read_limited(path: Path, limit: int, shown: str, what: str, *, key: str | None = None,
-                 line: int | None = None, file: str | None = None) -> bytes:
-    """The bytes of a regular file of at most ``limit`` bytes, else a CaseError.
-
-    The file is opened without blocking and checked to be a regular file before anything is
-    read, so a FIFO, a device or a folder given as a case or CSV file cannot hang the tool or
-    feed it endless data. Errors name ``file`` (default: ``shown``), ``key`` and ``line``.
-    """
-    where = {"file": file or shown, "key": key, "line": line}
-    try:
-        descriptor = os.open(path, os.O_RDONLY | getattr(os, "O_NONBLOCK", 0))
-    except (OSError, ValueError) as error:
-        reason = getattr(error, "strerror", None) or "the name holds a NUL character"
-        raise CaseError(f"cannot read {what} ({reason})", **where)
-    info = os.fstat(descriptor)
-    if not stat.S_ISREG(info.st_mode):
-        os.close(descriptor)
-        kind = "a folder" if stat.S_ISDIR(info.st_mode) else "a special file"
-        raise CaseError(f"cannot read {what} (expected a regular file, got {kind})", **where)
-    with os.fdopen(descriptor, "rb") as stream:
-        if info.st_size > limit:
-            raise CaseError(f"{what} is too large (at most {limit} bytes, got {info.st_size})",
-                            **where)
-        try:
-            raw = stream.read(limit + 1)
-        except OSError as error:
-            raise CaseError(f"cannot read {what} ({error.strerror})", **where)
-    if len(raw) > limit:
-        raise CaseError(f"{what} is too large (at most {limit} bytes)", **where)
-    return raw
 
 
 def load_case_text(text: str, name: str = "<string>") -> Case:
@@ -557,88 +395,23 @@ class _Reader:
         return tuple(declarations)
 
     def system(self, data: Mapping[str, Any]) -> SystemSpec:
+        """The [system] table, read by its model's definition (``closedform.models``)."""
         model = data.get("model")
         if model is None:
-            raise self.error("system.model", f"missing (expected one of: {', '.join(MODELS)})")
-        if model not in MODELS:
-            close = difflib.get_close_matches(str(model), MODELS, n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+            raise self.error("system.model", f"missing (expected one of: "
+                                             f"{', '.join(models.names())})")
+        if not models.known(model):
+            close = models.close_match(model)
+            hint = f"; did you mean '{close}'?" if close else ""
             raise self.error("system.model", f"unknown model {_shown(model)} (expected one of: "
-                                             f"{', '.join(MODELS)}){hint}")
-        self.check_keys(data, _SYSTEM_KEYS[model], "system")
-        parameters: dict[str, sympy.Expr] = {}
+                                             f"{', '.join(models.names())}){hint}")
+        definition = models.get(model)
+        self.check_keys(data, definition.keys, "system")
         regime = data.get("regime")
         if regime is not None and regime not in REGIMES:
             raise self.error("system.regime", f"unknown regime {_shown(regime)} (expected one of: "
                                               f"{', '.join(REGIMES)})")
-
-        def required(name: str, dimension: str) -> sympy.Expr:
-            if name not in data:
-                raise self.error(f"system.{name}", f"missing (the {model} model needs {name})")
-            return self.positive(self.quantity(data[name], dimension, f"system.{name}"),
-                                 f"system.{name}", dimension=dimension)
-
-        if model in ("spring-mass-damper", "base-excitation"):
-            parameters["mass"] = required("mass", "mass")
-            parameters["stiffness"] = required("stiffness", "stiffness")
-            if "damping" in data and "damping_ratio" in data:
-                raise self.error("system.damping_ratio", "give damping or damping_ratio, not both")
-            if "damping" in data:
-                parameters["damping"] = self.non_negative(
-                    self.quantity(data["damping"], "damping", "system.damping"), "system.damping",
-                    "damping")
-            elif "damping_ratio" in data:
-                ratio = self.non_negative(self.quantity(data["damping_ratio"], "dimensionless",
-                                                        "system.damping_ratio"),
-                                          "system.damping_ratio")
-                parameters["damping_ratio"] = ratio
-                parameters["damping"] = 2 * ratio * sympy.sqrt(parameters["stiffness"]
-                                                                * parameters["mass"])
-            else:
-                parameters["damping"] = sympy.S.Zero
-        elif model == "first-order":
-            parameters["time_constant"] = required("time_constant", "time")
-            input_unit = data.get("input_unit", "1")
-            if not isinstance(input_unit, str):
-                raise self.error("system.input_unit", "expected a unit string, "
-                                                      f"got {_toml_type(input_unit)}")
-            load_dim = self.unit_dimension(input_unit, "system.input_unit")
-            gain_dim = quantities.dimension("dimensionless")
-            if "gain" in data:
-                gain = data["gain"]
-                if isinstance(gain, str) and _has_unit(gain):
-                    gain_dim = self.unit_dimension(gain.split(None, 1)[1], "system.gain")
-                parameters["gain"] = self.quantity(gain, gain_dim, "system.gain")
-                if parameters["gain"] == 0:
-                    raise self.error("system.gain", "must not be zero")
-            else:
-                parameters["gain"] = sympy.S.One
-            return SystemSpec(model, MappingProxyType(parameters), regime, load_dim,
-                              load_dim * gain_dim)
-        elif model == "series-rlc":
-            parameters["inductance"] = required("inductance", "inductance")
-            parameters["resistance"] = self.non_negative(
-                self.quantity(data.get("resistance", 0), "resistance", "system.resistance"),
-                "system.resistance", "resistance")
-            parameters["capacitance"] = required("capacitance", "capacitance")
-        else:
-            coefficients = data.get("coefficients")
-            if not isinstance(coefficients, list) or not 2 <= len(coefficients) <= 5:
-                raise self.error("system.coefficients", "expected a list [a_n, …, a_0] of 2 to 5 "
-                                 f"numbers (order 1 to 4), got {_shown(coefficients)}")
-            values = []
-            for i, item in enumerate(coefficients):
-                values.append(self.quantity(item, "dimensionless", f"system.coefficients[{i}]"))
-            if values[0] == 0:
-                raise self.error("system.coefficients[0]", "the leading coefficient a_n must not be 0")
-            for i, value in enumerate(values):
-                parameters[f"a{len(values) - 1 - i}"] = value
-        d = quantities.dimension
-        dimensions = {"spring-mass-damper": (d("force"), d("length")),
-                      "base-excitation": (d("acceleration"), d("length")),
-                      "series-rlc": (d("voltage"), d("voltage")),
-                      "ode": (d("dimensionless"), d("dimensionless"))}[model]
-        return SystemSpec(model, MappingProxyType(parameters), regime, *dimensions)
+        return definition.read(self, data)
 
     def unit_dimension(self, unit: str, key: str) -> Any:
         """The dimension of a unit string given in the case ("1" or "" for none)."""
@@ -652,113 +425,27 @@ class _Reader:
     def load(self, data: Mapping[str, Any], number: int, load_dimension: Any) -> LoadSpec:
         key = f"load[{number}]"
         shape = data.get("shape")
-        if shape not in SHAPES:
-            close = difflib.get_close_matches(str(shape), SHAPES, n=1)
-            hint = f"; did you mean '{close[0]}'?" if close else ""
+        if not shapes.known(shape):
+            close = shapes.close_match(shape)
+            hint = f"; did you mean '{close}'?" if close else ""
             raise self.error(f"{key}.shape", f"unknown shape {_shown(shape)} (expected one of: "
-                                             f"{', '.join(SHAPES)}){hint}")
-        self.check_keys(data, _LOAD_KEYS[shape] + _COMMON_LOAD_KEYS, key)
+                                             f"{', '.join(shapes.names())}){hint}")
+        self.check_keys(data, shapes.get(shape).keys + shapes.COMMON_KEYS, key)
         at = self.non_negative(self.quantity(data.get("at", 0), "time", f"{key}.at"), f"{key}.at",
                                "time")
         label = data.get("label", "")
         if not isinstance(label, str):
             raise self.error(f"{key}.label", f"expected a string, got {_toml_type(label)}")
         self.free_text(label, f"{key}.label")
-        values: dict[str, sympy.Expr] = {}
-        time = quantities.dimension("time")
-        per_time = load_dimension / time
-        area = load_dimension * time
-
-        def duration(name: str = "duration", required: bool = True) -> None:
-            if name not in data:
-                if required:
-                    raise self.error(f"{key}.{name}", f"missing (a {shape} load needs {name})")
-                return
-            values[name] = self.positive(self.quantity(data[name], time, f"{key}.{name}"),
-                                         f"{key}.{name}", "a positive time", time)
-
-        def amplitude_or_impulse(area_factor: sympy.Expr | None) -> None:
-            has_amplitude, has_impulse = "amplitude" in data, "impulse" in data
-            if has_amplitude and has_impulse:
-                raise self.error(f"{key}.impulse", "give amplitude or impulse, not both")
-            if has_amplitude:
-                values["amplitude"] = self.quantity(data["amplitude"], load_dimension,
-                                                    f"{key}.amplitude")
-            elif has_impulse and area_factor is not None:
-                values["impulse"] = self.quantity(data["impulse"], area, f"{key}.impulse")
-                values["amplitude"] = sympy.simplify(values["impulse"] / area_factor)
-            else:
-                what = "amplitude or impulse" if area_factor is not None else "amplitude"
-                raise self.error(f"{key}.amplitude", f"missing (a {shape} load needs {what})")
-
-        points: tuple[tuple[sympy.Expr, sympy.Expr], ...] = ()
-        expression = None
-        if shape == "step":
-            amplitude_or_impulse(None)
-        elif shape == "ramp":
-            if "rate" not in data:
-                raise self.error(f"{key}.rate", "missing (a ramp load needs rate)")
-            values["rate"] = self.quantity(data["rate"], per_time, f"{key}.rate")
-            duration(required=False)
-        elif shape == "impulse":
-            if "impulse" not in data:
-                raise self.error(f"{key}.impulse", "missing (an impulse load needs impulse)")
-            values["impulse"] = self.quantity(data["impulse"], area, f"{key}.impulse")
-        elif shape in ("rectangle", "decay", "half-sine", "triangle"):
-            duration()
-            if shape == "triangle":
-                peak_at = self.quantity(data.get("peak_at", "0.5"), "dimensionless",
-                                        f"{key}.peak_at")
-                if peak_at.is_negative or (peak_at - 1).is_positive:
-                    raise self.error(f"{key}.peak_at", "must lie between 0 and 1 (expected a "
-                                                       "fraction of the duration, got "
-                                                       f"{_plain(peak_at)})")
-                values["peak_at"] = peak_at
-            factor = {"rectangle": sympy.S.One, "decay": sympy.Rational(1, 2),
-                      "triangle": sympy.Rational(1, 2),
-                      "half-sine": 2 / sympy.pi}[shape] * values["duration"]
-            amplitude_or_impulse(factor)
-        elif shape == "trapezoid":
-            for name in ("rise", "hold", "fall"):
-                if name not in data:
-                    raise self.error(f"{key}.{name}", f"missing (a trapezoid load needs {name})")
-                values[name] = self.non_negative(self.quantity(data[name], time, f"{key}.{name}"),
-                                                 f"{key}.{name}", time)
-            if (values["rise"] + values["hold"] + values["fall"]).is_zero:
-                raise self.error(f"{key}.hold", "rise + hold + fall must be positive (expected a "
-                                                "pulse that lasts, got 0 s in all)")
-            amplitude_or_impulse(None)
-        elif shape == "table":
-            points = self.table_points(data, key, load_dimension)
-        elif shape == "formula":
-            duration()
-            if "expr" not in data or not isinstance(data["expr"], str):
-                raise self.error(f"{key}.expr", "missing (a formula load needs expr, a string in tau)")
-            scale = sympy.S.One
-            if "unit" in data:
-                if not isinstance(data["unit"], str):
-                    raise self.error(f"{key}.unit", f"expected a unit string, got {_toml_type(data['unit'])}")
-                try:
-                    scale, dimension = quantities.unit_factor(data["unit"], key=f"{key}.unit")
-                except CaseError as error:
-                    raise error.located(file=self.file, key=f"{key}.unit",
-                                        line=self.line_of(f"{key}.unit"))
-                if dimension != load_dimension:
-                    raise self.error(f"{key}.unit", f"expected a unit of "
-                                     f"{quantities.describe(load_dimension)}, got "
-                                     f"{quantities.describe(dimension)}")
-            names = dict(self.names)
-            names["tau"] = TAU
-            try:
-                expression = parse_expression(data["expr"], names=names, key=f"{key}.expr")
-            except CaseError as error:
-                raise error.located(file=self.file, key=f"{key}.expr", line=self.line_of(f"{key}.expr"))
-            expression = expression * scale
+        definition = shapes.get(shape)
+        reading = shapes.LoadReading(self, data, key, shape, load_dimension)
+        definition.read(reading)
+        values, points, expression = reading.values, reading.points, reading.expression
         repeat = None
         if "repeat" in data:
             repeat = self.repeat(data["repeat"], f"{key}.repeat")
             length = LoadSpec(number, shape, at, values, points, expression).length()
-            if shape in ("step", "ramp") and "duration" not in values:
+            if definition.endless(values):
                 raise self.error(f"{key}.repeat", f"a {shape} that never ends cannot repeat")
             if (repeat.every - length).is_negative:
                 raise self.error(f"{key}.repeat.every", "repeats would overlap (every "
@@ -780,193 +467,6 @@ class _Reader:
                               f"{key}.every", "a positive time", "time")
         return Repeat(count, every)
 
-    def table_points(self, data: Mapping[str, Any], key: str,
-                     load_dimension: Any) -> tuple[tuple[sympy.Expr, sympy.Expr], ...]:
-        has_points, has_csv = "points" in data, "csv" in data
-        if not has_points and not has_csv:
-            raise self.error(f"{key}.points", "missing (a table load needs points or csv)")
-        if has_points and has_csv:
-            raise self.error(f"{key}.csv", "give points or csv, not both")
-        time_factor, value_factor = sympy.S.One, sympy.S.One
-        if "units" in data:
-            units = data["units"]
-            if not (isinstance(units, list) and len(units) == 2 and all(isinstance(u, str) for u in units)):
-                raise self.error(f"{key}.units", f"expected two unit strings [time, value], got "
-                                                 f"{_shown(units)}")
-            try:
-                time_factor, time_dimension = quantities.unit_factor(units[0], key=f"{key}.units")
-                value_factor, value_dimension = quantities.unit_factor(units[1], key=f"{key}.units")
-            except CaseError as error:
-                raise error.located(file=self.file, key=f"{key}.units", line=self.line_of(f"{key}.units"))
-            if time_dimension != quantities.dimension("time"):
-                raise self.error(f"{key}.units", f"expected a time unit first, got "
-                                                 f"{quantities.describe(time_dimension)}")
-            if value_dimension != load_dimension:
-                raise self.error(f"{key}.units", "expected a unit of "
-                                 f"{quantities.describe(load_dimension)} second, got "
-                                 f"{quantities.describe(value_dimension)}")
-        rows: list[tuple[sympy.Expr, sympy.Expr]] = []
-        where: list[str] = []
-        if has_points:
-            raw = data["points"]
-            if not isinstance(raw, list) or len(raw) < 2:
-                raise self.error(f"{key}.points", "expected a list of at least two [t, value] pairs")
-            if len(raw) > MAX_TABLE_POINTS:
-                raise self.error(f"{key}.points", f"too many points (at most {MAX_TABLE_POINTS}, "
-                                                  f"got {len(raw)})")
-            for i, pair in enumerate(raw):
-                item_key = f"{key}.points[{i}]"
-                if not isinstance(pair, list) or len(pair) != 2:
-                    raise self.error(item_key, f"expected a [t, value] pair, got {_shown(pair)}")
-                t = self.table_number(pair[0], "time", time_factor, item_key)
-                v = self.table_number(pair[1], load_dimension, value_factor, item_key)
-                rows.append((t, v))
-                where.append(item_key)
-            csv_file = None
-        else:
-            rows, where, csv_file = self.csv_points(data["csv"], key, load_dimension,
-                                                    time_factor, value_factor)
-        csv_key = f"{key}.csv"
-        for i in range(1, len(rows)):
-            step = rows[i][0] - rows[i - 1][0]
-            if step.is_negative:
-                message = (f"times must not decrease (got {_plain(rows[i][0])} s after "
-                           f"{_plain(rows[i - 1][0])} s)")
-                raise self._row_error(where[i], message, csv_file, csv_key)
-            if step.is_zero and i >= 2 and (rows[i - 1][0] - rows[i - 2][0]).is_zero:
-                raise self._row_error(where[i], f"duplicate time {_plain(rows[i][0])} s (a jump "
-                                      "takes exactly two rows at the same time)", csv_file, csv_key)
-        if rows[0][0].is_negative:
-            raise self._row_error(where[0], "times start at 0 or later (local to 'at')", csv_file,
-                                  csv_key)
-        if (rows[-1][0] - rows[0][0]).is_zero:
-            raise self.error(f"{key}.points" if csv_file is None else csv_key,
-                             "the table spans no time")
-        return tuple(rows)
-
-    def _row_error(self, where: str, message: str, csv_file: str | None,
-                   csv_key: str) -> CaseError:
-        if csv_file is not None:
-            return CaseError(message, file=csv_file, key=csv_key, line=int(where))
-        return self.error(where, message)
-
-    def table_number(self, value: Any, dimension: Any, factor: sympy.Expr, key: str) -> sympy.Expr:
-        if isinstance(value, str):
-            return self.quantity(value, dimension, key)
-        if isinstance(value, bool) or not isinstance(value, (int, float)):
-            raise self.error(key, f"expected a number, got {_toml_type(value)}")
-        return self.quantity(value, "dimensionless", key) * factor
-
-    def csv_path(self, name: Any, key: str) -> tuple[Path, str]:
-        """The CSV file a table names, refused unless it lies in the case file's folder or
-        below it: no absolute paths, no '..', no symbolic link leading elsewhere."""
-        if not isinstance(name, str) or not name.strip():
-            raise self.error(key, f"expected a file name, got {_shown(name)}")
-        if not name.isprintable():
-            raise self.error(key, f"expected a file name of printable characters, got "
-                                  f"{quote(name)}")
-        relative = Path(name)
-        if relative.is_absolute() or relative.drive or relative.root:
-            raise self.error(key, f"absolute paths are refused (expected a file name relative "
-                                  f"to the case file's folder, got {quote(name)})")
-        if ".." in relative.parts:
-            raise self.error(key, f"paths leaving the case folder are refused (expected a file "
-                                  f"in the case file's folder or below it, got {quote(name)})")
-        path = self.folder / relative
-        try:
-            inside = path.resolve().is_relative_to(self.folder.resolve())
-        except (OSError, RuntimeError, ValueError):   # a loop of links, say
-            inside = False
-        if not inside:
-            raise self.error(key, f"{quote(name)} leads outside the case folder through a "
-                                  "symbolic link (expected a file in the case file's folder "
-                                  "or below it)")
-        return path, display_name(str(path))
-
-    def csv_points(self, name: Any, key: str, load_dimension: Any, time_factor: sympy.Expr,
-                   value_factor: sympy.Expr) -> tuple[list, list, str]:
-        """The rows of a two-column CSV (time, value), with the CSV line of each row."""
-        csv_key = f"{key}.csv"
-        path, shown = self.csv_path(name, csv_key)
-        raw = read_limited(path, MAX_CSV_BYTES, shown, quote(name), key=csv_key,
-                           line=self.line_of(csv_key), file=self.file)
-
-        def problem(message: str, line: int | None) -> CaseError:
-            return CaseError(message, file=shown, key=csv_key, line=line)
-
-        if b"\x00" in raw:
-            raise problem("the CSV file contains a NUL byte (expected text)",
-                          raw[:raw.index(b"\x00")].count(b"\n") + 1)
-        try:
-            content = raw.decode("utf-8-sig")
-        except UnicodeDecodeError as error:
-            offset = error.start + (3 if raw.startswith(b"\xef\xbb\xbf") else 0)
-            raise problem(f"not UTF-8 text (expected UTF-8, got byte 0x{raw[offset]:02X})",
-                          raw[:offset].count(b"\n") + 1)
-        reader = csv.reader(io.StringIO(content, newline=""))
-        cells_by_line: list[tuple[int, list[str]]] = []
-        header: tuple[int, list[str]] | None = None
-        try:
-            for row in reader:
-                number = reader.line_num
-                if not row or all(not cell.strip() for cell in row) \
-                        or row[0].lstrip().startswith("#"):
-                    continue
-                if len(row) != 2:
-                    raise problem(f"expected two columns (time, value), got {len(row)}", number)
-                cells = [cell.strip() for cell in row]
-                if header is None and not cells_by_line and not _looks_numeric(cells[0]):
-                    header = (number, cells)
-                    continue
-                cells_by_line.append((number, cells))
-                if len(cells_by_line) > MAX_TABLE_POINTS:
-                    raise problem(f"too many rows (at most {MAX_TABLE_POINTS} data rows)", number)
-        except csv.Error as error:
-            raise problem(f"not a readable CSV row ({error})", reader.line_num)
-        if header is not None:
-            time_factor, value_factor = self.csv_header(header[1], shown, csv_key, header[0],
-                                                        load_dimension, time_factor,
-                                                        value_factor)
-        if len(cells_by_line) < 2:
-            raise self.error(csv_key, f"{quote(name)} holds fewer than two data rows "
-                                      f"(expected at least two rows of time, value)")
-        rows, where = [], []
-        factors = (time_factor, value_factor)
-        for number, cells in cells_by_line:
-            values = []
-            for column, cell in enumerate(cells, start=1):
-                try:
-                    values.append(_csv_number(cell, column) * factors[column - 1])
-                except CaseError as error:
-                    raise problem(error.message, number)
-            rows.append((values[0], values[1]))
-            where.append(str(number))
-        return rows, where, shown
-
-    def csv_header(self, cells: list[str], shown: str, csv_key: str, number: int,
-                   load_dimension: Any, time_factor: sympy.Expr,
-                   value_factor: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
-        """A header row such as ``t [ms], F [kN]`` may carry the units."""
-        factors = [time_factor, value_factor]
-        expected = [quantities.dimension("time"), load_dimension]
-        for i, cell in enumerate(cells):
-            match = re.search(r"\[([^\]]+)\]|\(([^)]+)\)", cell)
-            if not match:
-                continue
-            unit = match.group(1) or match.group(2)
-            try:
-                factor, dimension = quantities.unit_factor(unit, key="header")
-            except CaseError as error:
-                raise CaseError(f"column {i + 1}: {error.message}", file=shown, key=csv_key,
-                                line=number)
-            if dimension != expected[i]:
-                raise CaseError(f"column {i + 1}: wrong unit in the header (expected a unit of "
-                                f"{quantities.describe(expected[i])}, got "
-                                f"{quantities.describe(dimension)})", file=shown, key=csv_key,
-                                line=number)
-            factors[i] = factor
-        return factors[0], factors[1]
-
     def initial(self, data: Any, system: SystemSpec) -> tuple[sympy.Expr, ...] | None:
         if data is None:
             return None
@@ -983,7 +483,7 @@ class _Reader:
                                                    f"got {_shown(raw)}")
             return tuple(self.quantity(v, dimensions[i], f"initial.values[{i}]")
                          for i, v in enumerate(raw))
-        if system.model not in ("spring-mass-damper", "base-excitation"):
+        if not models.get(system.model).mechanical:
             raise self.error("initial.displacement", "displacement/velocity are for mechanical "
                                                      "models; use values = […]")
         result = [sympy.S.Zero] * order
@@ -1038,28 +538,13 @@ class _Reader:
         return ReportSpec(until, MappingProxyType(units), numbers, digits, paper)
 
 
-def _shown_value(value: Any) -> str:
-    """A TOML value as a message shows it: strings quoted, others by their TOML type."""
-    if isinstance(value, str):
-        return repr(value[:40])
-    if isinstance(value, bool):
-        return str(value).lower()
-    if isinstance(value, int):
-        return str(value)
-    return _toml_type(value)
-
-
 def _function_names() -> tuple[str, ...]:
     from .expressions import FUNCTIONS
     return tuple(FUNCTIONS)
 
 
 def _order(system: SystemSpec) -> int:
-    if system.model == "first-order":
-        return 1
-    if system.model == "ode":
-        return len(system.parameters) - 1
-    return 2
+    return models.get(system.model).order(system)
 
 
 def _initial_dimensions(system: SystemSpec, order: int) -> list[Any]:
@@ -1068,76 +553,6 @@ def _initial_dimensions(system: SystemSpec, order: int) -> list[Any]:
     return [base / time**i for i in range(order)]
 
 
-def _has_unit(text: str) -> bool:
-    return bool(re.fullmatch(r"\s*[-+]?[0-9.eE+-]+\s+[A-Za-z].*", text))
-
-
-def _looks_numeric(cell: str) -> bool:
-    return bool(re.fullmatch(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?", cell))
-
-
-def _csv_number(cell: str, column: int) -> sympy.Expr:
-    """The exact value of one CSV cell: a plain number, nothing else."""
-    if _looks_numeric(cell):
-        try:
-            return parse_number(cell, key=None)
-        except ExpressionError as error:
-            message = re.sub(r" at column \d+", "", error.message)
-            raise CaseError(f"column {column}: {message}")
-    if re.fullmatch(r"[-+]?[0-9.]+([eE][-+]?\d+)?\s*\S.*", cell):
-        raise CaseError(f"column {column}: not a plain number (expected a number, with the "
-                        f"units in the header such as 'time [ms], force [kN]', got {quote(cell)})")
-    raise CaseError(f"column {column}: not a number (expected a number such as 0.25 or "
-                    f"-1.5e3, got {quote(cell)})")
-
-
-def _toml_type(value: Any) -> str:
-    return {bool: "a boolean", int: "an integer", float: "a number", str: "a string",
-            list: "an array", dict: "a table", datetime.datetime: "a date-time",
-            datetime.date: "a date", datetime.time: "a time of day"}.get(type(value),
-                                                                         type(value).__name__)
-
-
-def _shown(value: Any) -> str:
-    """A TOML value for a one-line message: its repr, ASCII only (so a look-alike letter
-    shows as an escape), shortened."""
-    try:
-        text = ascii(value)
-    except RecursionError:
-        text = f"<{_toml_type(value)} nested too deeply>"
-    return _shown_text(text)
-
-
-def _plain(value: sympy.Expr, dimension: str | Any | None = None) -> str:
-    """A value for a message: 6 significant digits, with its SI unit when ``dimension`` is
-    given and the value is not zero (zero is zero in every unit)."""
-    if value.free_symbols:
-        return _shown_text(str(value))
-    number = sympy.N(value, 6)
-    text = f"{float(number):g}"
-    if dimension is None or value.is_zero:
-        return text
-    if isinstance(dimension, str):
-        dimension = quantities.dimension(dimension)
-    unit = quantities.si_unit_text(dimension)
-    return text if unit == "1" else f"{text} {unit}"
-
-
-def _key_part(name: str) -> str:
-    """A TOML key as written in a message: bare when it can be, else quoted and escaped;
-    shortened past 40 characters."""
-    shown = name if len(name) <= 40 else name[:40]
-    if not _BARE_KEY_RE.fullmatch(shown):
-        shown = json.dumps(shown, ensure_ascii=True)
-    return shown + ("..." if len(name) > 40 else "")
-
-
-def _shown_text(text: str) -> str:
-    return text if len(text) <= 60 else text[:57] + "..."
-
-
 def _corners(load: LoadSpec) -> int:
     """How many breakpoints one occurrence of a load brings (start, corners, end)."""
-    if load.shape == "table":
-        return len(load.points)
-    return {"step": 1, "impulse": 1, "ramp": 2, "triangle": 3, "trapezoid": 4}.get(load.shape, 2)
+    return shapes.get(load.shape).corners(load)

@@ -29,7 +29,7 @@ from typing import Any
 import sympy
 
 from . import quantities
-from .basis import COS, SIN, ExponentialPolynomial, Mode
+from .basis import COS, SIN, BasisTerm, ExponentialPolynomial
 from .errors import CaseError
 from .expressions import parse_expression, parse_number, quote
 
@@ -379,7 +379,7 @@ def exponential_polynomial(formula: sympy.Expr, time: sympy.Symbol,
             sigma, omega = sympy.re(rate), sympy.im(rate)
             if omega == 0:
                 value = _real(coefficient)
-                pairs.append((Mode(power, sigma, sympy.S.Zero, COS), value))
+                pairs.append((BasisTerm(power, sigma, sympy.S.Zero, COS), value))
                 done.add((power, rate))
                 continue
             positive = sympy.expand(sigma + sympy.I * abs(omega))
@@ -387,8 +387,8 @@ def exponential_polynomial(formula: sympy.Expr, time: sympy.Symbol,
             c_plus = groups.get((power, positive), sympy.S.Zero)
             c_minus = groups.get((power, negative), sympy.S.Zero)
             done.update({(power, positive), (power, negative)})
-            pairs.append((Mode(power, sigma, abs(omega), COS), _real(c_plus + c_minus)))
-            pairs.append((Mode(power, sigma, abs(omega), SIN),
+            pairs.append((BasisTerm(power, sigma, abs(omega), COS), _real(c_plus + c_minus)))
+            pairs.append((BasisTerm(power, sigma, abs(omega), SIN),
                           _real(sympy.I * (c_plus - c_minus))))
         return ExponentialPolynomial.from_terms(pairs)
     except (_NotExponential, ValueError, TypeError):

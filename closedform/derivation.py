@@ -13,7 +13,7 @@ from typing import Any
 
 import sympy
 
-from . import __version__
+from . import __version__, models
 from .case import Case
 from .checks.base import Check
 from .checks.registry import DERIVE, run_checks
@@ -253,7 +253,7 @@ def window_warnings(case: Case, window: Window, results: Results | None = None
                             f"{_seconds(until)}, before the last load ends at {_seconds(end)}; "
                             "nothing after the window is covered (extend until)")
         if end == until and results is not None and results.residual is None \
-                and case.system.model != "first-order":
+                and models.get(case.system.model).residual_warning:
             warnings.append(f"{case.source}: report.until: the last load ends exactly at the "
                             f"end of the analysis window ({_seconds(until)}), so no residual "
                             "vibration after it is reported (extend until past the load)")

@@ -15,7 +15,7 @@ from math import comb, factorial
 
 import sympy
 
-from .basis import COS, SIN, ExponentialPolynomial, Mode
+from .basis import COS, SIN, BasisTerm, ExponentialPolynomial
 from .errors import DerivationError
 
 s = sympy.Symbol("s")
@@ -120,7 +120,7 @@ def merge_poles(first: Sequence[Pole], second: Sequence[Pole]) -> tuple[Pole, ..
     return tuple(merged)
 
 
-def transform_of_mode(mode: Mode) -> tuple[RationalTransform, TablePair]:
+def transform_of_mode(mode: BasisTerm) -> tuple[RationalTransform, TablePair]:
     """L{u^k e^(σu) cos|sin(ωu)} as an exact rational function with its pole.
 
     With z = s − σ:  L{u^k e^(σu) e^(iωu)} = k!/(z − iω)^(k+1) = k!(z + iω)^(k+1)/(z² + ω²)^(k+1),
@@ -147,7 +147,7 @@ def _power_name(power: int) -> str:
     return "t" if power == 1 else f"t^{power}"
 
 
-def _pair_name(mode: Mode) -> str:
+def _pair_name(mode: BasisTerm) -> str:
     if mode.frequency == 0:
         if mode.rate == 0:
             return "unit step" if mode.power == 0 else (
@@ -160,7 +160,7 @@ def _pair_name(mode: Mode) -> str:
     return base if mode.power == 0 else f"{_power_name(mode.power)} times {base}"
 
 
-def _pair_source(mode: Mode) -> str:
+def _pair_source(mode: BasisTerm) -> str:
     k, sigma, omega = mode.power, mode.rate, mode.frequency
     if omega == 0:
         if sigma == 0:
@@ -236,7 +236,7 @@ def invert(transform: RationalTransform, tidy=_tidy) -> Inversion:
         return tidy(sympy.sympify(value).xreplace(stand_ins))
 
     fractions: list[PartialFraction] = []
-    pairs: list[tuple[Mode, sympy.Expr]] = []
+    pairs: list[tuple[BasisTerm, sympy.Expr]] = []
     for original, pole in zip(transform.poles, poles):
         root = pole.root()
         others = [p.factor() ** p.multiplicity for p in poles if p is not pole]
@@ -252,12 +252,12 @@ def invert(transform: RationalTransform, tidy=_tidy) -> Inversion:
                 real, imaginary = back(sympy.re(value)), back(sympy.im(value))
                 coefficient = real + sympy.I * imaginary
                 scale = sympy.Integer(2) / factorial(j - 1)
-                pairs.append((Mode(j - 1, original.rate, original.frequency, COS), scale * real))
-                pairs.append((Mode(j - 1, original.rate, original.frequency, SIN),
+                pairs.append((BasisTerm(j - 1, original.rate, original.frequency, COS), scale * real))
+                pairs.append((BasisTerm(j - 1, original.rate, original.frequency, SIN),
                               -scale * imaginary))
             else:
                 coefficient = back(value)
-                pairs.append((Mode(j - 1, original.rate, sympy.S.Zero, COS),
+                pairs.append((BasisTerm(j - 1, original.rate, sympy.S.Zero, COS),
                               coefficient / factorial(j - 1)))
             if coefficient != 0:
                 fractions.append(PartialFraction(coefficient, original.root(), j, pole.is_pair))

@@ -1,9 +1,11 @@
 """Load rewrite rules: every load shape as a sum of singularity terms.
 
-The result is a list of terms c · g(t − a) · H(t − a), where g is one basis function of
-``basis.Mode`` (1, (t − a)^n, a sine …), and impulses J · δ(t − a). Each rule that fires is
-recorded with its name and source; the sheet shows that record, it never rewrites loads
-itself.
+The result is a list of terms c · g(t − a) · H(t − a), where g is one basis function
+(``basis.BasisTerm``: 1, (t − a)^n, a sine …), and impulses J · δ(t − a). Each rule that
+fires is recorded with its name and source; the sheet shows that record, it never rewrites
+loads itself. Which rule a shape uses and how is its definition in ``closedform.shapes``;
+this module holds the rules and the machinery they share (polylines, windowed functions,
+formulas as exponential polynomials).
 """
 
 from __future__ import annotations
@@ -13,27 +15,15 @@ from dataclasses import dataclass
 
 import sympy
 
-from .basis import COS, SIN, ExponentialPolynomial, Mode
-from .case import TAU, LoadSpec
+from .basis import COS, SIN, BasisTerm, ExponentialPolynomial
 from .errors import CaseError
 
-MACAULAY = ("Macaulay, 'Note on the deflection of beams', Messenger of Mathematics 48 (1919) "
-            "129-130 (singularity functions)")
-# Where no book section was checked, the theorem itself is cited.
-SECOND_SHIFTING = ("time-shift (second shifting) theorem with the unit step, "
-                   "f(t − a)·H(t − a) ↔ e^(−as)·F(s)")
-DIRAC = "sifting property of the Dirac delta, ∫ g(t)·δ(t − a) dt = g(a)"
-
-RULES = {
-    "step": ("step: A·H(t − a)", SECOND_SHIFTING),
-    "ramp": ("ramp: r·(t − a)·H(t − a), less r·(t − a − d)·H(t − a − d) where it holds",
-             MACAULAY),
-    "impulse": ("impulse: J·δ(t − a)", DIRAC),
-    "piecewise-linear": ("piecewise-linear pulse: a step at every jump and a ramp at every "
-                         "change of slope", MACAULAY),
-    "window": ("windowed function: f(t − a)·H(t − a) − f(t − a)·H(t − a − d), the second "
-               "term re-expanded about a + d", SECOND_SHIFTING),
-}
+# The rules live with the shapes; named here as before.
+from .shapes.rules import DIRAC as DIRAC
+from .shapes.rules import MACAULAY as MACAULAY
+from .shapes.rules import RULES as RULES
+from .shapes.rules import SECOND_SHIFTING as SECOND_SHIFTING
+from .specs import LoadSpec
 
 
 @dataclass(frozen=True)
@@ -42,7 +32,7 @@ class SingularityTerm:
 
     coefficient: sympy.Expr
     at: sympy.Expr
-    mode: Mode
+    mode: BasisTerm
     load_number: int
 
     def expression(self, t: sympy.Symbol) -> sympy.Expr:
@@ -96,8 +86,8 @@ class LoadHistory:
 
 
 ZERO = sympy.S.Zero
-STEP = Mode(0, ZERO, ZERO)
-RAMP = Mode(1, ZERO, ZERO)
+STEP = BasisTerm(0, ZERO, ZERO)
+RAMP = BasisTerm(1, ZERO, ZERO)
 
 
 def rewrite_loads(loads: Sequence[LoadSpec]) -> LoadHistory:
@@ -110,51 +100,21 @@ def rewrite_loads(loads: Sequence[LoadSpec]) -> LoadHistory:
 
 
 def rewrite_load(load: LoadSpec, start: sympy.Expr) -> Rewrite:
-    """One occurrence of a load, starting at ``start``, as singularity terms."""
-    v = load.values
-    n = load.number
-    if load.shape == "step":
-        return _rewrite(load, "step", [SingularityTerm(v["amplitude"], start, STEP, n)])
-    if load.shape == "ramp":
-        terms = [SingularityTerm(v["rate"], start, RAMP, n)]
-        if "duration" in v:
-            terms.append(SingularityTerm(-v["rate"], start + v["duration"], RAMP, n))
-        return _rewrite(load, "ramp", terms)
-    if load.shape == "impulse":
-        return _rewrite(load, "impulse", [ImpulseTerm(v["impulse"], start, n)])
-    if load.shape in ("rectangle", "triangle", "decay", "trapezoid", "table"):
-        return _rewrite(load, "piecewise-linear",
-                        piecewise_linear_terms(pulse_points(load), start, n))
-    if load.shape == "half-sine":
-        omega = sympy.pi / v["duration"]
-        shape = ExponentialPolynomial.single(Mode(0, ZERO, omega, SIN), v["amplitude"])
-        return _rewrite(load, "window", windowed_terms(shape, start, v["duration"], n))
-    if load.shape == "formula":
-        shape = exponential_polynomial_of(load.expression, TAU, key=f"{load.key}.expr")
-        return _rewrite(load, "window", windowed_terms(shape, start, v["duration"], n))
-    raise CaseError(f"no rewrite rule for shape '{load.shape}'", key=f"{load.key}.shape")
-
-
-def _rewrite(load: LoadSpec, rule: str, terms: list) -> Rewrite:
-    text, source = RULES[rule]
-    return Rewrite(load.number, load.shape, text, source, tuple(terms))
+    """One occurrence of a load, starting at ``start``, as singularity terms: by the rule
+    of its shape's definition (``closedform.shapes``)."""
+    from . import shapes
+    if not shapes.known(load.shape):
+        raise CaseError(f"no rewrite rule for shape '{load.shape}'", key=f"{load.key}.shape")
+    definition = shapes.get(load.shape)
+    text, source = definition.rule
+    return Rewrite(load.number, load.shape, text, source,
+                   tuple(definition.rewrite(load, start)))
 
 
 def pulse_points(load: LoadSpec) -> tuple[tuple[sympy.Expr, sympy.Expr], ...]:
     """The corner points (local time, value) of a piecewise-linear pulse, zero outside."""
-    v = load.values
-    if load.shape == "table":
-        return load.points
-    a = v["amplitude"]
-    if load.shape == "rectangle":
-        return ((ZERO, a), (v["duration"], a))
-    if load.shape == "decay":
-        return ((ZERO, a), (v["duration"], ZERO))
-    if load.shape == "triangle":
-        d, p = v["duration"], v["peak_at"]
-        return ((ZERO, ZERO), (p * d, a), (d, ZERO))
-    rise, hold, fall = v["rise"], v["hold"], v["fall"]
-    return ((ZERO, ZERO), (rise, a), (rise + hold, a), (rise + hold + fall, ZERO))
+    from . import shapes
+    return shapes.get(load.shape).points(load)
 
 
 def piecewise_linear_terms(points: Sequence[tuple[sympy.Expr, sympy.Expr]], start: sympy.Expr,
@@ -254,11 +214,11 @@ def exponential_polynomial_of(expression: sympy.Expr, variable: sympy.Symbol, *,
             sign = 1
         # sin(ωτ + φ) = sin ωτ cos φ + cos ωτ sin φ;  cos(ωτ + φ) = cos ωτ cos φ − sin ωτ sin φ
         if kind == SIN:
-            pairs = [(Mode(0, ZERO, rate, SIN), sign * sympy.cos(phase)),
-                     (Mode(0, ZERO, rate, COS), sign * sympy.sin(phase))]
+            pairs = [(BasisTerm(0, ZERO, rate, SIN), sign * sympy.cos(phase)),
+                     (BasisTerm(0, ZERO, rate, COS), sign * sympy.sin(phase))]
         else:
-            pairs = [(Mode(0, ZERO, rate, COS), sympy.cos(phase)),
-                     (Mode(0, ZERO, rate, SIN), -sympy.sin(phase))]
+            pairs = [(BasisTerm(0, ZERO, rate, COS), sympy.cos(phase)),
+                     (BasisTerm(0, ZERO, rate, SIN), -sympy.sin(phase))]
         return ExponentialPolynomial.from_terms([p for p in pairs if p[1] != 0])
     if isinstance(expression, (sympy.sinh, sympy.cosh)):
         return exponential_polynomial_of(expression.rewrite(sympy.exp), variable, key=key)
@@ -281,4 +241,4 @@ def _linear(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
 def _exponential(argument: sympy.Expr, variable: sympy.Symbol, whole: sympy.Expr,
                  key: str) -> ExponentialPolynomial:
     rate, phase = _linear(argument, variable, whole, key)
-    return ExponentialPolynomial.single(Mode(0, rate, ZERO), sympy.exp(phase))
+    return ExponentialPolynomial.single(BasisTerm(0, rate, ZERO), sympy.exp(phase))

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import sympy
 
-from .basis import ExponentialPolynomial, Mode, NumericCarrier, NumericExponentialPolynomial
+from .basis import BasisTerm, ExponentialPolynomial, NumericCarrier, NumericExponentialPolynomial
 from .errors import CaseError, DerivationError
 from .laplace import (
     SOURCES,
@@ -29,7 +29,7 @@ from .laplace import (
     transform_of_mode,
 )
 from .loads import LoadHistory
-from .systems import LinearModel
+from .systems import LinearModel, ScalarEquation
 
 t = sympy.Symbol("t", real=True)
 
@@ -84,7 +84,7 @@ class Kernel:
     """The response of the system to one basis function g(t)·H(t) (or to δ(t))."""
 
     name: str
-    mode: Mode | None                     # None for the impulse response
+    mode: BasisTerm | None                     # None for the impulse response
     pair: TablePair | None
     inversion: Inversion
 
@@ -130,10 +130,14 @@ def _tidy_exact(c: sympy.Expr) -> sympy.Expr:
     return c
 
 
-def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr] | None,
+def solve(model: LinearModel | ScalarEquation, history: LoadHistory, initial: Sequence[sympy.Expr] | None,
           until: sympy.Expr, *, exact: bool, ordering: Mapping[sympy.Symbol, sympy.Expr] | None
           = None) -> Solution:
-    """Transform, invert and assemble the piecewise response on [0, until]."""
+    """Transform, invert and assemble the piecewise response on [0, until].
+
+    ``model`` is any scalar equation with its poles (``systems.ScalarEquation``; a case's
+    ``LinearModel`` is one): the engine is the same for one mode of a larger model.
+    """
     tidy = coefficient_policy(exact)
     lead = model.lead
     initial = tuple(initial) if initial is not None else (sympy.S.Zero,) * model.order
@@ -154,7 +158,7 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
     if q != 0:
         free = invert(RationalTransform(q, (), sympy.S.One).divided_by(lead, model.poles))
 
-    kernels: dict[Mode | None, Kernel] = {}
+    kernels: dict[BasisTerm | None, Kernel] = {}
     for term in history.terms:
         if term.mode not in kernels:
             mode_transform, pair = transform_of_mode(term.mode)
@@ -170,7 +174,7 @@ def solve(model: LinearModel, history: LoadHistory, initial: Sequence[sympy.Expr
         kernels[None] = Kernel("unit impulse", None, pair, invert(unit.divided_by(lead, model.poles)))
 
     # Events in time order; those at or after the end of the window do not act on it.
-    events: dict[sympy.Expr, list[tuple[sympy.Expr, Mode | None]]] = {}
+    events: dict[sympy.Expr, list[tuple[sympy.Expr, BasisTerm | None]]] = {}
     for term in history.terms:
         events.setdefault(term.at, []).append((term.coefficient, term.mode))
     for impulse in history.impulses:

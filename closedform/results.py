@@ -28,7 +28,7 @@ import mpmath
 import numpy
 import sympy
 
-from . import peaksearch, quantities
+from . import models, peaksearch, quantities, shapes
 from .basis import (
     SIN,
     ExponentialPolynomial,
@@ -36,9 +36,9 @@ from .basis import (
     NumericExponentialPolynomial,
     fastest_time_scale,
 )
-from .case import PULSE_SHAPES, TAU, LoadSpec
-from .loads import LoadHistory, pulse_points
+from .loads import LoadHistory
 from .response import load_pieces, solve
+from .specs import LoadSpec
 
 DIGITS = 30
 PEAK_TOLERANCE = 1e-9        # "earliest time within 1e-9 (relative) of the maximum"
@@ -612,7 +612,8 @@ def _unit(dimension) -> str:
 
 
 def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
-    """(JSON name, description, SI unit, transform of the response) for the model.
+    """(JSON name, description, SI unit, transform of the response) for the model: those
+    of its definition in ``closedform.models``, else the derivatives x′ (and x″).
 
     The transform maps the numeric response on one interval to the quantity on it.
     """
@@ -638,41 +639,12 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
                                              ((x_factor, f), (v_factor, f.derivative()))
                                              if factor != 0])
 
+    definition = models.get(model_name)
+    if definition.quantities is not None:
+        return definition.quantities(models.QuantityContext(
+            case.system.parameters, tuple(model.coefficients), model.order, response, time,
+            number, _unit, derivative, combination))
     first, second = derivative(1), derivative(2)
-    if model_name in ("spring-mass-damper", "base-excitation"):
-        m, c, k = (number(a) for a in model.coefficients)
-        force = _unit(quantities.dimension("force"))
-        relative = "relative " if model_name == "base-excitation" else ""
-        prefix = "peak_relative_" if relative else "peak_"
-        definitions = [
-            (f"{prefix}velocity", f"{relative}velocity x′", _unit(response / time), first),
-            (f"{prefix}acceleration", f"{relative}acceleration x″ (one-sided values at load "
-             "steps; the Dirac part at an impulse is left out)", _unit(response / time**2),
-             second),
-        ]
-        if model_name == "base-excitation":
-            definitions.append(
-                ("peak_absolute_acceleration", "absolute acceleration of the mass, "
-                 "u″ + a_g = −(k·u + c·u′)/m", _unit(response / time**2),
-                 combination(None if m is None else -k / m, None if m is None else -c / m)))
-        where = "between mass and support" if model_name == "base-excitation" else "on the support"
-        definitions += [
-            ("peak_spring_force", f"spring force k·x ({where})", force,
-             combination(k, 0) if k is not None else None),
-            ("peak_support_reaction", f"support reaction k·x + c·x′ ({where})", force,
-             combination(k, c) if k is not None else None),
-        ]
-        return definitions
-    if model_name == "series-rlc":
-        capacitance = number(case.system.parameters["capacitance"])
-        current = _unit(quantities.dimension("current"))
-        return [
-            ("peak_current", "current i = C·v′", current,
-             combination(0, capacitance) if capacitance is not None else None),
-            ("peak_capacitor_voltage", "capacitor voltage v", _unit(response), derivative(0)),
-        ]
-    if model_name == "first-order":
-        return [("peak_rate", "rate of change y′", _unit(response / time), first)]
     definitions = [("peak_derivative", "first derivative x′", _unit(response / time), first)]
     if model.order >= 2:
         definitions.append(("peak_second_derivative", "second derivative x″ (one-sided values)",
@@ -708,26 +680,10 @@ def pulse_area_and_centroid(load: LoadSpec, values: Mapping) -> tuple[sympy.Expr
 
     Polylines (rectangle, triangle, decay, trapezoid, table) segment by segment:
     ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6; the
-    half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy.
+    half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy
+    (each shape's definition in ``closedform.shapes`` says how).
     """
-    if load.shape == "half-sine":
-        d, amplitude = load.values["duration"], load.values["amplitude"]
-        return (2 * amplitude * d / sympy.pi).subs(values), (d / 2).subs(values)
-    if load.shape == "formula":
-        d = load.values["duration"]
-        expression = load.expression.subs(values)
-        area = sympy.integrate(expression, (TAU, 0, d.subs(values)))
-        moment = sympy.integrate(TAU * expression, (TAU, 0, d.subs(values)))
-    else:
-        area, moment = sympy.S.Zero, sympy.S.Zero
-        points = [(sympy.sympify(t).subs(values), sympy.sympify(f).subs(values))
-                  for t, f in pulse_points(load)]
-        for (t0, f0), (t1, f1) in zip(points, points[1:]):
-            area += (f0 + f1) * (t1 - t0) / 2
-            moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
-    if area == 0:
-        return sympy.S.Zero, sympy.nan
-    return area, moment / area
+    return shapes.get(load.shape).area_and_centroid(load, values)
 
 
 def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[object, object]:
@@ -776,7 +732,7 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
     area_unit = _area_unit(case.system.load_dimension)
     result = []
     for load in case.loads:
-        if load.shape not in PULSE_SHAPES:
+        if not shapes.get(load.shape).pulse:
             continue
         start = load.starts()[0]
         duration = load.length()

@@ -46,9 +46,9 @@ from types import MappingProxyType
 import mpmath
 import sympy
 
+from . import shapes
 from .basis import NumericExponentialPolynomial
 from .budget import Budget
-from .case import LoadSpec, SystemSpec
 from .checks.spectrum_check import RATIO_RANGE, PointCheck, check_point
 from .loads import rewrite_loads
 from .response import solve
@@ -60,6 +60,8 @@ from .results import (
     extreme_magnitude,
     numeric_intervals,
 )
+from .shapes import SpectrumEntry
+from .specs import LoadSpec, SystemSpec
 from .spectrum import SHAPES
 from .systems import build_model
 
@@ -91,31 +93,21 @@ class Pulse:
 
     def load(self, duration: sympy.Expr) -> LoadSpec:
         """This pulse, peak 1, starting at 0 and lasting ``duration``, as a case load."""
-        one = sympy.S.One
-        if self.shape == "trapezoid":
-            values = {"rise": self.rise * duration, "hold": self.hold * duration,
-                      "fall": self.fall * duration, "amplitude": one}
-        else:
-            values = {"duration": duration, "amplitude": one}
-            if self.shape == "triangle":
-                values["peak_at"] = self.peak_at
+        values = self._entry().values(self, duration)
         return LoadSpec(1, self.shape, sympy.S.Zero, MappingProxyType(values))
 
     def describe(self) -> str:
-        if self.shape == "triangle":
-            return f"triangle, peak at {_text(self.peak_at)} of the duration"
-        if self.shape == "trapezoid":
-            return (f"trapezoid, rise {_text(self.rise)}, hold {_text(self.hold)}, "
-                    f"fall {_text(self.fall)} of the duration")
-        return {"rectangle": "rectangle", "decay": "decaying triangle (peak at the start)",
-                "half-sine": "half-sine"}[self.shape]
+        return self._entry().describe(self)
 
     def parameters(self) -> dict:
-        if self.shape == "triangle":
-            return {"peak_at": float(self.peak_at)}
-        if self.shape == "trapezoid":
-            return {"rise": float(self.rise), "hold": float(self.hold), "fall": float(self.fall)}
-        return {}
+        return self._entry().parameters(self)
+
+    def _entry(self) -> SpectrumEntry:
+        """The shape's spectrum entry in the shape registry (``closedform.shapes``)."""
+        entry = shapes.get(self.shape).spectrum
+        if entry is None:
+            raise ValueError(f"pulse shape {self.shape!r} has no spectrum entry")
+        return entry
 
 
 @dataclass(frozen=True)

@@ -1,5 +1,9 @@
 """Models: from a named system to its differential equation, poles and static response.
 
+What each model is (parameters, coefficients, printed names) is its definition in the
+model registry, ``closedform.models``; this module turns any definition's equation into
+poles and a damping regime.
+
 Each model is written as a_n x^(n) + … + a_0 x = b · (load), with the load in the unit the
 case file uses for it (force, support acceleration, source voltage, input …). The poles of
 the characteristic polynomial P(s) = a_n s^n + … + a_0 are found exactly where that is
@@ -13,21 +17,10 @@ from dataclasses import dataclass
 
 import sympy
 
-from .case import SystemSpec
+from . import models
 from .errors import CaseError, DerivationError
 from .laplace import Pole, s
-
-MODEL_EQUATIONS = {
-    "spring-mass-damper": r"m\,\ddot{x} + c\,\dot{x} + k\,x = F(t)",
-    "base-excitation": r"m\,\ddot{u} + c\,\dot{u} + k\,u = -m\,a_g(t)",
-    "first-order": r"\tau\,\dot{y} + y = K\,u(t)",
-    "series-rlc": r"L C\,\ddot{v} + R C\,\dot{v} + v = v_s(t)",
-    "ode": r"a_n x^{(n)} + \dots + a_1 \dot{x} + a_0 x = f(t)",
-}
-VARIABLES = {"spring-mass-damper": "x", "base-excitation": "u", "first-order": "y",
-             "series-rlc": "v", "ode": "x"}
-LOAD_NAMES = {"spring-mass-damper": "F", "base-excitation": "a_g", "first-order": "u",
-              "series-rlc": "v_s", "ode": "f"}
+from .specs import SystemSpec
 
 
 @dataclass(frozen=True)
@@ -57,7 +50,7 @@ class LinearModel:
 
     @property
     def equation(self) -> str:
-        return MODEL_EQUATIONS[self.name]
+        return models.get(self.name).equation
 
     def static_gain(self) -> sympy.Expr | None:
         """x per unit load when held steady: b / a_0 (None when there is no restoring term)."""
@@ -97,6 +90,45 @@ class LinearModel:
         return sympy.Max(*scales)
 
 
+@dataclass(frozen=True)
+class ScalarEquation:
+    """One scalar equation aₙx⁽ⁿ⁾ + … + a₀x = b·f(t) with its poles: all the engine
+    (``response.solve``) needs to solve for a load history and initial values.
+
+    A ``LinearModel`` is one (with the case's names and regime); a model of several masses
+    gives one per mode (the modal mass, damping and stiffness, b the participation of the
+    load) and solves each with the same engine.
+    """
+
+    coefficients: tuple[sympy.Expr, ...]
+    input_scale: sympy.Expr
+    poles: tuple[Pole, ...]
+    regime: str
+    exact_poles: bool
+
+    @property
+    def order(self) -> int:
+        return len(self.coefficients) - 1
+
+    @property
+    def lead(self) -> sympy.Expr:
+        return self.coefficients[0]
+
+    def characteristic_polynomial(self) -> sympy.Expr:
+        return sympy.Add(*[a * s ** (self.order - i) for i, a in enumerate(self.coefficients)])
+
+
+def scalar_equation(coefficients: tuple[sympy.Expr, ...], input_scale: sympy.Expr = sympy.S.One,
+                    *, regime: str | None = None,
+                    values: Mapping[sympy.Symbol, sympy.Expr] | None = None) -> ScalarEquation:
+    """The equation with coefficients aₙ…a₀ and input scale b, its poles found as for a
+    case's model (``regime`` settles a second-order regime the symbols cannot)."""
+    coefficients = tuple(sympy.sympify(a) for a in coefficients)
+    system = SystemSpec("ode", {}, regime, None, None)
+    poles, found, exact, _note = _poles(coefficients, system, dict(values or {}), "system")
+    return ScalarEquation(coefficients, sympy.sympify(input_scale), poles, found, exact)
+
+
 def build_model(system: SystemSpec, values: Mapping[sympy.Symbol, sympy.Expr] | None = None,
                 *, key_prefix: str = "system") -> LinearModel:
     """The equation and poles of the case's system.
@@ -104,25 +136,11 @@ def build_model(system: SystemSpec, values: Mapping[sympy.Symbol, sympy.Expr] | 
     ``values`` are the declared symbol values; they settle the damping regime when the
     symbols alone cannot (the sheet then says the formulas hold for that regime only).
     """
-    p = system.parameters
-    one = sympy.S.One
-    if system.model in ("spring-mass-damper", "base-excitation"):
-        coefficients = (p["mass"], p["damping"], p["stiffness"])
-        scale = one if system.model == "spring-mass-damper" else -p["mass"]
-    elif system.model == "first-order":
-        coefficients = (p["time_constant"], one)
-        scale = p["gain"]
-    elif system.model == "series-rlc":
-        product = p["inductance"] * p["capacitance"]
-        coefficients = (product, p["resistance"] * p["capacitance"], one)
-        scale = one
-    else:
-        order = len(p) - 1
-        coefficients = tuple(p[f"a{order - i}"] for i in range(order + 1))
-        scale = one
+    definition = models.get(system.model)
+    coefficients, scale = definition.equation_of(system.parameters)
     coefficients = tuple(sympy.sympify(a) for a in coefficients)
     poles, regime, exact, note = _poles(coefficients, system, dict(values or {}), key_prefix)
-    return LinearModel(system.model, VARIABLES[system.model], LOAD_NAMES[system.model],
+    return LinearModel(system.model, definition.variable, definition.load_name,
                        coefficients, scale, coefficients[0], poles, regime, exact, note)
 
 
@@ -151,7 +169,7 @@ def _second_order_poles(coefficients, system: SystemSpec, values: dict,
             return (Pole(sympy.S.Zero, sympy.S.Zero, 2),), "rigid-body", True, ""
         return (Pole(sympy.S.Zero, sympy.simplify(sympy.sqrt(a0 / a2))),), "undamped", True, ""
     ratio = system.parameters.get("damping_ratio")
-    if ratio is not None and system.model in ("spring-mass-damper", "base-excitation"):
+    if ratio is not None and models.get(system.model).damping_ratio_poles:
         return _poles_from_damping_ratio(ratio, sympy.sqrt(a0 / a2), system, values, key_prefix)
     discriminant = sympy.factor(sympy.simplify(a1**2 - 4 * a2 * a0))
     regime, note = _decide_regime(discriminant, system, values, key_prefix)

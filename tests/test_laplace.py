@@ -10,7 +10,7 @@ from __future__ import annotations
 import pytest
 import sympy
 
-from closedform.basis import COS, SIN, Mode
+from closedform.basis import COS, SIN, BasisTerm
 from closedform.laplace import Pole, RationalTransform, invert, s, transform_of_mode
 
 a, b = sympy.symbols("a b", positive=True)
@@ -19,17 +19,17 @@ ZERO = sympy.S.Zero
 
 # (id, mode, A&S transform)
 FORWARD_PAIRS = [
-    ("29.3.1 unit step", Mode(0, ZERO, ZERO), 1 / s),
-    ("29.3.2 t", Mode(1, ZERO, ZERO), 1 / s**2),
-    ("29.3.3 t^3/3!", Mode(3, ZERO, ZERO), 6 / s**4),
-    ("29.3.8 exp(-at)", Mode(0, -a, ZERO), 1 / (s + a)),
-    ("29.3.9 t exp(-at)", Mode(1, -a, ZERO), 1 / (s + a) ** 2),
-    ("29.3.15 sin(at)", Mode(0, ZERO, a, SIN), a / (s**2 + a**2)),
-    ("29.3.16 cos(at)", Mode(0, ZERO, a, COS), s / (s**2 + a**2)),
-    ("29.3.22 t sin(at)", Mode(1, ZERO, a, SIN), 2 * a * s / (s**2 + a**2) ** 2),
-    ("29.3.24 t cos(at)", Mode(1, ZERO, a, COS), (s**2 - a**2) / (s**2 + a**2) ** 2),
-    ("29.3.26 exp(-at) sin(bt)", Mode(0, -a, b, SIN), b / ((s + a) ** 2 + b**2)),
-    ("29.3.27 exp(-at) cos(bt)", Mode(0, -a, b, COS), (s + a) / ((s + a) ** 2 + b**2)),
+    ("29.3.1 unit step", BasisTerm(0, ZERO, ZERO), 1 / s),
+    ("29.3.2 t", BasisTerm(1, ZERO, ZERO), 1 / s**2),
+    ("29.3.3 t^3/3!", BasisTerm(3, ZERO, ZERO), 6 / s**4),
+    ("29.3.8 exp(-at)", BasisTerm(0, -a, ZERO), 1 / (s + a)),
+    ("29.3.9 t exp(-at)", BasisTerm(1, -a, ZERO), 1 / (s + a) ** 2),
+    ("29.3.15 sin(at)", BasisTerm(0, ZERO, a, SIN), a / (s**2 + a**2)),
+    ("29.3.16 cos(at)", BasisTerm(0, ZERO, a, COS), s / (s**2 + a**2)),
+    ("29.3.22 t sin(at)", BasisTerm(1, ZERO, a, SIN), 2 * a * s / (s**2 + a**2) ** 2),
+    ("29.3.24 t cos(at)", BasisTerm(1, ZERO, a, COS), (s**2 - a**2) / (s**2 + a**2) ** 2),
+    ("29.3.26 exp(-at) sin(bt)", BasisTerm(0, -a, b, SIN), b / ((s + a) ** 2 + b**2)),
+    ("29.3.27 exp(-at) cos(bt)", BasisTerm(0, -a, b, COS), (s + a) / ((s + a) ** 2 + b**2)),
 ]
 
 
@@ -73,7 +73,7 @@ def test_resonant_sine_window_gives_t_cos_terms_not_a_division_by_zero():
     """sin(ωt) driving 1/(s²+ω²): the merged double pole must give the t·cos term
     (A&S 29.3.21 with a = ω)."""
     omega = sympy.sqrt(7)
-    transform, _ = transform_of_mode(Mode(0, ZERO, omega, SIN))
+    transform, _ = transform_of_mode(BasisTerm(0, ZERO, omega, SIN))
     merged = transform.divided_by(sympy.S.One, (Pole(ZERO, omega),))
     assert merged.poles == (Pole(ZERO, omega, 2),)
     x = invert(merged).time_function.expression(u)

@@ -41,8 +41,9 @@ from .layout import (
                      is_long_history,
                      slug,
 )
+from .loads import LOAD_VALUE_NAMES
 from .pdf import compile_pdf, latex_command, require_latex
-from .problem import ASSUMPTIONS, CAUTION, COMMON_ASSUMPTIONS
+from .problem import CAUTION, COMMON_ASSUMPTIONS
 from .recorder import EquationRecorder
 from .sheet import (
                      LATEX_PACKAGES,
@@ -91,8 +92,8 @@ from .writers import (
 )
 
 __all__ = [
-    "ASSUMPTIONS", "CAUTION", "COMMON_ASSUMPTIONS", "CSV_POINTS", "DISPLAY_DIGITS",
-    "EXCERPT_HEAD", "EXCERPT_LIMIT", "EXCERPT_TAIL", "FLAVOURS", "FORMATS", "LATEX",
+    "CAUTION", "COMMON_ASSUMPTIONS", "CSV_POINTS", "DISPLAY_DIGITS",
+    "EXCERPT_HEAD", "EXCERPT_LIMIT", "EXCERPT_TAIL", "FLAVOURS", "FORMATS", "LATEX", "LOAD_VALUE_NAMES",
     "LATEX_PACKAGES", "LINE_WIDTH", "MARKDOWN", "PAPER_OPTIONS", "REPORT_DIGITS",
     "RESPONSE_PREFER", "SHORT_DIGITS", "WRITERS", "Display", "DisplayUnit", "Document",
     "EquationRecorder", "Flavour", "Math", "NumberStyle", "Sheet", "SheetDocument", "Units",

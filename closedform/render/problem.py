@@ -6,7 +6,7 @@ from __future__ import annotations
 import re
 from typing import TYPE_CHECKING, Any
 
-from .. import quantities
+from .. import models, quantities
 from .escaping import Math
 from .typesetting import as_factor, inline, typeset, unit_latex
 from .units import RESPONSE_PREFER
@@ -17,19 +17,6 @@ if TYPE_CHECKING:
 CAUTION = ("This sheet supports, and does not replace, review by a qualified engineer "
            "under the applicable codes and local practice.")
 
-ASSUMPTIONS = {
-    "spring-mass-damper": ["linear elastic spring, lumped mass, small displacements",
-                           "viscous (velocity-proportional) damping",
-                           "load applied at the mass along the single degree of freedom"],
-    "base-excitation": ["linear elastic spring, lumped mass, small displacements",
-                        "viscous damping", "rigid support moving with the given acceleration",
-                        "u is the displacement relative to the support"],
-    "first-order": ["linear first-order lag with constant time constant and gain"],
-    "series-rlc": ["linear, lumped, time-invariant R, L and C in series",
-                   "ideal voltage source; v is the capacitor voltage"],
-    "ode": ["linear ordinary differential equation with constant coefficients",
-            "coefficients, load and response in the consistent units the case gives"],
-}
 COMMON_ASSUMPTIONS = ["parameters constant in time; loads exactly as given in the case file",
                       "the results hold on the analysis window stated with them"]
 
@@ -107,6 +94,6 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         "symbols": symbols,
         "symbolic": case.is_symbolic,
         "initial": initial,
-        "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
+        "assumptions": list(models.get(case.system.model).assumptions) + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
     }

@@ -57,7 +57,7 @@ def render_latex(derivation, standalone: bool = True, *, stem: str | None = None
 
 def printed_equation_check(derivation) -> Check:
     """Every displayed equation of the Markdown sheet read back from the printed text and
-    compared with the derivation at many points (see :mod:`closedform.reread`)."""
+    compared with the derivation at many points (see :mod:`closedform.checks.reread`)."""
     from ..checks.base import Check
 
     name = "printed equations re-read"

@@ -1,0 +1,198 @@
+"""The load-shape registry: one module per shape, each holding one ``ShapeDefinition``.
+
+A definition is everything the engine side knows about a shape in one place: the keys of
+its [[load]] table and how they are read and validated (with their dimensions), how long
+one occurrence lasts and how many breakpoints it brings, the rewrite rule (text and
+published source) and the rewrite of one occurrence into singularity terms, the area and
+centroid of a pulse (for the impulse idealization), the fields a sheet prints, and the
+entry of the ``spectrum`` command where the shape has one. Case reading (``case``), the
+load rewrite (``loads``), ``results`` and ``shock`` look a shape up here by its name.
+
+The independent checks do not: they evaluate each shape from its definition with their
+own load evaluator, so a shape the checks do not know is reported by them, never passed.
+
+A new shape is one new module here that calls ``register`` (see DEVELOPERS.md). A
+definition may also be registered from outside the package (a test does so).
+"""
+
+from __future__ import annotations
+
+import difflib
+import pkgutil
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass
+from importlib import import_module
+from typing import Any
+
+import sympy
+
+from .. import quantities
+from ..specs import LoadSpec, ValueReader
+
+Points = tuple[tuple[sympy.Expr, sympy.Expr], ...]
+
+
+class LoadReading:
+    """One [[load]] table being read: the reader, the table, its key, and the values, points
+    and expression the shape's ``read`` fills in (exact SI)."""
+
+    def __init__(self, reader: ValueReader, data: Mapping[str, Any], key: str, shape: str,
+                 load_dimension: Any) -> None:
+        self.reader = reader
+        self.data = data
+        self.key = key
+        self.shape = shape
+        self.load_dimension = load_dimension
+        self.time = quantities.dimension("time")
+        self.values: dict[str, sympy.Expr] = {}
+        self.points: Points = ()
+        self.expression: sympy.Expr | None = None
+
+    def error(self, name: str, message: str) -> Exception:
+        return self.reader.error(f"{self.key}.{name}", message)
+
+    def quantity(self, name: str, dimension: Any) -> sympy.Expr:
+        return self.reader.quantity(self.data[name], dimension, f"{self.key}.{name}")
+
+    def duration(self, name: str = "duration", required: bool = True) -> None:
+        """A positive time (missing: an error if ``required``)."""
+        if name not in self.data:
+            if required:
+                raise self.error(name, f"missing (a {self.shape} load needs {name})")
+            return
+        self.values[name] = self.reader.positive(self.quantity(name, self.time),
+                                                 f"{self.key}.{name}", "a positive time",
+                                                 self.time)
+
+    def amplitude_or_impulse(self, area_factor: sympy.Expr | None) -> None:
+        """The amplitude, or (where ``area_factor`` = area / amplitude is given) the impulse,
+        from which the amplitude is worked out."""
+        data = self.data
+        has_amplitude, has_impulse = "amplitude" in data, "impulse" in data
+        if has_amplitude and has_impulse:
+            raise self.error("impulse", "give amplitude or impulse, not both")
+        if has_amplitude:
+            self.values["amplitude"] = self.quantity("amplitude", self.load_dimension)
+        elif has_impulse and area_factor is not None:
+            impulse = self.quantity("impulse", self.load_dimension * self.time)
+            self.values["impulse"] = impulse
+            self.values["amplitude"] = sympy.simplify(impulse / area_factor)
+        else:
+            what = "amplitude or impulse" if area_factor is not None else "amplitude"
+            raise self.error("amplitude", f"missing (a {self.shape} load needs {what})")
+
+
+@dataclass(frozen=True)
+class SpectrumEntry:
+    """A shape's place in the ``spectrum`` command: the load of a pulse of peak 1 lasting
+    ``duration`` (from the pulse's fractions), its description and its JSON parameters."""
+
+    values: Callable[[Any, sympy.Expr], dict[str, sympy.Expr]]
+    describe: Callable[[Any], str]
+    parameters: Callable[[Any], dict] = lambda pulse: {}
+
+
+@dataclass(frozen=True)
+class ShapeDefinition:
+    """One load shape (see the module docstring).
+
+    ``read`` fills a ``LoadReading``; ``length(load)`` is how long one occurrence acts (0
+    for steps, impulses and open ramps); ``corners(load)`` how many breakpoints it brings
+    (start, corners, end); ``rule`` the rewrite rule (text, source) and ``rewrite(load,
+    start)`` the singularity terms of one occurrence starting at ``start``. ``fields`` are
+    the values a sheet prints, with the kind of each (load, impulse, rate, time or
+    dimensionless). A pulse (``pulse``) has ``area_and_centroid(load, values)``; a
+    polyline also ``points(load)``, its corner points. ``endless(values)``: the load never
+    ends (and so cannot repeat). ``example``: a [[load]] table of this shape for a force
+    load, used by the tests.
+    """
+
+    name: str
+    keys: tuple[str, ...]
+    read: Callable[[LoadReading], None]
+    length: Callable[[LoadSpec], sympy.Expr]
+    corners: Callable[[LoadSpec], int]
+    rule: tuple[str, str]
+    rewrite: Callable[[LoadSpec, sympy.Expr], list]
+    fields: Mapping[str, str]
+    example: Mapping[str, Any]
+    pulse: bool = False
+    area_and_centroid: Callable[[LoadSpec, Mapping], tuple[sympy.Expr, sympy.Expr]] | None = None
+    points: Callable[[LoadSpec], Points] | None = None
+    endless: Callable[[Mapping[str, sympy.Expr]], bool] = lambda values: False
+    spectrum: SpectrumEntry | None = None
+
+
+_REGISTRY: dict[str, ShapeDefinition] = {}
+BUILT_IN = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half_sine",
+            "trapezoid", "table", "formula")
+#: The keys every [[load]] table may have, whatever its shape.
+COMMON_KEYS = ("shape", "at", "repeat", "label")
+
+
+def register(definition: ShapeDefinition) -> ShapeDefinition:
+    """Add a shape to the registry (a name may be registered once)."""
+    if definition.name in _REGISTRY:
+        raise ValueError(f"shape {definition.name!r} is registered already")
+    if definition.pulse and definition.area_and_centroid is None:
+        raise ValueError(f"pulse shape {definition.name!r} needs its area and centroid")
+    _REGISTRY[definition.name] = definition
+    return definition
+
+
+def unregister(name: str) -> None:
+    """Remove a shape that was registered from outside the package (tests)."""
+    if name in _PACKAGED:
+        raise ValueError(f"shape {name!r} is built in")
+    _REGISTRY.pop(name, None)
+
+
+def names() -> tuple[str, ...]:
+    """Every registered shape, in registration order (built-in shapes first)."""
+    return tuple(_REGISTRY)
+
+
+def get(name: str) -> ShapeDefinition:
+    return _REGISTRY[name]
+
+
+def known(name: Any) -> bool:
+    return isinstance(name, str) and name in _REGISTRY
+
+
+def close_match(name: Any) -> str | None:
+    close = difflib.get_close_matches(str(name), names(), n=1)
+    return close[0] if close else None
+
+
+def centroid(area: sympy.Expr, moment: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
+    """(area, moment / area); a pulse of zero area has no centroid (nan)."""
+    if area == 0:
+        return sympy.S.Zero, sympy.nan
+    return area, moment / area
+
+
+def polyline_area_and_centroid(points: Points, values: Mapping) -> tuple[sympy.Expr, sympy.Expr]:
+    """∫ f dτ and the centroid ∫ τ f dτ / ∫ f dτ of a polyline, exact, segment by segment:
+    ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6."""
+    area, moment = sympy.S.Zero, sympy.S.Zero
+    points = tuple((sympy.sympify(t).subs(values), sympy.sympify(f).subs(values))
+                   for t, f in points)
+    for (t0, f0), (t1, f1) in zip(points, points[1:]):
+        area += (f0 + f1) * (t1 - t0) / 2
+        moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
+    return centroid(area, moment)
+
+
+def _import_package_modules() -> None:
+    """Every module of this package, those of BUILT_IN first in that order (the order the
+    messages list the shapes in), then any others by name: a new shape is a new file."""
+    others = sorted(info.name for info in pkgutil.iter_modules(__path__)
+                    if info.name not in BUILT_IN)
+    for module in (*BUILT_IN, *others):
+        import_module(f"{__name__}.{module}")
+    _PACKAGED.update(_REGISTRY)
+
+
+_PACKAGED: set[str] = set()
+_import_package_modules()
