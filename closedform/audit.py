@@ -38,7 +38,7 @@ import json
 import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import mpmath
 import sympy
@@ -57,9 +57,13 @@ from .claims import (
     read_value_claims,
 )
 from .errors import CaseError
+from .options import add_budgets, add_formats, add_output
 from .response import Piece, t
 from .results import real_number
 from .verify import Check
+
+if TYPE_CHECKING:
+    from .batch import Finished
 
 SAMPLES_PER_INTERVAL = 200
 AUDIT_FORMATS = ("md", "tex", "pdf", "json")
@@ -440,58 +444,78 @@ def render_audit(result: Audit, formats, stem: str) -> dict[str, str | bytes]:
 # ----------------------------------------------------------------------------- command line
 
 
+@dataclass(frozen=True)
+class AuditSheet:
+    """The finisher of ``check`` (see :mod:`closedform.batch`): the audit of a derived case,
+    its sheet in ``formats`` and, as the product, what ``check`` prints on standard output
+    (the JSON result with its claims when ``as_json``, else the verdicts)."""
+
+    formats: tuple[str, ...]
+    as_json: bool
+
+    def __call__(self, derivation, path: str) -> Finished:
+        from .batch import Finished
+
+        try:
+            result = audit(derivation)
+        except CaseError as error:
+            raise locate_claim(error, path) from None
+        case = derivation.case
+        contents = render_audit(result, self.formats, Path(case.source).stem or "case") \
+            if self.formats else {}
+        if self.as_json:
+            printed = json.dumps(result.to_dict(), indent=2) + "\n"
+        else:
+            rows = [] if derivation.passed else [
+                f"{case.source}: our own derivation FAILED its checks; the audit below "
+                "cannot be relied on"]
+            rows.extend(row for verdict in result.verdicts for row in verdict.lines())
+            rows.append(f"{result.confirmed} confirmed, {result.refuted} refuted")
+            printed = "".join(row + "\n" for row in rows)
+        return Finished(f"{result.confirmed} confirmed, {result.refuted} refuted",
+                        result.exit_code, contents, product=printed)
+
+
 def register(commands) -> None:
     check = commands.add_parser("check", help="audit the [claims] of a case against a checked "
                                               "derivation")
     check.add_argument("case", type=Path, help="the case file with a [claims] table")
     check.add_argument("--json", dest="json_target", metavar="-",
                        help="print the JSON result with its claims on standard output ('-')")
-    check.add_argument("-o", "--output", type=Path, metavar="DIR",
-                       help="folder for the audit sheet (STEM-audit.md, .tex, .pdf, .json)")
-    check.add_argument("--format", default="md,json",
-                       help=f"comma-separated formats of the audit sheet "
-                            f"({', '.join(AUDIT_FORMATS)}); default md,json")
-    check.add_argument("--time-budget", type=float, default=60.0, metavar="SECONDS")
+    add_output(check, metavar="DIR",
+               help="folder for the audit sheet (STEM-audit.md, .tex, .pdf, .json)")
+    add_formats(check, default="md,json",
+                help=f"comma-separated formats of the audit sheet ({', '.join(AUDIT_FORMATS)}); "
+                     "default md,json")
+    add_budgets(check)
     check.set_defaults(run=run_check)
 
 
 def run_check(arguments: argparse.Namespace) -> int:
-    from .case import load_case, locate
-    from .cli import parse_formats, usable_output_folder, write_atomically
-    from .derivation import derive
+    """Audit one case through the batch worker, in a worker process of its own under the
+    memory budget; an unusable case or claim is one located line (exit 2)."""
+    from .batch import CaseTask, run_cases
+    from .cli import usable_output_folder, write_atomically
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
-    formats = parse_formats(arguments.format, AUDIT_FORMATS, "audit format") \
-        if arguments.output is not None else []
+    formats = tuple(arguments.formats)
     if arguments.output is not None:
         usable_output_folder(arguments.output)
     if "pdf" in formats:
         from .render import require_latex
         require_latex()       # before any work: name the missing tool
-    case = load_case(arguments.case)
-    try:
-        derivation = derive(case, time_budget=arguments.time_budget)
-    except CaseError as error:        # raised past loading: name the file and the key's line
-        raise locate(error, arguments.case) from None
-    try:
-        result = audit(derivation)
-    except CaseError as error:
-        raise locate_claim(error, arguments.case) from None
-    contents = render_audit(result, formats, Path(case.source).stem or "case") if formats else {}
-    if arguments.json_target == "-":
-        sys.stdout.write(json.dumps(result.to_dict(), indent=2) + "\n")
-    else:
-        if not derivation.passed:
-            print(f"{case.source}: our own derivation FAILED its checks; the audit below "
-                  "cannot be relied on")
-        for verdict in result.verdicts:
-            for row in verdict.lines():
-                print(row)
-        print(f"{result.confirmed} confirmed, {result.refuted} refuted")
-    if contents:
-        written = write_atomically(arguments.output, contents)
+    task = CaseTask(str(arguments.case), arguments.time_budget,
+                    AuditSheet(formats, arguments.json_target == "-"))
+    (outcome,) = run_cases([task], jobs=1, progress=False,
+                           memory_budget=arguments.memory_budget)
+    if outcome.stage != "done":
+        print(outcome.message, file=sys.stderr)
+        return outcome.exit_code
+    sys.stdout.write(outcome.product)
+    if outcome.contents:
+        written = write_atomically(arguments.output, outcome.contents)
         if arguments.json_target is None:
             print(f"wrote {', '.join(p.name for p in written if '-audit.' in p.name)} in "
                   f"{arguments.output}")
-    return result.exit_code
+    return outcome.exit_code

@@ -23,7 +23,9 @@ import signal
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import TypeVar, cast
 
+R = TypeVar("R")
 GIB = 1024 ** 3
 MIB = 1024 ** 2
 #: The default memory budget of one case (the machine this was made on has 24 GiB).
@@ -134,9 +136,9 @@ def _child(connection, function, arguments, memory_budget) -> None:
     connection.close()
 
 
-def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
+def run_tasks(function: Callable[..., R], arguments: Sequence[tuple], *, jobs: int,
               memory_budget: int | None = DEFAULT_MEMORY, hard_seconds: float | None = None,
-              on_done: Callable[[int, object], None] | None = None) -> list:
+              on_done: Callable[[int, R | Lost], None] | None = None) -> list[R | Lost]:
     """``function(*a)`` for each tuple in ``arguments``, each in a forked worker, at most
     ``jobs`` at once; returns the results in order, a :class:`Lost` where a worker ended
     without one. ``on_done(index, result)`` is called as each task finishes. Every worker is
@@ -145,7 +147,7 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
     from multiprocessing.connection import wait
 
     context = multiprocessing.get_context("fork")
-    results: list = [None] * len(arguments)
+    results: list[R | Lost | None] = [None] * len(arguments)
     pending = list(range(len(arguments)))
     running: dict[int, tuple] = {}      # index → (process, connection, started)
     try:
@@ -199,7 +201,7 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
         for process, receiver, _started in running.values():
             _end(process)
             receiver.close()
-    return results
+    return cast("list[R | Lost]", results)      # every index has its result or Lost
 
 
 def _end(process) -> None:
