@@ -186,7 +186,7 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
                     number, stem)
 
 
-def summary_cells(derivation, target: str) -> SummaryCells:
+def summary_cells(derivation: Derivation, target: str) -> SummaryCells:
     """Peak (in the case's report unit, with its time) and DLF, as inline math."""
     units = render.Units(derivation.case)
     results = derivation.numbers
@@ -199,7 +199,8 @@ def summary_cells(derivation, target: str) -> SummaryCells:
         time_si, time_shown = units.show(float(results.peak.time), quantities.dimension("time"),
                                          ("time",))
         peak = f"{value_shown or value_si} {escape('at')} {time_shown or time_si}"
-    dlf = render.inline(render.number(results.dlf, 4)) if results.dlf is not None else None
+    shown = render.number(results.dlf, 4)
+    dlf = None if shown is None else render.inline(shown)
     return SummaryCells(peak, dlf)
 
 

@@ -56,14 +56,17 @@ from .claims import (
     read_tolerances,
     read_value_claims,
 )
+from .derivation import Window
 from .errors import CaseError
 from .options import add_budgets, add_formats, add_output
 from .response import Piece, t
-from .results import real_number
+from .results import Results, real_number
 from .verify import Check
 
 if TYPE_CHECKING:
     from .batch import Finished
+    from .case import Case
+    from .derivation import Derivation, DerivedResponse
 
 SAMPLES_PER_INTERVAL = 200
 AUDIT_FORMATS = ("md", "tex", "pdf", "json")
@@ -107,7 +110,7 @@ class Verdict:
         return rows
 
     def to_dict(self) -> dict[str, Any]:
-        result = {"key": self.key, "claimed": self.claimed, "computed": self.computed,
+        result: dict[str, Any] = {"key": self.key, "claimed": self.claimed, "computed": self.computed,
                   "relative_difference": self.difference, "tolerance": self.tolerance,
                   "confirmed": self.confirmed, "verdict": self.word, "detail": self.detail}
         if self.interval:
@@ -122,7 +125,7 @@ class Verdict:
 class Audit:
     """The verdicts on every claim of a case, with the derivation they were judged by."""
 
-    derivation: Any
+    derivation: Derivation
     verdicts: tuple[Verdict, ...]
 
     @property
@@ -146,20 +149,15 @@ class Audit:
 
 
 @dataclass(frozen=True)
-class _Window:
-    until: sympy.Expr
-    note: str
-
-
-@dataclass(frozen=True)
 class ClaimedResponse:
-    """Our response up to a claimed formula's start, then the formula up to its end: shaped
-    like a Derivation, so that the checks our derivation gets can be run on it."""
+    """Our response up to a claimed formula's start, then the formula up to its end: a
+    :class:`~closedform.derivation.DerivedResponse`, so that the checks our derivation gets
+    can be run on it."""
 
-    case: Any
-    pieces: tuple
-    window: _Window
-    numbers: Any
+    case: Case
+    pieces: tuple[Piece | _FormulaPiece, ...]
+    window: Window
+    numbers: Results
 
 
 class _NotExponentialPolynomial:
@@ -188,7 +186,7 @@ class _FormulaPiece:
         return str(self.formula)
 
 
-def audit(derivation) -> Audit:
+def audit(derivation: Derivation) -> Audit:
     """Verdicts for every claim of the case (raises CaseError for an unusable claim)."""
     from .case import quantity_reader
 
@@ -265,7 +263,7 @@ def _value_verdict(case, item: ClaimedValue, ours, values, tolerance) -> Verdict
                    float(tolerance))
 
 
-def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
+def claimed_response(derivation: Derivation, piece: ClaimedPiece) -> ClaimedResponse:
     """Our pieces before the claim's start (the last one cut there), then the claimed piece,
     in a window that ends where the claim ends."""
     values = derivation.case.symbol_values()
@@ -282,15 +280,16 @@ def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
             ours = replace(ours, end=start)
         prefix.append(ours)
     local = piece.local
+    claimed: Piece | _FormulaPiece
     if local is not None:
         claimed = Piece(start, end, local)
     else:
         claimed = _FormulaPiece(start, end, piece.formula.subs(values))
     return ClaimedResponse(derivation.case, tuple(prefix) + (claimed,),
-                           _Window(end, "the end of the claimed formula"), derivation.numbers)
+                           Window(end, "the end of the claimed formula"), derivation.numbers)
 
 
-def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
+def claim_checks(response: DerivedResponse) -> tuple[Check, ...]:
     """The checks of our own derivation (one list: verify, then the energy balance)."""
     from .energy import energy_checks
     from .verify import verify
@@ -298,7 +297,7 @@ def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
     return tuple(verify(response)) + tuple(energy_checks(response))
 
 
-def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:
+def _response_verdict(derivation: Derivation, piece: ClaimedPiece, tolerance) -> Verdict:
     values = derivation.case.symbol_values()
     until = derivation.window.until
     checks = claim_checks(claimed_response(derivation, piece))
@@ -316,6 +315,7 @@ def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:
             deviation = abs(mpmath.mpf(claimed(time)) - _our_value(ours, time))
             if where is None or deviation > worst:
                 worst, where = deviation, time
+    assert where is not None        # set at the first of the samples
     relative = float(worst / scale)
     within = relative <= float(tolerance)
     interval = f"[{float(start):.6g}, {float(end):.6g}] s"
@@ -357,7 +357,8 @@ def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
     case = derivation.case
 
     def figure(value: float | None) -> Any:
-        return None if value is None else render.inline(render.number(value, 3))
+        shown = render.number(value, 3)
+        return None if shown is None else render.inline(shown)
 
     claims = []
     for number, verdict in enumerate(result.verdicts, start=1):
@@ -453,7 +454,7 @@ class AuditSheet:
     formats: tuple[str, ...]
     as_json: bool
 
-    def __call__(self, derivation, path: str) -> Finished:
+    def __call__(self, derivation: Derivation, path: str) -> Finished:
         from .batch import Finished
 
         try:
