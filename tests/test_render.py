@@ -13,7 +13,6 @@ and review the diff like any other change to the sheets.
 from __future__ import annotations
 
 import dataclasses
-import functools
 import math
 import shutil
 import subprocess
@@ -29,6 +28,8 @@ from closedform import render
 from closedform.errors import ClosedformError
 from closedform.verify import Check
 
+from .conftest import worked_derivation
+
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
 GOLDEN = Path(__file__).resolve().parent / "golden"
@@ -38,9 +39,7 @@ HAS_LATEX = render.latex_command() is not None
 needs_latex = pytest.mark.skipif(not HAS_LATEX, reason="latexmk/pdflatex not on PATH")
 
 
-@functools.cache
-def worked(stem: str) -> closedform.Derivation:
-    return closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+worked = worked_derivation      # derived once per session (tests/conftest.py)
 
 
 def sheets(stem: str) -> dict[str, str]:

@@ -19,6 +19,8 @@ import pytest
 import closedform
 from closedform import render, reread
 
+from .conftest import worked_derivation
+
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
 CASES = sorted(path.stem for path in WORKED.glob("*.toml"))
@@ -119,7 +121,7 @@ def test_load_lines_of_ramps_triangles_and_trapezoids_read_back(load):
 
 @pytest.mark.parametrize("stem", CASES)
 def test_every_worked_sheet_reads_back_equal_to_its_derivation(stem):
-    derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    derivation = worked_derivation(stem)
     check = check_of(derivation)
     assert check.passed, check.detail
     numeric = int(check.detail.split()[0])
@@ -354,7 +356,7 @@ def test_static_gain_is_not_written_as_one_over_one():
 
 
 def test_impulse_idealization_gets_a_row_per_figure():
-    derivation = closedform.derive(closedform.load_case(WORKED / "panel-pressure-pulse.toml"))
+    derivation = worked_derivation("panel-pressure-pulse")
     markdown = render.render_markdown(derivation)
     rows = [line for line in markdown.splitlines() if line.startswith("| impulse idealization")]
     assert len(rows) >= 5
@@ -464,7 +466,7 @@ def test_no_overfull_box_wider_than_10pt(stem, tmp_path):
         derivation = derive_text(NON_ROUND.replace("NUMBERS", f'numbers = "{mode}"'))
         stem = f"nonround-{mode}"
     else:
-        derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+        derivation = worked_derivation(stem)
     widths = overfull_boxes(derivation, stem, tmp_path)
     assert all(w <= 10 for w in widths), widths
 
@@ -535,7 +537,7 @@ def test_no_warning_for_an_ordinary_case():
 
 @pytest.mark.parametrize("stem", CASES)
 def test_product_sheets_never_cite_from_memory(stem):
-    derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    derivation = worked_derivation(stem)
     for text in (render.render_markdown(derivation), render.render_latex(derivation)):
         assert "memory" not in text
 
