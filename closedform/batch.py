@@ -80,7 +80,15 @@ class CaseOutcome:
     product: Any = None        # the finisher's own product
 
 
-def case_sources(arguments: Sequence[Path]) -> list[tuple[Path, Path]]:
+@dataclass(frozen=True)
+class CaseSource:
+    """A case file to derive and the subfolder (of the output folder) its files go to."""
+
+    path: Path
+    folder: Path
+
+
+def case_sources(arguments: Sequence[Path]) -> list[CaseSource]:
     """Each case file once, with the subfolder its outputs go to: a file given by name
     writes into the output folder itself; a case found under a folder argument writes into
     the same subfolder path below it (cases/a/case.toml -> OUT/a/case.md)."""
@@ -92,14 +100,15 @@ def case_sources(arguments: Sequence[Path]) -> list[tuple[Path, Path]]:
                 sources.setdefault(path, path.parent.relative_to(argument))
         else:
             sources.setdefault(argument, Path())
-    return list(sources.items())
+    return [CaseSource(path, folder) for path, folder in sources.items()]
 
 
-def refuse_clashing_outputs(sources: Sequence[tuple[Path, Path]]) -> None:
+def refuse_clashing_outputs(sources: Sequence[CaseSource]) -> None:
     """Two cases whose sheets would land on the same files (same name, same subfolder):
     refuse before deriving, rather than let the later one overwrite the earlier."""
     seen: dict[Path, Path] = {}
-    for path, folder in sources:
+    for source in sources:
+        path, folder = source.path, source.folder
         target = folder / safe_stem(path)
         if target in seen:
             raise CaseError(f"'{seen[target]}' and '{path}' would write the same sheet files "

@@ -128,7 +128,7 @@ def run_derive(arguments: argparse.Namespace) -> int:
 
     finish = SheetFiles(tuple(arguments.formats))
     sources = case_sources(arguments.cases)
-    paths = [path for path, _folder in sources]
+    paths = [source.path for source in sources]
     require_cases(paths)
     if arguments.output is not None:
         usable_output_folder(arguments.output)
@@ -142,7 +142,7 @@ def run_derive(arguments: argparse.Namespace) -> int:
         """Write a finished case's files at once (as one set), then report the cases
         finished so far in the order they were given."""
         nonlocal shown
-        folder = sources[index][1]
+        folder = sources[index].folder
         if arguments.output is not None and outcome.contents:
             try:
                 write_atomically(arguments.output / folder, outcome.contents)

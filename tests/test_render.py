@@ -15,10 +15,8 @@ from __future__ import annotations
 import dataclasses
 import math
 import shutil
-import subprocess
 import sys
 import textwrap
-from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import pytest
@@ -320,32 +318,9 @@ def test_csv_refuses_a_case_with_symbols_without_values():
 # ----------------------------------------------------------------------------- LaTeX builds
 
 
-def _compiles(stem: str, folder: Path) -> str:
-    """One pdfLaTeX pass over the standalone sheet in its own folder: "" or the error."""
-    derivation = worked(stem)
-    work = folder / stem
-    work.mkdir()
-    (work / f"{stem}.tex").write_text(render.render_latex(derivation, standalone=True, stem=stem),
-                                      encoding="utf-8")
-    for name, content in render.figure_files(derivation, stem, "pdf").items():
-        (work / name).write_bytes(content)
-    finished = subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error",
-                               "-draftmode", f"{stem}.tex"], cwd=work, capture_output=True,
-                              stdin=subprocess.DEVNULL, text=True, errors="replace", check=False)
-    if finished.returncode == 0:
-        return ""
-    return next((line for line in finished.stdout.splitlines() if line.startswith("!")),
-                finished.stdout[-500:])
-
-
-@pytest.mark.slow
-@pytest.mark.skipif(shutil.which("pdflatex") is None, reason="pdflatex not on PATH")
-def test_every_worked_case_compiles_on_its_own(tmp_path):
-    for stem in CASES:      # derive here; the pdfLaTeX runs go two at a time
-        worked(stem)
-    with ThreadPoolExecutor(max_workers=2) as pool:
-        errors = dict(zip(CASES, pool.map(lambda stem: _compiles(stem, tmp_path), CASES)))
-    assert {stem: error for stem, error in errors.items() if error} == {}
+# Every worked case compiling on its own is tests/test_sheets.py's
+# test_no_overfull_box_wider_than_10pt (one pdfLaTeX run per case, halt on error, checked for
+# "Output written" and for overfull boxes), so it is not compiled a second time here.
 
 
 @pytest.mark.slow

@@ -461,6 +461,9 @@ def overfull_boxes(derivation, stem: str, folder: Path) -> list[float]:
 @pytest.mark.skipif(not HAS_PDFLATEX, reason="pdflatex not on PATH")
 @pytest.mark.parametrize("stem", CASES + ["test:auto", "test:exact", "test:decimal"])
 def test_no_overfull_box_wider_than_10pt(stem, tmp_path):
+    """Each worked case's standalone sheet compiles (pdfLaTeX, halt on error, "Output
+    written") with no overfull box wider than 10 pt; also the compile check of every worked
+    case."""
     if stem.startswith("test:"):
         mode = stem.split(":")[1]
         derivation = derive_text(NON_ROUND.replace("NUMBERS", f'numbers = "{mode}"'))
