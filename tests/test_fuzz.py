@@ -447,7 +447,9 @@ def test_overdamped_impulse_peak_with_a_vanishing_slow_root():
     ratio the closed form itself loses every digit, and the independent checks say so
     (status failed, exit 1) instead of presenting it as checked."""
     case = closedform.load_case_text(OVERDAMPED_VANISHING_ROOT, "vanishing-root.toml")
-    derivation = closedform.derive(case, time_budget=60)
+    # about 15 s alone; the budget only guards against a hang, and 60 s ran out on a machine
+    # shared by several test runs (the extremes stage took 62 s there, on the old code too)
+    derivation = closedform.derive(case, time_budget=300)
     assert derivation.numbers.idealizations
     assert derivation.status == "failed"
     assert any(c.name == "independent integration" and not c.passed for c in derivation.checks)
