@@ -19,12 +19,15 @@ from collections.abc import Callable, Iterable
 from multiprocessing.reduction import ForkingPickler
 from pathlib import Path
 from types import MappingProxyType
-from typing import Any
+from typing import TYPE_CHECKING, Any
+
+if TYPE_CHECKING:
+    from .derivation import Derivation
 
 LOAD = "load"
 
 
-def response_transforms(derivation) -> dict[str, Callable | None]:
+def response_transforms(derivation: Derivation) -> dict[str, Callable | None]:
     """The responses ``evaluate`` can give, by name, each mapping the numeric response on
     one interval to that quantity (None where a symbol without a value is needed).
 
@@ -46,7 +49,7 @@ def _identity(function):
     return function
 
 
-def evaluate(derivation, times, derivative: int = 0, response: str | None = None,
+def evaluate(derivation: Derivation, times, derivative: int = 0, response: str | None = None,
              precise: bool | None = None):
     """The response (or one of its derivatives, or another response) at ``times``, SI.
 
@@ -101,20 +104,20 @@ def evaluate(derivation, times, derivative: int = 0, response: str | None = None
     bounds = numpy.array([float(i.start) for i in intervals])
     which = numpy.clip(numpy.searchsorted(bounds, flat, side="right") - 1, 0, len(intervals) - 1)
     if precise is None:
-        precise = any(getattr(piece, "numeric", None) is not None for piece in pieces)
+        precise = any(piece.numeric is not None for piece in pieces)
     result = numpy.zeros(flat.shape, dtype=float)
     for index in numpy.unique(which):
         interval = intervals[index]
         chosen = which == index
         function = transform(interval.function)
         if precise:
-            evaluator = PreciseEvaluator(function, orders=order + 1)
+            at_30_digits = PreciseEvaluator(function, orders=order + 1)
             with mpmath.workdps(DIGITS + 10):
-                result[chosen] = [float(evaluator(mpmath.mpf(float(t)) - interval.start)[order])
+                result[chosen] = [float(at_30_digits(mpmath.mpf(float(t)) - interval.start)[order])
                                   for t in flat[chosen]]
         else:
-            evaluator = FloatEvaluator(function, orders=order + 1)
-            result[chosen] = evaluator(flat[chosen] - float(interval.start))[order]
+            in_floats = FloatEvaluator(function, orders=order + 1)
+            result[chosen] = in_floats(flat[chosen] - float(interval.start))[order]
     return result.reshape(points.shape)
 
 
@@ -240,7 +243,7 @@ def derive_many(cases: Iterable, *, jobs: int | None = None, progress: bool | No
 # ----------------------------------------------------------------------------- notebook
 
 
-def sheet_markdown(derivation) -> str:
+def sheet_markdown(derivation: Derivation) -> str:
     """The Markdown sheet with its two figures embedded (SVG data URIs), for a notebook,
     where no figure files sit beside it."""
     from .render import figure_files, render_markdown
@@ -253,7 +256,7 @@ def sheet_markdown(derivation) -> str:
     return text
 
 
-def summary_html(derivation) -> str:
+def summary_html(derivation: Derivation) -> str:
     """A short HTML table for notebooks: status first, then the title, the model and the
     main results. Every string is escaped (titles come from other people's files)."""
     numbers = derivation.numbers

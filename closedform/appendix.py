@@ -13,21 +13,27 @@ nothing is written at all (exit 2): an appendix that silently leaves a case out 
 worse than none, and nothing is ever written half. A case that loads but cannot be derived
 appears in the appendix as FAILED with the reason (exit 1), as does a case whose checks fail.
 
-Deriving one case and rendering its pieces is the top-level function :func:`prepare_case`,
-whose arguments and result are plain picklable values, so that the cases can be spread
-over a process pool.
+Each case goes through the batch worker (:mod:`closedform.batch`: load, derive, finish,
+errors located) with :class:`AppendixSection` as its finisher, whose product, a
+:class:`CaseEntry` of plain picklable values, comes back from the case's worker process.
 """
 
 from __future__ import annotations
 
 import argparse
 import sys
-from collections.abc import Callable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from . import __version__, quantities, render
-from .errors import CaseError, DerivationError
+from .errors import CaseError
+from .options import add_budgets, add_formats, add_jobs, add_output
+
+if TYPE_CHECKING:
+    from .batch import CaseOutcome, CaseTask, Finished
+    from .derivation import Derivation
 
 APPENDIX_FORMATS = ("md", "tex", "pdf")
 DOCUMENT_NAME = "appendix"
@@ -106,51 +112,83 @@ def unique_stems(files: Sequence[Path]) -> list[str]:
     return stems
 
 
+@dataclass(frozen=True)
+class AppendixSection:
+    """The finisher of ``appendix`` (see :mod:`closedform.batch`): a derived case rendered
+    as section ``number`` of the appendix, with the verdicts on its [claims] if it has any;
+    the :class:`CaseEntry` is the product."""
+
+    number: int
+    stem: str
+    formats: tuple[str, ...]
+
+    def __call__(self, derivation: Derivation, path: str) -> Finished:
+        from .batch import Finished
+
+        case = derivation.case
+        number, stem, formats = self.number, self.stem, self.formats
+        flavours = render.flavours_of(formats)     # the texts the formats are written from
+        bodies: dict[str, str] = {}
+        files: dict[str, bytes] = {}
+        for flavour in flavours:
+            bodies[flavour.name] = render.render_sheet(derivation, flavour, stem=stem,
+                                                       section=number, level=2,
+                                                       standalone=False)
+            files.update(render.figure_files(derivation, stem, flavour.figure_suffix))
+        summary = {name: summary_cells(derivation, name) for name in render.FLAVOURS}
+        audited: dict = {}
+        if case.claims:
+            from .audit import audit, render_claims
+            from .claims import locate_claim
+            try:
+                result = audit(derivation)
+            except CaseError as error:
+                raise locate_claim(error, path) from None
+            audited = {"confirmed": result.confirmed, "refuted": result.refuted,
+                       "claim_bodies": {flavour.name: render_claims(
+                           result, flavour.name, level=4, numbered="",
+                           latex_heading="subsubsection") for flavour in flavours}}
+        entry = CaseEntry(number, Path(path).name, stem, case.title, case.reference,
+                          derivation.status, bodies=bodies, summary=summary, files=files,
+                          **audited)
+        return Finished(entry.status, 0 if derivation.passed else 1, product=entry)
+
+
+def section_task(path: Path, number: int, stem: str, formats: tuple[str, ...],
+                 time_budget: float | None = None) -> CaseTask:
+    from .batch import CaseTask
+
+    return CaseTask(str(path), time_budget, AppendixSection(number, stem, tuple(formats)))
+
+
+def entry_of(outcome: CaseOutcome, number: int, stem: str) -> CaseEntry | Unusable:
+    """The appendix's view of one case's outcome: an unusable file, a section that says
+    why the case was not derived, or the rendered section."""
+    name = Path(outcome.path).name
+    if outcome.stage == "unusable":
+        return Unusable(name, outcome.message)
+    if outcome.stage == "not derived":
+        # a case whose worker was lost has no title known here: its file name stands in
+        return CaseEntry(number, name, stem, outcome.title or name, outcome.reference,
+                         "not derived", problem=outcome.problem)
+    entry: CaseEntry = outcome.product
+    return entry
+
+
 def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
                  time_budget: float | None = None) -> CaseEntry | Unusable:
-    """Load, derive and render one case for section ``number`` of the appendix.
+    """Load, derive and render one case for section ``number`` of the appendix, here.
 
     Returns :class:`Unusable` for a case file that cannot be used (instead of raising, so
     that every such file is reported), a :class:`CaseEntry` otherwise.
     """
-    from .case import load_case
-    from .derivation import derive
+    from .batch import run_case
 
-    try:
-        case = load_case(path)
-    except CaseError as error:
-        return Unusable(path.name, error.show())
-    try:
-        derivation = derive(case, time_budget=time_budget)
-    except CaseError as error:
-        return Unusable(path.name, error.show())
-    except DerivationError as error:
-        return CaseEntry(number, path.name, stem, case.title, case.reference, "not derived",
-                         problem=str(error))
-    flavours = render.flavours_of(formats)     # the texts the formats are written from
-    bodies: dict[str, str] = {}
-    files: dict[str, bytes] = {}
-    for flavour in flavours:
-        bodies[flavour.name] = render.render_sheet(derivation, flavour, stem=stem, section=number,
-                                                   level=2, standalone=False)
-        files.update(render.figure_files(derivation, stem, flavour.figure_suffix))
-    summary = {name: summary_cells(derivation, name) for name in render.FLAVOURS}
-    audited: dict = {}
-    if case.claims:
-        from .audit import audit, render_claims
-        from .claims import locate_claim
-        try:
-            result = audit(derivation)
-        except CaseError as error:
-            return Unusable(path.name, locate_claim(error, path).show())
-        audited = {"confirmed": result.confirmed, "refuted": result.refuted, "claim_bodies": {
-            flavour.name: render_claims(result, flavour.name, level=4, numbered="",
-                                        latex_heading="subsubsection") for flavour in flavours}}
-    return CaseEntry(number, path.name, stem, case.title, case.reference, derivation.status,
-                     bodies=bodies, summary=summary, files=files, **audited)
+    return entry_of(run_case(section_task(path, number, stem, formats, time_budget)),
+                    number, stem)
 
 
-def summary_cells(derivation, target: str) -> SummaryCells:
+def summary_cells(derivation: Derivation, target: str) -> SummaryCells:
     """Peak (in the case's report unit, with its time) and DLF, as inline math, for the
     flavour called ``target``."""
     units = render.Units(derivation.case)
@@ -164,29 +202,34 @@ def summary_cells(derivation, target: str) -> SummaryCells:
         time_si, time_shown = units.show(float(results.peak.time), quantities.dimension("time"),
                                          ("time",))
         peak = f"{value_shown or value_si} {escape('at')} {time_shown or time_si}"
-    dlf = render.inline(render.number(results.dlf, 4)) if results.dlf is not None else None
+    shown = render.number(results.dlf, 4)
+    dlf = None if shown is None else render.inline(shown)
     return SummaryCells(peak, dlf)
 
 
-def build_appendix(folder: Path, formats: Sequence[str],
-                   progress: Callable[[int, int, str], None] | None = None, *,
+def build_appendix(folder: Path, formats: Sequence[str], progress: bool | None = False, *,
                    jobs: int | None = 1, time_budget: float | None = None,
+                   memory_budget: int | None = None,
                    ) -> tuple[dict[str, str | bytes], list[CaseEntry], list[Unusable]]:
     """Every case in ``folder`` as one appendix: (file name → content, entries, unusable).
 
-    The cases are derived in up to ``jobs`` processes. The contents are empty when any case
-    file is unusable. Nothing is written here.
+    The cases go through the batch worker in up to ``jobs`` processes (each in a worker
+    process of its own under ``memory_budget`` bytes, when given); ``progress`` draws the
+    progress bar (None: when standard error is a terminal). The contents are empty when any
+    case file is unusable. Nothing is written here.
     """
-    from .batch import map_cases
+    from .batch import run_cases
 
     formats = tuple(formats)
     render.require_tools(formats)      # before any work: name a missing tool
     files = case_files(folder)
     stems = unique_stems(files)
-    arguments = [(path, number, stem, formats, time_budget)
-                 for number, (path, stem) in enumerate(zip(files, stems), start=1)]
-    results = map_cases(prepare_case, arguments, [p.name for p in files], jobs=jobs,
-                        progress=progress)
+    numbered = list(enumerate(zip(files, stems), start=1))
+    outcomes = run_cases([section_task(path, number, stem, formats, time_budget)
+                          for number, (path, stem) in numbered],
+                         jobs=jobs, progress=progress, memory_budget=memory_budget)
+    results = [entry_of(outcome, number, stem)
+               for outcome, (number, (_path, stem)) in zip(outcomes, numbered)]
     unusable = [r for r in results if isinstance(r, Unusable)]
     entries = [r for r in results if isinstance(r, CaseEntry)]
     if unusable:
@@ -260,28 +303,22 @@ def register(commands) -> None:
                     "numbered section per case. Exit 1 when any case fails its checks, 2 "
                     "(writing nothing) when any case file is unusable.")
     parser.add_argument("folder", type=Path, metavar="DIR", help="folder of case files")
-    parser.add_argument("-o", "--output", type=Path, required=True, metavar="OUTDIR",
-                        help="folder for the appendix files")
-    parser.add_argument("--format", default="md,tex",
-                        help=f"comma-separated formats ({', '.join(APPENDIX_FORMATS)}); "
-                             "default md,tex")
-    parser.add_argument("--jobs", type=int, default=None,
-                        help="processes to derive the cases with (default: all cores)")
-    parser.add_argument("--time-budget", type=float, default=60.0, metavar="SECONDS",
-                        help="stop a case whose derivation runs longer (default 60)")
+    add_output(parser, required=True, metavar="OUTDIR", help="folder for the appendix files")
+    add_formats(parser, default="md,tex",
+                help=f"comma-separated formats ({', '.join(APPENDIX_FORMATS)}); default md,tex")
+    add_jobs(parser, help="processes to derive the cases with (default: all cores)")
+    add_budgets(parser)
     parser.set_defaults(run=run_appendix)
 
 
 def run_appendix(arguments: argparse.Namespace) -> int:
-    from .batch import TerminalProgress
-    from .cli import parse_formats, usable_output_folder, write_atomically
+    from .cli import usable_output_folder, write_atomically
 
-    formats = parse_formats(arguments.format, APPENDIX_FORMATS, "appendix format")
     usable_output_folder(arguments.output)
-    progress = TerminalProgress(sys.stderr) if sys.stderr.isatty() else None
-    contents, entries, unusable = build_appendix(arguments.folder, formats, progress,
+    contents, entries, unusable = build_appendix(arguments.folder, arguments.formats, None,
                                                  jobs=arguments.jobs,
-                                                 time_budget=arguments.time_budget)
+                                                 time_budget=arguments.time_budget,
+                                                 memory_budget=arguments.memory_budget)
     if unusable:
         for problem in unusable:
             print(problem.message, file=sys.stderr)
@@ -299,5 +336,6 @@ def run_appendix(arguments: argparse.Namespace) -> int:
     return 1 if failed else 0
 
 
-__all__ = ["APPENDIX_FORMATS", "AppendixDocument", "CaseEntry", "Unusable", "assemble",
-           "build_appendix", "case_files", "prepare_case", "register", "run_appendix"]
+__all__ = ["APPENDIX_FORMATS", "AppendixDocument", "AppendixSection", "CaseEntry", "Unusable",
+           "assemble", "build_appendix", "case_files", "entry_of", "prepare_case", "register",
+           "run_appendix", "section_task"]

@@ -38,7 +38,7 @@ import json
 import sys
 from dataclasses import dataclass, replace
 from pathlib import Path
-from typing import Any
+from typing import TYPE_CHECKING, Any
 
 import mpmath
 import sympy
@@ -57,9 +57,16 @@ from .claims import (
     read_tolerances,
     read_value_claims,
 )
+from .derivation import Window
 from .errors import CaseError
+from .options import add_budgets, add_formats, add_output
 from .response import Piece, t
-from .results import real_number
+from .results import Results, real_number
+
+if TYPE_CHECKING:
+    from .batch import Finished
+    from .case import Case
+    from .derivation import Derivation, DerivedResponse
 
 SAMPLES_PER_INTERVAL = 200
 AUDIT_FORMATS = ("md", "tex", "pdf", "json")
@@ -103,7 +110,7 @@ class Verdict:
         return rows
 
     def to_dict(self) -> dict[str, Any]:
-        result = {"key": self.key, "claimed": self.claimed, "computed": self.computed,
+        result: dict[str, Any] = {"key": self.key, "claimed": self.claimed, "computed": self.computed,
                   "relative_difference": self.difference, "tolerance": self.tolerance,
                   "confirmed": self.confirmed, "verdict": self.word, "detail": self.detail}
         if self.interval:
@@ -118,7 +125,7 @@ class Verdict:
 class Audit:
     """The verdicts on every claim of a case, with the derivation they were judged by."""
 
-    derivation: Any
+    derivation: Derivation
     verdicts: tuple[Verdict, ...]
 
     @property
@@ -142,20 +149,15 @@ class Audit:
 
 
 @dataclass(frozen=True)
-class _Window:
-    until: sympy.Expr
-    note: str
-
-
-@dataclass(frozen=True)
 class ClaimedResponse:
-    """Our response up to a claimed formula's start, then the formula up to its end: shaped
-    like a Derivation, so that the checks our derivation gets can be run on it."""
+    """Our response up to a claimed formula's start, then the formula up to its end: a
+    :class:`~closedform.derivation.DerivedResponse`, so that the checks our derivation gets
+    can be run on it."""
 
-    case: Any
-    pieces: tuple
-    window: _Window
-    numbers: Any
+    case: Case
+    pieces: tuple[Piece | _FormulaPiece, ...]
+    window: Window
+    numbers: Results
 
 
 class _NotExponentialPolynomial:
@@ -184,7 +186,7 @@ class _FormulaPiece:
         return str(self.formula)
 
 
-def audit(derivation) -> Audit:
+def audit(derivation: Derivation) -> Audit:
     """Verdicts for every claim of the case (raises CaseError for an unusable claim)."""
     from .case import quantity_reader
 
@@ -261,7 +263,7 @@ def _value_verdict(case, item: ClaimedValue, ours, values, tolerance) -> Verdict
                    float(tolerance))
 
 
-def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
+def claimed_response(derivation: Derivation, piece: ClaimedPiece) -> ClaimedResponse:
     """Our pieces before the claim's start (the last one cut there), then the claimed piece,
     in a window that ends where the claim ends."""
     values = derivation.case.symbol_values()
@@ -278,15 +280,16 @@ def claimed_response(derivation, piece: ClaimedPiece) -> ClaimedResponse:
             ours = replace(ours, end=start)
         prefix.append(ours)
     local = piece.local
+    claimed: Piece | _FormulaPiece
     if local is not None:
         claimed = Piece(start, end, local)
     else:
         claimed = _FormulaPiece(start, end, piece.formula.subs(values))
     return ClaimedResponse(derivation.case, tuple(prefix) + (claimed,),
-                           _Window(end, "the end of the claimed formula"), derivation.numbers)
+                           Window(end, "the end of the claimed formula"), derivation.numbers)
 
 
-def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
+def claim_checks(response: DerivedResponse) -> tuple[Check, ...]:
     """The checks of our own derivation that apply to a claimed response (the registry's
     ``CLAIM`` families: the verification, then the energy balance)."""
     from .checks.registry import CLAIM, run_checks
@@ -294,7 +297,7 @@ def claim_checks(response: ClaimedResponse) -> tuple[Check, ...]:
     return run_checks(response, CLAIM)
 
 
-def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:
+def _response_verdict(derivation: Derivation, piece: ClaimedPiece, tolerance) -> Verdict:
     values = derivation.case.symbol_values()
     until = derivation.window.until
     checks = claim_checks(claimed_response(derivation, piece))
@@ -312,6 +315,7 @@ def _response_verdict(derivation, piece: ClaimedPiece, tolerance) -> Verdict:
             deviation = abs(mpmath.mpf(claimed(time)) - _our_value(ours, time))
             if where is None or deviation > worst:
                 worst, where = deviation, time
+    assert where is not None        # set at the first of the samples
     relative = float(worst / scale)
     within = relative <= float(tolerance)
     interval = f"[{float(start):.6g}, {float(end):.6g}] s"
@@ -353,7 +357,8 @@ def _sheet_context(result: Audit, target: str) -> dict[str, Any]:
     case = derivation.case
 
     def figure(value: float | None) -> Any:
-        return None if value is None else render.inline(render.number(value, 3))
+        shown = render.number(value, 3)
+        return None if shown is None else render.inline(shown)
 
     claims = []
     for number, verdict in enumerate(result.verdicts, start=1):
@@ -436,56 +441,76 @@ def render_audit(result: Audit, formats, stem: str) -> dict[str, str | bytes]:
 # ----------------------------------------------------------------------------- command line
 
 
+@dataclass(frozen=True)
+class AuditSheet:
+    """The finisher of ``check`` (see :mod:`closedform.batch`): the audit of a derived case,
+    its sheet in ``formats`` and, as the product, what ``check`` prints on standard output
+    (the JSON result with its claims when ``as_json``, else the verdicts)."""
+
+    formats: tuple[str, ...]
+    as_json: bool
+
+    def __call__(self, derivation: Derivation, path: str) -> Finished:
+        from .batch import Finished
+
+        try:
+            result = audit(derivation)
+        except CaseError as error:
+            raise locate_claim(error, path) from None
+        case = derivation.case
+        contents = render_audit(result, self.formats, Path(case.source).stem or "case") \
+            if self.formats else {}
+        if self.as_json:
+            printed = json.dumps(result.to_dict(), indent=2) + "\n"
+        else:
+            rows = [] if derivation.passed else [
+                f"{case.source}: our own derivation FAILED its checks; the audit below "
+                "cannot be relied on"]
+            rows.extend(row for verdict in result.verdicts for row in verdict.lines())
+            rows.append(f"{result.confirmed} confirmed, {result.refuted} refuted")
+            printed = "".join(row + "\n" for row in rows)
+        return Finished(f"{result.confirmed} confirmed, {result.refuted} refuted",
+                        result.exit_code, contents, product=printed)
+
+
 def register(commands) -> None:
     check = commands.add_parser("check", help="audit the [claims] of a case against a checked "
                                               "derivation")
     check.add_argument("case", type=Path, help="the case file with a [claims] table")
     check.add_argument("--json", dest="json_target", metavar="-",
                        help="print the JSON result with its claims on standard output ('-')")
-    check.add_argument("-o", "--output", type=Path, metavar="DIR",
-                       help="folder for the audit sheet (STEM-audit.md, .tex, .pdf, .json)")
-    check.add_argument("--format", default="md,json",
-                       help=f"comma-separated formats of the audit sheet "
-                            f"({', '.join(AUDIT_FORMATS)}); default md,json")
-    check.add_argument("--time-budget", type=float, default=60.0, metavar="SECONDS")
+    add_output(check, metavar="DIR",
+               help="folder for the audit sheet (STEM-audit.md, .tex, .pdf, .json)")
+    add_formats(check, default="md,json",
+                help=f"comma-separated formats of the audit sheet ({', '.join(AUDIT_FORMATS)}); "
+                     "default md,json")
+    add_budgets(check)
     check.set_defaults(run=run_check)
 
 
 def run_check(arguments: argparse.Namespace) -> int:
-    from .case import load_case, locate
-    from .cli import parse_formats, usable_output_folder, write_atomically
-    from .derivation import derive
+    """Audit one case through the batch worker, in a worker process of its own under the
+    memory budget; an unusable case or claim is one located line (exit 2)."""
+    from .batch import CaseTask, run_cases
+    from .cli import usable_output_folder, write_atomically
 
     if arguments.json_target not in (None, "-"):
         raise CaseError("--json takes '-' (standard output)", file="--json")
-    formats = parse_formats(arguments.format, AUDIT_FORMATS, "audit format") \
-        if arguments.output is not None else []
+    formats = tuple(arguments.formats)
     if arguments.output is not None:
         usable_output_folder(arguments.output)
     render.require_tools(formats)     # before any work: name a missing tool
-    case = load_case(arguments.case)
-    try:
-        derivation = derive(case, time_budget=arguments.time_budget)
-    except CaseError as error:        # raised past loading: name the file and the key's line
-        raise locate(error, arguments.case) from None
-    try:
-        result = audit(derivation)
-    except CaseError as error:
-        raise locate_claim(error, arguments.case) from None
-    contents = render_audit(result, formats, Path(case.source).stem or "case") if formats else {}
-    if arguments.json_target == "-":
-        sys.stdout.write(json.dumps(result.to_dict(), indent=2) + "\n")
-    else:
-        if not derivation.passed:
-            print(f"{case.source}: our own derivation FAILED its checks; the audit below "
-                  "cannot be relied on")
-        for verdict in result.verdicts:
-            for row in verdict.lines():
-                print(row)
-        print(f"{result.confirmed} confirmed, {result.refuted} refuted")
-    if contents:
-        written = write_atomically(arguments.output, contents)
+    task = CaseTask(str(arguments.case), arguments.time_budget,
+                    AuditSheet(formats, arguments.json_target == "-"))
+    (outcome,) = run_cases([task], jobs=1, progress=False,
+                           memory_budget=arguments.memory_budget)
+    if outcome.stage != "done":
+        print(outcome.message, file=sys.stderr)
+        return outcome.exit_code
+    sys.stdout.write(outcome.product)
+    if outcome.contents:
+        written = write_atomically(arguments.output, outcome.contents)
         if arguments.json_target is None:
             print(f"wrote {', '.join(p.name for p in written if '-audit.' in p.name)} in "
                   f"{arguments.output}")
-    return result.exit_code
+    return outcome.exit_code

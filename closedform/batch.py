@@ -1,8 +1,14 @@
-"""Deriving many cases: one case per task, in a process pool, each result self-contained.
+"""The batch worker: load, derive and finish one case; many cases in worker processes.
 
-``run_case`` is a top-level function so it can be sent to worker processes; it never raises
-for a problem with the case itself but returns the outcome with its exit code and message,
-so a batch keeps going past a bad file and reports all problems.
+Every command that derives case files (``derive``, ``appendix``, ``check``) runs each case
+through :func:`run_case`: it loads the file, derives it and hands the derivation to the
+command's *finisher* (what the command makes of a derived case: sheet files, an appendix
+section, an audit), all under one time budget. It never raises for a problem with the case
+itself: the :class:`CaseOutcome` says what happened (``stage``), with its exit code and the
+one-line message, an input error raised after loading located at the key's line in the file
+like those of loading. :func:`run_cases` runs a list of :class:`CaseTask` in worker
+processes of their own under a memory budget (:mod:`closedform.workers`), so a batch keeps
+going past a bad file, a lost worker or a slow case, and reports all of them.
 """
 
 from __future__ import annotations
@@ -13,10 +19,48 @@ import sys
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
+from typing import TYPE_CHECKING, Any, Literal, Protocol, TextIO, TypeVar, cast
 
 from .errors import CaseError, ClosedformError
 from .outputs import safe_stem
 from .workers import DEFAULT_MEMORY, GRACE_SECONDS, Lost, fork_available, format_size, run_tasks
+
+if TYPE_CHECKING:
+    from .derivation import Derivation
+
+R = TypeVar("R")
+#: What became of a case: ``done`` (derived and finished; exit 0, or 1 when its checks
+#: failed), ``unusable`` (an input error, exit 2), ``not derived`` (the engine, the time or
+#: memory budget or the worker stopped it, exit 1).
+Stage = Literal["done", "unusable", "not derived"]
+
+
+@dataclass(frozen=True)
+class Finished:
+    """What a finisher made of a derived case (plain values: sent back from the worker)."""
+
+    message: str                                # the one line the command prints for it
+    exit_code: int = 0
+    contents: dict[str, str | bytes] = field(default_factory=dict)    # files to write
+    result: dict[str, Any] | None = None        # the JSON result
+    product: Any = None                         # anything else the command needs
+
+
+class Finisher(Protocol):
+    """A command's last step for one derived case, run in the worker under the case's time
+    budget; a top-level class or function, so that it can be sent to a worker process. A
+    CaseError it raises is reported like any other input error of the case."""
+
+    def __call__(self, derivation: Derivation, path: str) -> Finished: ...
+
+
+@dataclass(frozen=True)
+class CaseTask:
+    """One case for the worker: its file, one time budget for all of it, the finisher."""
+
+    path: str
+    time_budget: float | None
+    finish: Finisher
 
 
 @dataclass(frozen=True)
@@ -27,16 +71,24 @@ class CaseOutcome:
     exit_code: int
     message: str
     contents: dict[str, str | bytes] = field(default_factory=dict)
-    result: dict | None = None        # the JSON result (None when the case was unusable)
+    result: dict[str, Any] | None = None   # the JSON result (None when the case was unusable)
     warnings: tuple[str, ...] = ()
+    stage: Stage = "done"
+    problem: str = ""          # why a case is unusable or not derived (no "error:" prefix)
+    title: str = ""            # the case's title and reference, once it has loaded
+    reference: str = ""
+    product: Any = None        # the finisher's own product
 
 
-def case_paths(arguments: Sequence[Path]) -> list[Path]:
-    """Files as given, and every *.toml under a folder (sorted), in order, once each."""
-    return [path for path, _folder in case_sources(arguments)]
+@dataclass(frozen=True)
+class CaseSource:
+    """A case file to derive and the subfolder (of the output folder) its files go to."""
+
+    path: Path
+    folder: Path
 
 
-def case_sources(arguments: Sequence[Path]) -> list[tuple[Path, Path]]:
+def case_sources(arguments: Sequence[Path]) -> list[CaseSource]:
     """Each case file once, with the subfolder its outputs go to: a file given by name
     writes into the output folder itself; a case found under a folder argument writes into
     the same subfolder path below it (cases/a/case.toml -> OUT/a/case.md)."""
@@ -48,14 +100,15 @@ def case_sources(arguments: Sequence[Path]) -> list[tuple[Path, Path]]:
                 sources.setdefault(path, path.parent.relative_to(argument))
         else:
             sources.setdefault(argument, Path())
-    return list(sources.items())
+    return [CaseSource(path, folder) for path, folder in sources.items()]
 
 
-def refuse_clashing_outputs(sources: Sequence[tuple[Path, Path]]) -> None:
+def refuse_clashing_outputs(sources: Sequence[CaseSource]) -> None:
     """Two cases whose sheets would land on the same files (same name, same subfolder):
     refuse before deriving, rather than let the later one overwrite the earlier."""
     seen: dict[Path, Path] = {}
-    for path, folder in sources:
+    for source in sources:
+        path, folder = source.path, source.folder
         target = folder / safe_stem(path)
         if target in seen:
             raise CaseError(f"'{seen[target]}' and '{path}' would write the same sheet files "
@@ -64,44 +117,72 @@ def refuse_clashing_outputs(sources: Sequence[tuple[Path, Path]]) -> None:
         seen[target] = path
 
 
-def run_case(path: str, formats: Sequence[str], time_budget: float | None,
-             renderer: Callable | None = None) -> CaseOutcome:
-    """Load, derive and render one case; errors become the outcome, not exceptions.
+def run_case(task: CaseTask) -> CaseOutcome:
+    """Load, derive and finish one case; errors become the outcome, not exceptions.
 
-    The whole task (reading, deriving, rendering) runs under one time budget, so neither a
-    huge table nor a slow sheet can hold up a batch longer than ``time_budget`` seconds.
+    The whole task (reading, deriving, finishing) runs under one time budget, so neither a
+    huge table nor a slow sheet can hold up a batch longer than ``task.time_budget``
+    seconds. An input error raised after loading (by the engine or the finisher) is located
+    in the case file like one of loading: FILE:LINE: KEY: message.
     """
     from .budget import time_budget as budget_for
     from .case import display_name, load_case, locate
     from .derivation import derive
-    from .render import render_outputs
 
+    path = task.path
     shown = display_name(str(path))
+    title = reference = ""
     try:
-        with budget_for(time_budget, shown) as budget:
+        with budget_for(task.time_budget, shown) as budget:
             with budget.stage("reading the case file"):
                 case = load_case(path)
-            derivation = derive(case, time_budget=time_budget)
+            title, reference = case.title, case.reference
+            derivation = derive(case, time_budget=task.time_budget)
             with budget.stage("rendering the sheets"):
-                stem = safe_stem(path)
-                contents = (renderer or render_outputs)(derivation, formats, stem) \
-                    if formats else {}
-            with budget.stage("writing the JSON result"):
-                result = derivation.to_dict()
-                message = summary_line(derivation)
-        return CaseOutcome(path, 0 if derivation.passed else 1, message, contents, result,
-                           derivation.warnings)
+                finished = task.finish(derivation, path)
+        return CaseOutcome(path, finished.exit_code, finished.message, finished.contents,
+                           finished.result, derivation.warnings, title=title,
+                           reference=reference, product=finished.product)
     except CaseError as error:
-        return CaseOutcome(path, error.exit_code, one_line(locate(error, path).show()))
+        located = locate(error, path)
+        return CaseOutcome(path, error.exit_code, one_line(located.show()), stage="unusable",
+                           problem=one_line(str(located)), title=title, reference=reference)
     except ClosedformError as error:
-        return CaseOutcome(path, error.exit_code, one_line(error.show()))
+        return CaseOutcome(path, error.exit_code, one_line(error.show()), stage="not derived",
+                           problem=one_line(str(error)), title=title, reference=reference)
     except RecursionError:
-        return CaseOutcome(path, 2, f"{shown}: the input nests too deeply to process")
+        return CaseOutcome(path, 2, f"{shown}: the input nests too deeply to process",
+                           stage="unusable", problem="the input nests too deeply to process",
+                           title=title, reference=reference)
     except MemoryError:
-        return CaseOutcome(path, 1, f"error: {shown}: the derivation ran out of memory "
-                                    "(its worker's address-space limit)")
+        return not_derived(path, f"error: {shown}: the derivation ran out of memory "
+                                 "(its worker's address-space limit)", title, reference)
     except Exception as error:  # a defect in closedform itself, reported without a traceback
-        return CaseOutcome(path, 1, internal_error(shown, error))
+        return not_derived(path, internal_error(shown, error), title, reference)
+
+
+def not_derived(path: str, message: str, title: str = "", reference: str = "") -> CaseOutcome:
+    """A case the engine or its worker could not finish (exit 1), with the line saying why."""
+    problem = message.removeprefix("error: ")
+    return CaseOutcome(path, 1, one_line(message), stage="not derived",
+                       problem=one_line(problem), title=title, reference=reference)
+
+
+@dataclass(frozen=True)
+class SheetFiles:
+    """The finisher of ``derive``: the case's sheet files in ``formats`` (none: only the
+    JSON result), named after the case file; ``renderer`` replaces ``render_outputs``."""
+
+    formats: tuple[str, ...]
+    renderer: Callable[[Derivation, Sequence[str], str], dict[str, str | bytes]] | None = None
+
+    def __call__(self, derivation: Derivation, path: str) -> Finished:
+        from .render import render_outputs
+
+        contents = (self.renderer or render_outputs)(derivation, self.formats, safe_stem(path)) \
+            if self.formats else {}
+        return Finished(summary_line(derivation), 0 if derivation.passed else 1, contents,
+                        derivation.to_dict())
 
 
 def one_line(text: str, limit: int = 2000) -> str:
@@ -115,7 +196,7 @@ def internal_error(shown: str, error: BaseException) -> str:
                     "not derived. Please report it with the case file.")
 
 
-def summary_line(derivation) -> str:
+def summary_line(derivation: Derivation) -> str:
     from .render import summary_figures
 
     parts = [f"{derivation.case.source}: {derivation.status.upper()}"]
@@ -126,26 +207,27 @@ def summary_line(derivation) -> str:
     return "; ".join(parts)
 
 
-def run_cases(paths: Sequence[Path], formats: Sequence[str], *, time_budget: float | None,
-              jobs: int | None = None, renderer: Callable | None = None,
+def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
               progress: bool | None = None, memory_budget: int | None = DEFAULT_MEMORY,
               on_done: Callable[[int, CaseOutcome], None] | None = None) -> list[CaseOutcome]:
-    """Every case, in the given order, using up to ``jobs`` processes (default: all cores).
+    """Every task's :func:`run_case`, in the given order, using up to ``jobs`` processes
+    (default: all cores).
 
     Each case runs in a worker process of its own under ``memory_budget`` bytes; a case
-    whose worker is lost (ended for memory, killed) gets an outcome naming it, exit 1.
-    ``on_done(index, outcome)`` is called as each case finishes, in the parent process.
+    whose worker is lost (ended for memory or time, killed) gets an outcome naming it,
+    exit 1. ``on_done(index, outcome)`` is called as each case finishes, in the parent.
     """
-    arguments = [(str(p), tuple(formats), time_budget, renderer) for p in paths]
     show = sys.stderr.isatty() if progress is None else progress
+    budgets = [task.time_budget for task in tasks]
+    longest = None if not budgets or None in budgets else max(b for b in budgets if b is not None)
 
     def lost(index: int, reason: Lost) -> CaseOutcome:
-        return lost_outcome(str(paths[index]), reason, memory_budget)
+        return lost_outcome(tasks[index].path, reason, memory_budget)
 
-    return map_cases(run_case, arguments, [p.name for p in paths], jobs=jobs,
-                     progress=TerminalProgress(sys.stderr) if show else None,
+    return map_cases(run_case, [(task,) for task in tasks], [Path(t.path).name for t in tasks],
+                     jobs=jobs, progress=TerminalProgress(sys.stderr) if show else None,
                      memory_budget=memory_budget, lost=lost, on_done=on_done,
-                     time_budget=time_budget,
+                     time_budget=longest,
                      preload=("closedform.derivation", "closedform.render"))
 
 
@@ -154,19 +236,18 @@ def lost_outcome(path: str, reason: Lost, memory_budget: int | None) -> CaseOutc
 
     shown = display_name(path)
     if reason.memory and memory_budget is not None:
-        message = (f"error: {shown}: the derivation ran past the memory budget of "
-                   f"{format_size(memory_budget)} (raise it with --memory-budget)")
-    else:
-        message = f"error: {shown}: the case was not derived: {reason.reason}"
-    return CaseOutcome(path, 1, one_line(message))
+        return not_derived(path, f"error: {shown}: the derivation ran past the memory budget "
+                                 f"of {format_size(memory_budget)} (raise it with "
+                                 "--memory-budget)")
+    return not_derived(path, f"error: {shown}: the case was not derived: {reason.reason}")
 
 
-def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[str], *,
+def map_cases(function: Callable[..., R], arguments: Sequence[tuple], names: Sequence[str], *,
               jobs: int | None, progress: Callable[[int, int, str], None] | None = None,
               memory_budget: int | None = None,
-              lost: Callable[[int, Lost], object] | None = None,
-              on_done: Callable[[int, object], None] | None = None,
-              time_budget: float | None = None, preload: Sequence[str] = ()) -> list:
+              lost: Callable[[int, Lost], R] | None = None,
+              on_done: Callable[[int, R], None] | None = None,
+              time_budget: float | None = None, preload: Sequence[str] = ()) -> list[R]:
     """``function(*a)`` for each tuple of ``arguments``, results in order.
 
     With several jobs or a ``memory_budget`` (bytes), each call runs in a worker process of
@@ -179,7 +260,7 @@ def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[st
         progress(0, len(arguments), names[0])
     finished = 0
 
-    def done(index: int, result: object) -> object:
+    def done(index: int, result: R | Lost) -> R:
         nonlocal finished
         if isinstance(result, Lost):
             if lost is None:
@@ -198,15 +279,15 @@ def map_cases(function: Callable, arguments: Sequence[tuple], names: Sequence[st
     if len(arguments) > 1:    # imported once here, inherited by every forked worker
         for module in (function.__module__, *preload):
             importlib.import_module(module)
-    results: list = [None] * len(arguments)
+    results: list[R | None] = [None] * len(arguments)
 
-    def collect(index: int, result: object) -> None:
+    def collect(index: int, result: R | Lost) -> None:
         results[index] = done(index, result)
 
     hard = time_budget * 1.5 + GRACE_SECONDS if time_budget else None
     run_tasks(function, arguments, jobs=jobs, memory_budget=memory_budget,
               hard_seconds=hard, on_done=collect)
-    return results
+    return cast("list[R]", results)      # run_tasks has given every index its result
 
 
 class TerminalProgress:
@@ -214,7 +295,7 @@ class TerminalProgress:
 
     WIDTH = 24
 
-    def __init__(self, stream) -> None:
+    def __init__(self, stream: TextIO) -> None:
         self.stream = stream
 
     def __call__(self, done: int, total: int, name: str) -> None:

@@ -112,7 +112,7 @@ def time_budget(seconds: float | None, case_name: str) -> Iterator[Budget]:
         yield Budget(seconds, case_name)
         return
     now = time.monotonic()
-    deadline = now + seconds if limited else math.inf
+    deadline = now + seconds if seconds is not None and limited else math.inf
     outer = _active[-1] if _active else None
     if outer is not None and outer.deadline < deadline:
         deadline = outer.deadline
@@ -142,7 +142,8 @@ def time_budget(seconds: float | None, case_name: str) -> Iterator[Budget]:
         if outer is None:
             signal.setitimer(signal.ITIMER_REAL, 0)
             signal.signal(signal.SIGALRM, previous_handler)
-            sys.unraisablehook = previous_hook
+            if previous_hook is not None:
+                sys.unraisablehook = previous_hook
         else:
             signal.setitimer(signal.ITIMER_REAL, 0)
             left = outer.deadline - time.monotonic()

@@ -12,11 +12,9 @@ from collections.abc import Sequence
 from pathlib import Path
 
 from . import __version__
-from .budget import DEFAULT_SECONDS
 from .errors import CaseError, ClosedformError
-from .options import SHEET_FORMATS, check_formats, check_options
-from .outputs import safe_stem
-from .workers import DEFAULT_MEMORY, Stopped, format_size, install_stop_handlers, restore_handlers
+from .options import SHEET_FORMATS, add_budgets, add_formats, add_jobs, add_output, check_options
+from .workers import Stopped, install_stop_handlers, restore_handlers
 
 # Commands that live in modules of their own; each module has register(commands), which
 # adds its sub-parser with set_defaults(run=function returning the exit code). Those modules
@@ -97,21 +95,15 @@ def _parser(argv: Sequence[str] = ()) -> argparse.ArgumentParser:
     derive = commands.add_parser("derive", help="derive the response of one or more cases")
     derive.add_argument("cases", type=Path, nargs="+", metavar="CASE",
                         help="case files (TOML) or folders holding them")
-    derive.add_argument("-o", "--output", type=Path, help="folder for the sheet files")
-    derive.add_argument("--format", default=None,
-                        help=f"comma-separated output formats ({', '.join(SHEET_FORMATS)}); "
-                             "default md,json; needs -o")
+    add_output(derive, help="folder for the sheet files")
+    add_formats(derive, default="md,json",
+                help=f"comma-separated output formats ({', '.join(SHEET_FORMATS)}); "
+                     "default md,json; needs -o")
     derive.add_argument("--json", dest="json_target", metavar="FILE",
                         help="write the JSON result to FILE, or to standard output with '-'; "
                              "several cases give a JSON array")
-    derive.add_argument("--time-budget", type=float, default=DEFAULT_SECONDS, metavar="SECONDS",
-                        help=f"stop a case whose derivation runs longer (default {DEFAULT_SECONDS:g})")
-    derive.add_argument("--memory-budget", default=format_size(DEFAULT_MEMORY).replace(" ", ""),
-                        metavar="SIZE",
-                        help="stop a case whose worker process uses more memory (default "
-                             f"{format_size(DEFAULT_MEMORY)}; e.g. 512MiB, 8GiB)")
-    derive.add_argument("--jobs", type=int, default=None,
-                        help="processes for several cases (default: all cores)")
+    add_budgets(derive)
+    add_jobs(derive, help="processes for several cases (default: all cores)")
     derive.set_defaults(run=run_derive)
     chosen = next((a for a in argv if not a.startswith("-")), None)
     for name, (module, summary) in COMMAND_MODULES.items():
@@ -122,36 +114,35 @@ def _parser(argv: Sequence[str] = ()) -> argparse.ArgumentParser:
     return parser
 
 
-def output_formats() -> tuple[str, ...]:
-    return SHEET_FORMATS
-
-
-def parse_formats(text: str, known: Sequence[str] | None = None,
-                  what: str = "output format") -> list[str]:
-    """A comma-separated list of formats, each one of ``known``."""
-    return check_formats(text, tuple(known or SHEET_FORMATS), what)
-
-
 def run_derive(arguments: argparse.Namespace) -> int:
-    from .batch import case_sources, refuse_clashing_outputs, require_cases, run_cases, worst_exit_code
+    from .batch import (
+        CaseOutcome,
+        CaseTask,
+        SheetFiles,
+        case_sources,
+        refuse_clashing_outputs,
+        require_cases,
+        run_cases,
+        worst_exit_code,
+    )
 
-    formats = parse_formats(arguments.format or "md,json") if arguments.output is not None else []
+    finish = SheetFiles(tuple(arguments.formats))
     sources = case_sources(arguments.cases)
-    paths = [path for path, _folder in sources]
+    paths = [source.path for source in sources]
     require_cases(paths)
     if arguments.output is not None:
         usable_output_folder(arguments.output)
         refuse_clashing_outputs(sources)
-    outcomes: list = [None] * len(paths)
+    outcomes: list[CaseOutcome | None] = [None] * len(paths)
     written: list[str] = []
     unwritten: dict[int, str] = {}     # index → the one line saying why nothing was written
     shown = 0
 
-    def finished(index: int, outcome) -> None:
+    def finished(index: int, outcome: CaseOutcome) -> None:
         """Write a finished case's files at once (as one set), then report the cases
         finished so far in the order they were given."""
         nonlocal shown
-        folder = sources[index][1]
+        folder = sources[index].folder
         if arguments.output is not None and outcome.contents:
             try:
                 write_atomically(arguments.output / folder, outcome.contents)
@@ -166,6 +157,7 @@ def run_derive(arguments: argparse.Namespace) -> int:
 
     def report(index: int) -> None:
         outcome = outcomes[index]
+        assert outcome is not None
         for warning in outcome.warnings:
             print(f"warning: {warning}", file=sys.stderr)
         if index in unwritten:
@@ -176,34 +168,27 @@ def run_derive(arguments: argparse.Namespace) -> int:
             print(outcome.message)
 
     try:
-        run_cases(paths, formats, time_budget=arguments.time_budget, jobs=arguments.jobs,
-                  memory_budget=arguments.memory_budget, on_done=finished)
+        done = run_cases([CaseTask(str(path), arguments.time_budget, finish) for path in paths],
+                         jobs=arguments.jobs, memory_budget=arguments.memory_budget,
+                         on_done=finished)
     except BaseException:
         if arguments.output is not None:
-            done = f"{len(written)} of {len(paths)} cases written" + (
+            count = f"{len(written)} of {len(paths)} cases written" + (
                 f" ({', '.join(display(p) for p in written)})" if written else "")
-            print(f"stopped: {done}; the others were not written", file=sys.stderr)
+            print(f"stopped: {count}; the others were not written", file=sys.stderr)
         raise
     if arguments.json_target is not None:
-        results = [o.result for o in outcomes if o.result is not None]
+        results = [o.result for o in done if o.result is not None]
         text = json.dumps(results[0] if len(paths) == 1 else results, indent=2) + "\n" \
             if results or len(paths) != 1 else ""
         if text:
             sys.stdout.write(text)
-    return max(worst_exit_code(outcomes), 2 if unwritten else 0)
+    return max(worst_exit_code(done), 2 if unwritten else 0)
 
 
 def display(path: str) -> str:
     from .case import display_name
     return display_name(path)
-
-
-def write_outputs(derivation, folder: Path, formats: Sequence[str]) -> list[Path]:
-    """Render everything first, then write the files into place as one set."""
-    from .render import render_outputs
-
-    stem = safe_stem(derivation.case.source)
-    return write_atomically(folder, render_outputs(derivation, formats, stem))
 
 
 def usable_output_folder(folder: Path, option: str = "-o") -> None:

@@ -8,8 +8,9 @@ from __future__ import annotations
 
 import json
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any
+from typing import Any, Protocol
 
 import sympy
 
@@ -18,7 +19,7 @@ from .case import Case
 from .checks.base import Check
 from .checks.registry import DERIVE, run_checks
 from .loads import LoadHistory, rewrite_loads
-from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
+from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
 
@@ -31,6 +32,39 @@ class Window:
 
     until: sympy.Expr
     note: str
+
+
+class ResponsePiece(Protocol):
+    """One piece of a response as the checks read it (a :class:`~closedform.response.Piece`,
+    or a claimed formula in its place)."""
+
+    @property
+    def start(self) -> sympy.Expr: ...
+
+    @property
+    def end(self) -> sympy.Expr | None: ...
+
+    def expression(self, time: sympy.Symbol = ...) -> sympy.Expr: ...
+
+    def expression_text(self) -> str: ...
+
+
+class DerivedResponse(Protocol):
+    """What the independent checks read of a derivation: the case, the response's pieces
+    over the window, and the results. A :class:`Derivation` is one; so is the audit's
+    ``ClaimedResponse`` (a claimed formula in place of our pieces on its interval)."""
+
+    @property
+    def case(self) -> Case: ...
+
+    @property
+    def pieces(self) -> Sequence[ResponsePiece]: ...
+
+    @property
+    def window(self) -> Window: ...
+
+    @property
+    def numbers(self) -> Results: ...
 
 
 @dataclass(frozen=True)
@@ -65,7 +99,7 @@ class Derivation:
     warnings: tuple[str, ...] = ()
 
     @property
-    def pieces(self):
+    def pieces(self) -> tuple[Piece, ...]:
         return self.solution.pieces
 
     @property

@@ -218,7 +218,10 @@ class ExpressionBuilder(Protocol[Node]):
     a dimension next to each expression). ``column`` is the 1-based position used in messages.
     """
 
-    known_names: Collection[str]
+    @property
+    def known_names(self) -> Collection[str]:
+        """The names a formula may use."""
+        ...
 
     def number(self, value: sympy.Rational, column: int) -> Node: ...
 
@@ -276,7 +279,7 @@ class _Parser:
         starts_operand = token.kind == "name" or token.text == "("
         ends_operand = previous is not None and (previous.kind in ("number", "name")
                                                  or previous.text == ")")
-        if starts_operand and ends_operand:
+        if previous is not None and starts_operand and ends_operand:
             before = self.tokens[self.index - 2] if self.index >= 2 else None
             in_power = before is not None and before.text in ("^", "**")
             write = (f"write {previous.text}*{token.text}"
@@ -465,6 +468,10 @@ def _ask(question: Callable[[], bool | None]) -> bool | None:
         return None
 
 
+def _is_zero(node: sympy.Expr) -> bool | None:
+    return _ask(lambda: node.is_zero)
+
+
 class SympyBuilder:
     """Builds the sympy expression of a formula, refusing results that are infinite, not
     real, or outside the size limits.
@@ -522,7 +529,7 @@ class SympyBuilder:
         parts = []
         for operator, node, column in factors:
             if operator == "/":
-                if _ask(lambda node=node: node.is_zero):
+                if _is_zero(node):
                     raise _fail(f"division by zero at column {column}", self.key)
                 node = self.power(node, sympy.Integer(-1), column)
             parts.append(node)

@@ -1,10 +1,13 @@
-"""One place for the checks of the command line's options, used by every command.
+"""One place for the command line's common options, defined and checked once.
 
-Every sub-command (derive, check, appendix, spectrum) names its options the same way
-(``-o/--output``, ``--format``, ``--json``, ``--time-budget``, ``--memory-budget``,
-``--jobs``); :func:`check_options` checks whichever of them a command has, before any work,
-and raises a CaseError located at the option (one line, exit 2). Light module: standard
-library only, so that an input error is reported without importing the engine.
+Every sub-command (derive, check, appendix, spectrum) adds its common options with the
+``add_…`` functions here, so they are named, defaulted and described the same way
+(``-o/--output``, ``--format``, ``--time-budget``, ``--memory-budget``, ``--jobs``);
+:func:`check_options` checks whichever of them a command has, once, before any work, raises
+a CaseError located at the option (one line, exit 2), and leaves the checked values in
+place: ``formats`` (a list; empty without ``-o``) and ``memory_budget`` (bytes). Light
+module: standard library only, so that an input error is reported without importing the
+engine.
 """
 
 from __future__ import annotations
@@ -16,7 +19,9 @@ import re
 from collections.abc import Sequence
 from pathlib import Path
 
+from .budget import DEFAULT_SECONDS
 from .errors import CaseError
+from .workers import DEFAULT_MEMORY, format_size
 
 #: Output formats of a case sheet (the same as render.FORMATS; a test keeps them equal).
 SHEET_FORMATS = ("md", "tex", "pdf", "json", "csv", "svg")
@@ -39,6 +44,32 @@ _SIZE = re.compile(r"\s*(\d+(?:\.\d*)?|\.\d+)\s*(KiB|MiB|GiB|TiB|KB|MB|GB|TB|K|M
 _UNITS = {"K": 1024, "M": 1024 ** 2, "G": 1024 ** 3, "T": 1024 ** 4,
           "KiB": 1024, "MiB": 1024 ** 2, "GiB": 1024 ** 3, "TiB": 1024 ** 4,
           "KB": 1000, "MB": 1000 ** 2, "GB": 1000 ** 3, "TB": 1000 ** 4}
+
+
+def add_output(parser: argparse.ArgumentParser, *, help: str, required: bool = False,
+               metavar: str | None = None) -> None:
+    parser.add_argument("-o", "--output", type=Path, required=required, metavar=metavar,
+                        help=help)
+
+
+def add_formats(parser: argparse.ArgumentParser, *, default: str, help: str) -> None:
+    """``--format``: checked by :func:`check_options` into ``formats`` (a list)."""
+    parser.add_argument("--format", default=default, help=help)
+
+
+def add_budgets(parser: argparse.ArgumentParser, *, what: str = "case") -> None:
+    """``--time-budget`` (seconds) and ``--memory-budget`` (a size, checked into bytes)."""
+    parser.add_argument("--time-budget", type=float, default=DEFAULT_SECONDS, metavar="SECONDS",
+                        help=f"stop a {what} whose derivation runs longer "
+                             f"(default {DEFAULT_SECONDS:g})")
+    parser.add_argument("--memory-budget", default=format_size(DEFAULT_MEMORY).replace(" ", ""),
+                        metavar="SIZE",
+                        help=f"stop a {what} whose worker process uses more memory (default "
+                             f"{format_size(DEFAULT_MEMORY)}; e.g. 512MiB, 8GiB)")
+
+
+def add_jobs(parser: argparse.ArgumentParser, *, help: str) -> None:
+    parser.add_argument("--jobs", type=int, default=None, help=help)
 
 
 def physical_memory() -> int | None:
@@ -112,15 +143,16 @@ def check_options(arguments: argparse.Namespace, argv: Sequence[str]) -> None:
     json_target = getattr(arguments, "json_target", None)
     if json_target is not None and json_target != "-":
         check_json_file(json_target)
-    if getattr(arguments, "format", None) is not None:
-        known, what = COMMAND_FORMATS.get(command, (SHEET_FORMATS, "output format"))
-        given = arguments.format
-        check_formats(given, known, what)
-        if format_given(argv) and hasattr(arguments, "output"):
-            if getattr(arguments, "output", None) is None:
-                raise CaseError(f"writing {', '.join(_format_list(given))} needs -o DIR "
-                                "(the folder for the files); --json - prints the JSON "
-                                "result", file="--format")
+    given = getattr(arguments, "format", None)
+    if given is not None:
+        known, what = COMMAND_FORMATS.get(str(command), (SHEET_FORMATS, "output format"))
+        formats = check_formats(given, known, what)
+        output = vars(arguments).get("output", "no such option")
+        if format_given(argv) and output is None:
+            raise CaseError(f"writing {', '.join(formats)} needs -o DIR "
+                            "(the folder for the files); --json - prints the JSON "
+                            "result", file="--format")
+        arguments.formats = formats if output is not None else []
 
 
 def check_json_file(target: str) -> None:

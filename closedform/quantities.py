@@ -18,7 +18,7 @@ import re
 from collections.abc import Mapping
 from fractions import Fraction
 from types import MappingProxyType
-from typing import Any
+from typing import Any, cast
 
 import pint
 import sympy
@@ -35,9 +35,9 @@ from closedform.expressions import (
 
 __all__ = [
     "Dimension",
-    "DIMENSIONLESS", "TIME", "MASS", "LENGTH", "CURRENT", "FORCE", "STIFFNESS", "DAMPING",
+    "DIMENSIONLESS", "TIME", "MASS", "LENGTH", "FORCE", "STIFFNESS", "DAMPING",
     "VELOCITY", "ACCELERATION", "IMPULSE", "VOLTAGE", "RESISTANCE", "INDUCTANCE",
-    "CAPACITANCE", "FREQUENCY", "CHARGE", "ENERGY", "POWER", "PRESSURE",
+    "CAPACITANCE", "FREQUENCY", "PRESSURE",
     "DIMENSIONS",
     "dimension",
     "multiply_dimensions",
@@ -188,7 +188,9 @@ def _power_text(name: str, exponent: Any) -> str:
 
 def _product_text(dim: Dimension, labels: Mapping[str, str]) -> str:
     order = {base: index for index, base in enumerate(_BASES)}
-    items = sorted(dim.items(), key=lambda item: (order.get(item[0], len(order)), item[0]))
+    # pint types an exponent as any number; a dimension here has rational exponents only
+    items = cast("list[tuple[str, Fraction]]",
+                 sorted(dim.items(), key=lambda item: (order.get(item[0], len(order)), item[0])))
 
     def label(base: str) -> str:
         return labels.get(base, base.strip("[]"))

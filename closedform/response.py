@@ -269,7 +269,7 @@ def load_pieces(history: LoadHistory, times: Sequence[sympy.Expr], *, exact: boo
     events: dict[sympy.Expr, list] = {}
     for term in history.terms:
         events.setdefault(term.at, []).append(term)
-    result = []
+    result: list[ExponentialPolynomial | NumericExponentialPolynomial] = []
     previous = sympy.S.Zero
     if exact:
         current = ExponentialPolynomial()

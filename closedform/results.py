@@ -23,6 +23,7 @@ from __future__ import annotations
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any, Literal
 
 import mpmath
 import numpy
@@ -59,8 +60,8 @@ class Extreme:
 
     value: float
     time: float
-    value_mp: object = None   # the 30-digit value, for checks that need it
-    time_mp: object = None    # the 30-digit time
+    value_mp: Any = None      # the 30-digit value (mpmath), for checks that need it
+    time_mp: Any = None       # the 30-digit time
 
 
 @dataclass(frozen=True)
@@ -219,9 +220,9 @@ def stationary_points(function: NumericExponentialPolynomial, length: mpmath.mpf
     if precise_route:
         guesses = [float((a + b) / 2) for a, b in brackets]
     else:
-        guesses = _float_roots(evaluator, brackets)
+        guesses = _float_roots(evaluator, brackets).tolist()
     roots = [_polish(precise, guess, bracket) for guess, bracket in zip(guesses, brackets)]
-    unique = []
+    unique: list[mpmath.mpf] = []
     for root in sorted(r for r in roots if 0 < r < length):
         if not unique or abs(root - unique[-1]) > mpmath.mpf(10) ** (-DIGITS + 5) * max(1, abs(root)):
             unique.append(root)
@@ -366,6 +367,18 @@ def _float_error(evaluator: FloatEvaluator, u: numpy.ndarray) -> numpy.ndarray:
     return evaluator.size(u) * (FLOAT_ERROR + 4 * 2.0 ** -52 * (1 + fastest * numpy.abs(u)))
 
 
+@dataclass(frozen=True, eq=False)     # compared by identity: each is one candidate
+class _Candidate:
+    """A candidate for the extreme: an interval end or a stationary point inside it."""
+
+    index: int                 # of the interval
+    kind: Literal["start", "end", "overflow", "precise", "root"]
+    time: float                # local time (float), the bracket's middle for "precise"
+    bracket: tuple | None      # the stationary point's bracket, None at an end
+    value: float               # the float value and its error bound (inf: 30 digits decide)
+    error: float
+
+
 def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     """max |f| over the intervals, signed, at the earliest time it is reached.
 
@@ -376,60 +389,60 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     of the largest are refined and evaluated at 30 digits, in time order, and the earliest
     within PEAK_TOLERANCE of the 30-digit maximum is reported.
     """
-    # [interval index, kind, float local time, bracket or None, value, error]
-    found: list[list] = []
+    found: list[_Candidate] = []
     evaluators: list[FloatEvaluator] = []
     best = 0.0
     for index, interval in enumerate(intervals):
         evaluator = FloatEvaluator(interval.function)
         evaluators.append(evaluator)
         length = interval.end - interval.start
-        ends = [(0.0, "start")] if (length <= 0 or evaluator.empty) else \
+        ends: list[tuple[float, Literal["start", "end"]]] = \
+            [(0.0, "start")] if (length <= 0 or evaluator.empty) else \
             [(0.0, "start"), (float(length), "end")]
         points = numpy.array([u for u, _ in ends])
         with numpy.errstate(over="ignore", invalid="ignore"):
             values = evaluator(points, orders=1)[0]
             errors = _float_error(evaluator, points)
         if not _float_distinct(evaluator, interval.function):
-            values, errors = [math.inf] * len(ends), [math.inf] * len(ends)   # 30 digits decide
+            values = errors = numpy.full(len(ends), math.inf)   # 30 digits decide
         for (u, kind), value, error in zip(ends, values, errors):
-            found.append([index, kind, u, None, float(value), float(error)])
+            found.append(_Candidate(index, kind, u, None, float(value), float(error)))
             if numpy.isfinite(value) and numpy.isfinite(error) and error <= 1e-6 * abs(value):
                 best = max(best, abs(float(value)) - float(error))   # a value float can see
     for index, interval in enumerate(intervals):
         try:
-            brackets, _estimates, best, precise = interval_brackets(interval, best)
+            brackets, _estimates, best, precise_route = interval_brackets(interval, best)
         except OverflowError:
-            brackets, precise = [], False
-            found.append([index, "overflow", 0.0, None, math.inf, math.inf])
+            found.append(_Candidate(index, "overflow", 0.0, None, math.inf, math.inf))
             continue
         if not brackets:
             continue
-        if precise:
+        if precise_route:
             for bracket in brackets:
-                found.append([index, "precise", float((bracket[0] + bracket[1]) / 2), bracket,
-                              math.inf, math.inf])
+                found.append(_Candidate(index, "precise", float((bracket[0] + bracket[1]) / 2),
+                                        bracket, math.inf, math.inf))
             continue
         roots = _float_roots(evaluators[index], brackets)
         with numpy.errstate(over="ignore", invalid="ignore"):
             values = evaluators[index](roots, orders=1)[0]
             errors = _float_error(evaluators[index], roots)
         for bracket, root, value, error in zip(brackets, roots, values, errors):
-            found.append([index, "root", float(root), bracket, float(value), float(error)])
+            found.append(_Candidate(index, "root", float(root), bracket, float(value),
+                                    float(error)))
     if not found:
         return None
-    finite = [item for item in found if numpy.isfinite(item[4]) and numpy.isfinite(item[5])]
-    if finite and len(finite) == len([i for i in found if i[1] != "precise"]):
-        largest = max(abs(item[4]) for item in finite)
-        largest_error = max(item[5] for item in finite if abs(item[4]) == largest)
-        found = [item for item in found if item[1] == "precise"
-                 or abs(item[4]) >= largest - CANDIDATE_MARGIN * largest
-                 - 4 * (item[5] + largest_error)]
+    finite = [item for item in found if numpy.isfinite(item.value) and numpy.isfinite(item.error)]
+    if finite and len(finite) == len([i for i in found if i.kind != "precise"]):
+        largest = max(abs(item.value) for item in finite)
+        largest_error = max(item.error for item in finite if abs(item.value) == largest)
+        found = [item for item in found if item.kind == "precise"
+                 or abs(item.value) >= largest - CANDIDATE_MARGIN * largest
+                 - 4 * (item.error + largest_error)]
     # else: float overflow somewhere — let 30 digits decide among all candidates
     precise: dict[int, PreciseEvaluator] = {}
 
-    def evaluate(item) -> tuple:
-        index, kind, time, bracket = item[:4]
+    def evaluate(item: _Candidate) -> tuple:
+        index, kind, time, bracket = item.index, item.kind, item.time, item.bracket
         interval = intervals[index]
         if index not in precise:
             precise[index] = PreciseEvaluator(interval.function)
@@ -438,6 +451,7 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
         elif kind == "end":
             local = interval.end - interval.start
         else:
+            assert bracket is not None          # a stationary point has its bracket
             local = _polish(precise[index], time, bracket)
         return interval.start + local, precise[index](local)[0]
 
@@ -445,8 +459,8 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
         # the largest few by float value (and every one without a float value) fix the maximum
         # every candidate without a float value, then by float value + error until the rest
         # cannot exceed the 30-digit maximum found beyond 1e-10 (relative)
-        def reach(item) -> float:
-            value = abs(item[4]) + 4 * item[5]
+        def reach(item: _Candidate) -> float:
+            value = abs(item.value) + 4 * item.error
             return value if math.isfinite(value) else math.inf
         ranked = sorted(found, key=lambda item: -reach(item))
         done: dict[int, tuple] = {}
@@ -456,11 +470,11 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
                 break
             done[id(item)] = evaluate(item)
             largest = max(largest, abs(done[id(item)][1]))
-        ordered = sorted(found, key=lambda item: (float(intervals[item[0]].start) + item[2]))
+        ordered = sorted(found, key=lambda item: (float(intervals[item.index].start) + item.time))
         for item in ordered:
             threshold = largest * (1 - mpmath.mpf(PEAK_TOLERANCE))
             if id(item) not in done:
-                if abs(item[4]) + 4 * item[5] < float(threshold) * (1 - 1e-12):
+                if abs(item.value) + 4 * item.error < float(threshold) * (1 - 1e-12):
                     continue
                 done[id(item)] = evaluate(item)
                 largest = max(largest, abs(done[id(item)][1]))
@@ -475,7 +489,7 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
 # ----------------------------------------------------------------------------- combinations
 
 
-def linear_combination(parts: Sequence[tuple[object, NumericExponentialPolynomial]],
+def linear_combination(parts: Sequence[tuple[Any, NumericExponentialPolynomial]],
                        ) -> NumericExponentialPolynomial:
     """Σ factor · function, numeric (rows are concatenated; evaluation adds them)."""
     rows = []
@@ -542,7 +556,8 @@ class ImpulseIdealization:
     duration_ratio: float        # t_d / T_n
     area: float
     area_unit: str
-    centroid: float              # absolute time of the centroid of the first occurrence
+    centroid: float | None       # absolute time of the centroid of the first occurrence
+    #                              (None for a pulse of zero area)
     impulse_peak: Extreme | None
     pulse_peak: Extreme | None
     relative_error: float | None
@@ -583,7 +598,8 @@ def evaluate_results(case, model, history, solution, window) -> Results:
     if gain is not None and largest is not None and largest.value != 0:
         static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
     dlf = abs(peak.value) / static if (peak is not None and static) else None
-    peaks = tuple(QuantityPeak(name, text, unit, extreme_magnitude(_mapped(intervals, transform)))
+    peaks = tuple(QuantityPeak(name, text, unit, None if transform is None else
+                               extreme_magnitude(_mapped(intervals, transform)))
                   for name, text, unit, transform in definitions)
     residual = None
     if history.rewrites and load_locals and _is_zero(load_locals[-1]):
@@ -611,7 +627,7 @@ def _unit(dimension) -> str:
     return quantities.si_unit_text(dimension)
 
 
-def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
+def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable | None]]:
     """(JSON name, description, SI unit, transform of the response) for the model: those
     of its definition in ``closedform.models``, else the derivatives x′ (and x″).
 
@@ -645,7 +661,8 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
             case.system.parameters, tuple(model.coefficients), model.order, response, time,
             number, _unit, derivative, combination))
     first, second = derivative(1), derivative(2)
-    definitions = [("peak_derivative", "first derivative x′", _unit(response / time), first)]
+    definitions: list[tuple[str, str, str, Callable | None]] = [
+        ("peak_derivative", "first derivative x′", _unit(response / time), first)]
     if model.order >= 2:
         definitions.append(("peak_second_derivative", "second derivative x″ (one-sided values)",
                             _unit(response / time**2), second))
@@ -657,8 +674,8 @@ def residual_amplitude(case, model, free: Interval, values: Mapping) -> Residual
     load has ended): see ``Residual``. None where the free motion does not oscillate."""
     unit = _unit(case.system.response_dimension)
     with mpmath.workdps(DIGITS + 10):
-        x = free.function(0)
-        velocity = free.function.derivative()(0)
+        x: mpmath.mpf = free.function(0)
+        velocity: mpmath.mpf = free.function.derivative()(0)
         if model.order == 1:
             return Residual(float(abs(x)), float(free.start), unit, "|y(t₁)|",
                             "first-order free decay y(t₁)·e^(−(t−t₁)/τ)")
@@ -683,10 +700,13 @@ def pulse_area_and_centroid(load: LoadSpec, values: Mapping) -> tuple[sympy.Expr
     half-sine A·sin(πτ/d) has area 2Ad/π and centroid d/2; a formula is integrated by sympy
     (each shape's definition in ``closedform.shapes`` says how).
     """
-    return shapes.get(load.shape).area_and_centroid(load, values)
+    area_and_centroid = shapes.get(load.shape).area_and_centroid
+    if area_and_centroid is None:
+        raise ValueError(f"the load shape {load.shape!r} is not a pulse")
+    return area_and_centroid(load, values)
 
 
-def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[object, object]:
+def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[mpmath.mpf, mpmath.mpf]:
     """(time after the impulse, signed peak value) of the response to J·δ(t) from rest of
     a₂x″ + a₁x′ + a₀x = b·f, closed form (mpmath numbers in, out).
 

@@ -23,7 +23,9 @@ import signal
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
+from typing import Any, TypeVar, cast
 
+R = TypeVar("R")
 GIB = 1024 ** 3
 MIB = 1024 ** 2
 #: The default memory budget of one case (the machine this was made on has 24 GiB).
@@ -73,6 +75,21 @@ class Lost:
     index: int
     reason: str
     memory: bool = False     # ended for passing the memory budget
+
+
+@dataclass(frozen=True)
+class _Returned:
+    """What a worker sends back when its task returned."""
+
+    value: Any
+
+
+@dataclass(frozen=True)
+class _Raised:
+    """What a worker sends back when its task raised (or ran out of memory)."""
+
+    reason: str
+    memory: bool = False
 
 
 def format_size(size: int) -> str:
@@ -125,18 +142,18 @@ def _child(connection, function, arguments, memory_budget) -> None:
 
     try:
         result = function(*arguments)
-        payload = bytes(ForkingPickler.dumps(("ok", result), pickle.HIGHEST_PROTOCOL))
+        payload = bytes(ForkingPickler.dumps(_Returned(result), pickle.HIGHEST_PROTOCOL))
     except MemoryError:
-        payload = pickle.dumps(("memory", None))
+        payload = pickle.dumps(_Raised("ran out of memory", memory=True))
     except BaseException as error:  # noqa: BLE001 - reported by the parent
-        payload = pickle.dumps(("error", f"{type(error).__name__}: {error}"))
+        payload = pickle.dumps(_Raised(f"the worker failed ({type(error).__name__}: {error})"))
     connection.send_bytes(payload)
     connection.close()
 
 
-def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
+def run_tasks(function: Callable[..., R], arguments: Sequence[tuple], *, jobs: int,
               memory_budget: int | None = DEFAULT_MEMORY, hard_seconds: float | None = None,
-              on_done: Callable[[int, object], None] | None = None) -> list:
+              on_done: Callable[[int, R | Lost], None] | None = None) -> list[R | Lost]:
     """``function(*a)`` for each tuple in ``arguments``, each in a forked worker, at most
     ``jobs`` at once; returns the results in order, a :class:`Lost` where a worker ended
     without one. ``on_done(index, result)`` is called as each task finishes. Every worker is
@@ -145,7 +162,7 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
     from multiprocessing.connection import wait
 
     context = multiprocessing.get_context("fork")
-    results: list = [None] * len(arguments)
+    results: list[R | Lost | None] = [None] * len(arguments)
     pending = list(range(len(arguments)))
     running: dict[int, tuple] = {}      # index → (process, connection, started)
     try:
@@ -163,18 +180,18 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
             for handle in ready:
                 index = handles[handle]
                 process, receiver, _started = running.pop(index)
+                reply: _Returned | _Raised | None
                 try:
-                    status, value = pickle.loads(receiver.recv_bytes())
+                    reply = pickle.loads(receiver.recv_bytes())
                 except (EOFError, OSError, pickle.UnpicklingError):
-                    status, value = "died", None
+                    reply = None           # the worker died before it could send anything
                 receiver.close()
                 process.join()
-                if status == "ok":
-                    result = value
-                elif status == "memory":
-                    result = Lost(index, "ran out of memory", memory=True)
-                elif status == "error":
-                    result = Lost(index, f"the worker failed ({value})")
+                result: R | Lost
+                if isinstance(reply, _Returned):
+                    result = reply.value
+                elif isinstance(reply, _Raised):
+                    result = Lost(index, reply.reason, memory=reply.memory)
                 else:
                     result = Lost(index, _death(process.exitcode))
                 results[index] = result
@@ -189,17 +206,18 @@ def run_tasks(function: Callable, arguments: Sequence[tuple], *, jobs: int,
                     _end(process)
                     receiver.close()
                     del running[index]
-                    results[index] = (Lost(index, "ran past the memory budget", memory=True)
-                                      if over_memory else
-                                      Lost(index, "it ran past its time budget and did not "
-                                                  "stop (its worker process was ended)"))
+                    lost = (Lost(index, "ran past the memory budget", memory=True)
+                            if over_memory else
+                            Lost(index, "it ran past its time budget and did not "
+                                        "stop (its worker process was ended)"))
+                    results[index] = lost
                     if on_done is not None:
-                        on_done(index, results[index])
+                        on_done(index, lost)
     finally:
         for process, receiver, _started in running.values():
             _end(process)
             receiver.close()
-    return results
+    return cast("list[R | Lost]", results)      # every index has its result or Lost
 
 
 def _end(process) -> None:

@@ -1,12 +1,26 @@
-"""Shared fixtures: cases from TOML text, derivations, and the command line in a folder."""
+"""Shared fixtures: cases from TOML text, derivations, and the command line in a folder.
+
+The worked cases (worked_cases/*.toml) are derived at most once per test session:
+:func:`worked_derivation` (or the ``worked`` fixture) caches each derivation, so the tests
+of rendering, results, sheets and the Python interface that read the same worked case share
+one derivation instead of deriving it again in every file. A ``Derivation`` is immutable
+(frozen dataclasses all the way down), so sharing it cannot leak one test into another; a
+test that needs a changed one builds it with ``dataclasses.replace``. A test that patches the
+engine (monkeypatch) must derive afresh, never through this cache.
+"""
 
 from __future__ import annotations
 
+import functools
 import textwrap
+from collections.abc import Callable
+from pathlib import Path
 
 import pytest
 
 import closedform
+
+WORKED = Path(__file__).resolve().parent.parent / "worked_cases"
 
 
 def case_from(text: str, name: str = "test.toml") -> closedform.Case:
@@ -15,6 +29,12 @@ def case_from(text: str, name: str = "test.toml") -> closedform.Case:
 
 def derive_text(text: str, name: str = "test.toml") -> closedform.Derivation:
     return closedform.derive(case_from(text, name))
+
+
+@functools.cache
+def worked_derivation(stem: str) -> closedform.Derivation:
+    """The derivation of ``worked_cases/STEM.toml``, derived once per test session."""
+    return closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
 
 
 @pytest.fixture
@@ -39,3 +59,9 @@ def replace_check_run(monkeypatch, name: str, run) -> None:
     check_run(name)                     # the family exists
     monkeypatch.setattr(registry, "FAMILIES", tuple(
         dataclasses.replace(f, run=run) if f.name == name else f for f in registry.FAMILIES))
+
+
+@pytest.fixture(scope="session")
+def worked() -> Callable[[str], closedform.Derivation]:
+    """:func:`worked_derivation`, as a fixture."""
+    return worked_derivation

@@ -447,7 +447,9 @@ def test_overdamped_impulse_peak_with_a_vanishing_slow_root():
     ratio the closed form itself loses every digit, and the independent checks say so
     (status failed, exit 1) instead of presenting it as checked."""
     case = closedform.load_case_text(OVERDAMPED_VANISHING_ROOT, "vanishing-root.toml")
-    derivation = closedform.derive(case, time_budget=60)
+    # about 15 s alone; the budget only guards against a hang, and 60 s ran out on a machine
+    # shared by several test runs (the extremes stage took 62 s there, on the old code too)
+    derivation = closedform.derive(case, time_budget=300)
     assert derivation.numbers.idealizations
     assert derivation.status == "failed"
     assert any(c.name == "independent integration" and not c.passed for c in derivation.checks)
@@ -493,10 +495,17 @@ until = "1 s"
 def test_time_scale_below_the_float_range_is_no_internal_error():
     """Found by fuzzing: fastest_scale divided by a decay rate (5e-601) that float() makes
     0.0. Now the scale is inf and the case runs; the response, 1 − cos(1e-150·t) ≈ 5e-301
-    at 1 s (ω = √(1/1e300); Taylor series of the cosine), is beyond 30-digit carrying, so the
-    tool must either get it or say loudly that it failed, never pass a wrong peak."""
+    at 1 s (ω = √(1/1e300); Taylor series of the cosine), is beyond 30-digit carrying: the
+    pieces come out as 0, so the peak is wrong, and the tool must say so loudly. Pinned: the
+    derivation FAILED, and among the failed checks is the independent integration, which
+    carries its own state and so sees a response of the true order, 1e-301..1e-299 (should the engine
+    one day carry it, the peak must be 5e-301 and this pin be updated to "verified")."""
     case = closedform.load_case_text(TIME_SCALE_BELOW_FLOATS, "tiny-rate.toml")
     derivation = closedform.derive(case, time_budget=60)
     peak = derivation.numbers.peak
-    right = peak is not None and abs(abs(peak.value) - 5e-301) <= 1e-6 * 5e-301
-    assert right or derivation.status == "failed", (derivation.status, peak)
+    assert peak is not None and abs(peak.value) < 1e-6 * 5e-301, peak     # the lost response
+    assert derivation.status == "failed"
+    failed = {c.name: c.detail for c in derivation.checks if not c.passed}
+    assert "independent integration" in failed, failed
+    seen = float(failed["independent integration"].split("max |x_integrated| = ")[1].split(",")[0])
+    assert 1e-301 < seen < 1e-299, failed["independent integration"]

@@ -25,6 +25,8 @@ from scipy.integrate import solve_ivp
 import closedform
 from closedform import CaseError, Extreme, load_case, unit_registry
 
+from .conftest import worked_derivation
+
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
 
@@ -114,7 +116,7 @@ def test_damped_half_sine_against_scipy():
 
 def test_series_rlc_current_against_scipy():
     inductance, resistance, capacitance, volts = 2.2e-3, 3.3, 47e-6, 24.0
-    d = closedform.derive(load_case(WORKED / "switched-rlc.toml"))
+    d = worked_derivation("switched-rlc")
 
     def supply(t):
         return volts if t < 4e-3 else 0.0
@@ -203,7 +205,7 @@ def test_evaluate_refuses_bad_requests():
 
 
 def test_evaluate_refuses_a_symbolic_response():
-    d = closedform.derive(load_case(WORKED / "symbolic-rectangle.toml"))
+    d = worked_derivation("symbolic-rectangle")
     with pytest.raises(ValueError, match="^the response is symbolic in "):
         d.evaluate([0.0])
 
@@ -212,7 +214,7 @@ def test_evaluate_refuses_a_symbolic_response():
 
 
 def test_results_are_pint_quantities_by_json_name():
-    d = closedform.derive(load_case(WORKED / "drop-hammer-skid.toml"))
+    d = worked_derivation("drop-hammer-skid")
     fields = d.to_dict()
     results = d.results
     spring = results.peak_spring_force
@@ -247,7 +249,7 @@ def test_results_are_pint_quantities_by_json_name():
 @pytest.mark.parametrize("name", ["switched-rlc", "sensor-ramp-lag", "shaken-floor-cabinet",
                                   "motor-mount-ode"])
 def test_every_result_unit_reads_back_in_pint(name):
-    d = closedform.derive(load_case(WORKED / f"{name}.toml"))
+    d = worked_derivation(name)
     for field, value in d.to_dict().items():
         if isinstance(value, dict) and "unit" in value and "value" in value:
             extreme = getattr(d.results, field)
@@ -256,7 +258,7 @@ def test_every_result_unit_reads_back_in_pint(name):
 
 
 def test_symbolic_results_are_none():
-    d = closedform.derive(load_case(WORKED / "symbolic-rectangle.toml"))
+    d = worked_derivation("symbolic-rectangle")
     assert d.results.peak is None and d.results.dlf is None
 
 
@@ -322,7 +324,7 @@ def test_a_derivation_crosses_process_boundaries():
 def test_plot_draws_load_and_response():
     from matplotlib.figure import Figure
 
-    d = closedform.derive(load_case(WORKED / "drop-hammer-skid.toml"))
+    d = worked_derivation("drop-hammer-skid")
     ax = Figure().subplots()
     assert d.plot(ax) is ax
     response = ax.get_lines()[0]

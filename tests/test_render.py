@@ -13,13 +13,10 @@ and review the diff like any other change to the sheets.
 from __future__ import annotations
 
 import dataclasses
-import functools
 import math
 import shutil
-import subprocess
 import sys
 import textwrap
-from concurrent.futures import ThreadPoolExecutor
 from pathlib import Path
 
 import pytest
@@ -28,6 +25,8 @@ import closedform
 from closedform import render
 from closedform.checks.base import Check
 from closedform.errors import ClosedformError
+
+from .conftest import worked_derivation
 
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
@@ -38,9 +37,7 @@ HAS_LATEX = render.latex_command() is not None
 needs_latex = pytest.mark.skipif(not HAS_LATEX, reason="latexmk/pdflatex not on PATH")
 
 
-@functools.cache
-def worked(stem: str) -> closedform.Derivation:
-    return closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+worked = worked_derivation      # derived once per session (tests/conftest.py)
 
 
 def sheets(stem: str) -> dict[str, str]:
@@ -321,32 +318,9 @@ def test_csv_refuses_a_case_with_symbols_without_values():
 # ----------------------------------------------------------------------------- LaTeX builds
 
 
-def _compiles(stem: str, folder: Path) -> str:
-    """One pdfLaTeX pass over the standalone sheet in its own folder: "" or the error."""
-    derivation = worked(stem)
-    work = folder / stem
-    work.mkdir()
-    (work / f"{stem}.tex").write_text(render.render_latex(derivation, standalone=True, stem=stem),
-                                      encoding="utf-8")
-    for name, content in render.figure_files(derivation, stem, "pdf").items():
-        (work / name).write_bytes(content)
-    finished = subprocess.run(["pdflatex", "-interaction=nonstopmode", "-halt-on-error",
-                               "-draftmode", f"{stem}.tex"], cwd=work, capture_output=True,
-                              stdin=subprocess.DEVNULL, text=True, errors="replace", check=False)
-    if finished.returncode == 0:
-        return ""
-    return next((line for line in finished.stdout.splitlines() if line.startswith("!")),
-                finished.stdout[-500:])
-
-
-@pytest.mark.slow
-@pytest.mark.skipif(shutil.which("pdflatex") is None, reason="pdflatex not on PATH")
-def test_every_worked_case_compiles_on_its_own(tmp_path):
-    for stem in CASES:      # derive here; the pdfLaTeX runs go two at a time
-        worked(stem)
-    with ThreadPoolExecutor(max_workers=2) as pool:
-        errors = dict(zip(CASES, pool.map(lambda stem: _compiles(stem, tmp_path), CASES)))
-    assert {stem: error for stem, error in errors.items() if error} == {}
+# Every worked case compiling on its own is tests/test_sheets.py's
+# test_no_overfull_box_wider_than_10pt (one pdfLaTeX run per case, halt on error, checked for
+# "Output written" and for overfull boxes), so it is not compiled a second time here.
 
 
 @pytest.mark.slow

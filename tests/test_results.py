@@ -10,7 +10,6 @@ never from closedform's own code path.
 from __future__ import annotations
 
 import dataclasses
-import functools
 import json
 import math
 import types
@@ -26,7 +25,7 @@ from closedform.checks.energy import SUMMARY_LIMIT, energy_checks
 from closedform.results import impulse_response_peak, result_fields, stationary_points
 from closedform.systems import build_model
 
-from .conftest import derive_text
+from .conftest import derive_text, worked_derivation
 
 WORKED = Path(__file__).resolve().parent.parent / "worked_cases"
 
@@ -394,9 +393,7 @@ def test_stationary_points_of_free_vibration():
 # ----------------------------------------------------------------------------- energy balance
 
 
-@functools.cache
-def worked(name: str) -> closedform.Derivation:
-    return closedform.derive(closedform.load_case(WORKED / f"{name}.toml"))
+worked = worked_derivation      # derived once per session (tests/conftest.py)
 
 
 @pytest.mark.parametrize("name", sorted(p.stem for p in WORKED.glob("*.toml")))

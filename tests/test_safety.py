@@ -316,6 +316,36 @@ def test_a_case_past_its_memory_budget_fails_cleanly_and_alone(tmp_path, capsys,
         "(raise it with --memory-budget)"]
 
 
+def test_check_and_appendix_run_their_cases_under_the_memory_budget_too(tmp_path, capsys,
+                                                                        monkeypatch):
+    """One batch worker for every command: `check` and `appendix` take --memory-budget
+    and a case past it fails alone, named, like a case of `derive`."""
+    real_verify = closedform.derivation.verify
+    hoard = []
+
+    def verify(derivation):
+        if derivation.case.title == "Greedy":
+            while True:
+                hoard.append(bytearray(50 * 1024 ** 2))
+                time.sleep(0.02)
+        return real_verify(derivation)
+
+    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    cases = tmp_path / "cases"
+    cases.mkdir()
+    (cases / "a.toml").write_text(titled("Greedy"))
+    (cases / "b.toml").write_text(GOOD)
+    over = (f"{cases / 'a.toml'}: the derivation ran past the memory budget of 600 MiB "
+            "(raise it with --memory-budget)")
+    assert main(["check", str(cases / "a.toml"), "--memory-budget", "600MiB"]) == 1
+    assert capsys.readouterr().err.splitlines() == [f"error: {over}"]
+    out = tmp_path / "out"
+    assert main(["appendix", str(cases), "-o", str(out), "--format", "md", "--jobs", "1",
+                 "--memory-budget", "600MiB"]) == 1
+    assert capsys.readouterr().err.splitlines() == [f"a.toml: FAILED (not derived): {over}"]
+    assert "## 1. FAILED — not derived: a.toml" in (out / "appendix.md").read_text()
+
+
 def test_a_memory_error_inside_the_worker_is_reported_as_memory(tmp_path, capsys, monkeypatch):
     def verify(derivation):
         raise MemoryError
@@ -338,6 +368,11 @@ def test_bad_memory_budgets(tmp_path, capsys, value, message):
     case = tmp_path / "case.toml"
     case.write_text(GOOD)
     assert main(["derive", str(case), "--memory-budget", value]) == 2
+    assert capsys.readouterr().err.splitlines() == [message]
+    assert main(["check", str(case), "--memory-budget", value]) == 2
+    assert capsys.readouterr().err.splitlines() == [message]
+    assert main(["appendix", str(tmp_path), "-o", str(tmp_path / "out"),
+                 "--memory-budget", value]) == 2
     assert capsys.readouterr().err.splitlines() == [message]
 
 

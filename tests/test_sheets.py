@@ -21,6 +21,8 @@ from closedform import render
 from closedform.checks import reread
 from closedform.checks.base import Check
 
+from .conftest import worked_derivation
+
 ROOT = Path(__file__).resolve().parent.parent
 WORKED = ROOT / "worked_cases"
 CASES = sorted(path.stem for path in WORKED.glob("*.toml"))
@@ -121,7 +123,7 @@ def test_load_lines_of_ramps_triangles_and_trapezoids_read_back(load):
 
 @pytest.mark.parametrize("stem", CASES)
 def test_every_worked_sheet_reads_back_equal_to_its_derivation(stem):
-    derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    derivation = worked_derivation(stem)
     check = check_of(derivation)
     assert check.passed, check.detail
     numeric = int(check.detail.split()[0])
@@ -368,7 +370,7 @@ def test_static_gain_is_not_written_as_one_over_one():
 
 
 def test_impulse_idealization_gets_a_row_per_figure():
-    derivation = closedform.derive(closedform.load_case(WORKED / "panel-pressure-pulse.toml"))
+    derivation = worked_derivation("panel-pressure-pulse")
     markdown = render.render_markdown(derivation)
     rows = [line for line in markdown.splitlines() if line.startswith("| impulse idealization")]
     assert len(rows) >= 5
@@ -473,12 +475,15 @@ def overfull_boxes(derivation, stem: str, folder: Path) -> list[float]:
 @pytest.mark.skipif(not HAS_PDFLATEX, reason="pdflatex not on PATH")
 @pytest.mark.parametrize("stem", CASES + ["test:auto", "test:exact", "test:decimal"])
 def test_no_overfull_box_wider_than_10pt(stem, tmp_path):
+    """Each worked case's standalone sheet compiles (pdfLaTeX, halt on error, "Output
+    written") with no overfull box wider than 10 pt; also the compile check of every worked
+    case."""
     if stem.startswith("test:"):
         mode = stem.split(":")[1]
         derivation = derive_text(NON_ROUND.replace("NUMBERS", f'numbers = "{mode}"'))
         stem = f"nonround-{mode}"
     else:
-        derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+        derivation = worked_derivation(stem)
     widths = overfull_boxes(derivation, stem, tmp_path)
     assert all(w <= 10 for w in widths), widths
 
@@ -549,7 +554,7 @@ def test_no_warning_for_an_ordinary_case():
 
 @pytest.mark.parametrize("stem", CASES)
 def test_product_sheets_never_cite_from_memory(stem):
-    derivation = closedform.derive(closedform.load_case(WORKED / f"{stem}.toml"))
+    derivation = worked_derivation(stem)
     for text in (render.render_markdown(derivation), render.render_latex(derivation)):
         assert "memory" not in text
 
