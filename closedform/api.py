@@ -266,8 +266,11 @@ def summary_html(derivation: Derivation) -> str:
     unit = quantities.si_unit_text(case.system.response_dimension)
     rows: list[tuple[str, str]] = [("status", derivation.status.upper())]
     if derivation.status != "verified":
-        failed = [c.name for c in derivation.checks if not c.passed]
-        rows.append(("failed checks", ", ".join(failed) or "none run"))
+        failed = [c.name for c in derivation.checks if c.outcome == "failed"]
+        inconclusive = [c.name for c in derivation.checks if c.outcome == "inconclusive"]
+        rows.append(("failed checks", ", ".join(failed) or ("none" if inconclusive else "none run")))
+        if inconclusive:
+            rows.append(("inconclusive checks", ", ".join(inconclusive)))
     rows += [("title", case.title), *([("reference", case.reference)] if case.reference else []),
              ("model", f"{case.system.model} ({derivation.model.regime})"),
              ("pieces", str(len(derivation.pieces)))]

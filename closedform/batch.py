@@ -201,9 +201,12 @@ def summary_line(derivation: Derivation) -> str:
 
     parts = [f"{derivation.case.source}: {derivation.status.upper()}"]
     parts.extend(summary_figures(derivation))
-    failed = [c.name for c in derivation.checks if not c.passed]
+    failed = [c.name for c in derivation.checks if c.outcome == "failed"]
+    inconclusive = [c.name for c in derivation.checks if c.outcome == "inconclusive"]
     if failed:
         parts.append(f"failed checks: {', '.join(failed)}")
+    if inconclusive:
+        parts.append(f"inconclusive checks: {', '.join(inconclusive)}")
     return "; ".join(parts)
 
 

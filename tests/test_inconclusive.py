@@ -44,3 +44,22 @@ def test_inconclusive_outcome_reaches_the_json(tmp_path, capsys):
     outcomes = {c["name"]: c["outcome"] for c in result["checks"]}
     assert outcomes["independent integration"] == "inconclusive"
     assert result["status"] == "failed"
+
+
+def test_sheet_and_console_tell_inconclusive_from_failed(tmp_path, capsys):
+    """The sheet's status box lists an inconclusive check as INCONCLUSIVE (and says what that
+    means), its check table marks it so, and the console line names it apart from the failed
+    ones."""
+    case = tmp_path / "stiff.toml"
+    case.write_text(STIFF, encoding="utf-8")
+    assert main(["derive", str(case), "-o", str(tmp_path / "out"), "--format", "md,tex"]) == 1
+    console = capsys.readouterr().out
+    assert "inconclusive checks: independent integration" in console
+    assert "failed checks" not in console
+    sheet = (tmp_path / "out" / "stiff.md").read_text(encoding="utf-8")
+    assert "1 of them inconclusive: they could not reach their precision" in sheet
+    assert "- INCONCLUSIVE: independent integration — could not be established" in sheet
+    assert "| independent integration | **INCONCLUSIVE** |" in sheet
+    latex = (tmp_path / "out" / "stiff.tex").read_text(encoding="utf-8")
+    assert "INCONCLUSIVE: independent integration" in latex
+    assert r"\textbf{INCONCLUSIVE}" in latex
