@@ -792,7 +792,11 @@ def _pulse_alone_peak(case, model, history: LoadHistory, solution, load: LoadSpe
     """
     pieces = solution.pieces
     bound = sympy.Float(until, DIGITS + 10)
+    # Reused only from rest: less the free vibration of large initial values, the pulse's own
+    # small response would be a difference of nearly equal terms, which the peak search can
+    # only bound by splitting cells without end.
     reuse = (len(history.rewrites) == 1 and not history.impulses and not case.symbols
+             and solution.free is None
              and abs(real_number(pieces[-1].start, values) - end) <= abs(end) * mpmath.mpf(10) ** -DIGITS)
     if not reuse:
         rewrite = next(r for r in history.rewrites if r.load_number == load.number)
