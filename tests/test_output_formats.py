@@ -61,8 +61,9 @@ def case_file(tmp_path) -> Path:
 
 
 def test_a_registered_format_is_written_by_derives_output_path(registry, case_file, tmp_path):
-    [outcome] = batch.run_cases([case_file], ["txt", "md"], time_budget=None, jobs=1,
-                                memory_budget=None)
+    [outcome] = batch.run_cases([batch.CaseTask(str(case_file), None,
+                                                batch.SheetFiles(("txt", "md")))],
+                                jobs=1, memory_budget=None)
     assert outcome.exit_code == 0, outcome.message
     assert set(outcome.contents) == {"step.txt", "step.md", "step-load.svg", "step-response.svg"}
     text = outcome.contents["step.txt"]
@@ -70,7 +71,8 @@ def test_a_registered_format_is_written_by_derives_output_path(registry, case_fi
     assert text == plain_text(outcome.contents["step.md"])
     assert text.startswith("Step on a spring-mass\n")
     assert "$" not in text and "**" not in text
-    written = batch.run_case(str(case_file), ("txt",), None).contents
+    written = batch.run_case(batch.CaseTask(str(case_file), None,
+                                            batch.SheetFiles(("txt",)))).contents
     assert set(written) == {"step.txt"}      # the format alone brings only its own file
 
 

@@ -320,7 +320,7 @@ def test_check_and_appendix_run_their_cases_under_the_memory_budget_too(tmp_path
                                                                         monkeypatch):
     """One batch worker for every command: `check` and `appendix` take --memory-budget
     and a case past it fails alone, named, like a case of `derive`."""
-    real_verify = closedform.derivation.verify
+    real_verify = check_run("verification")
     hoard = []
 
     def verify(derivation):
@@ -330,7 +330,7 @@ def test_check_and_appendix_run_their_cases_under_the_memory_budget_too(tmp_path
                 time.sleep(0.02)
         return real_verify(derivation)
 
-    monkeypatch.setattr(closedform.derivation, "verify", verify)
+    replace_check_run(monkeypatch, "verification", verify)
     cases = tmp_path / "cases"
     cases.mkdir()
     (cases / "a.toml").write_text(titled("Greedy"))
