@@ -203,6 +203,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
     """
     from .budget import time_budget as budget_for
 
+    if case.chain is not None:          # several masses: the modal route (closedform.chain)
+        from .chain import derive_chain
+        return derive_chain(case, time_budget=time_budget)
     with budget_for(time_budget, case.source) as budget:
         with budget.stage("model and poles"):
             model = build_model(case.system, case.symbol_values())

@@ -1,0 +1,591 @@
+"""Several masses: natural modes, and the modal equations solved by the scalar engine.
+
+Method (classical modal analysis, stated as theorems rather than copied from a text):
+
+* the undamped natural frequencies ω_r are the roots of the characteristic equation
+  det(K − ω²M) = 0, a polynomial of degree n in λ = ω² with exact rational coefficients.
+  It is factored over the rationals; a linear factor gives an exact ω_r = √λ_r, any other
+  factor is solved to 30 significant digits;
+* the mode shapes φ_r solve (K − λ_r M) φ_r = 0: exactly (rational null space, repeated
+  roots M-orthogonalised) for exact λ_r, at 50 digits from the symmetric eigenproblem
+  L⁻¹ K L⁻ᵀ (M = L Lᵀ) otherwise. Each shape is scaled so its largest entry is +1;
+* with x = Σ φ_r q_r, M-orthogonality of the shapes (φ_rᵀ M φ_s = 0, r ≠ s) turns the matrix
+  equation into one scalar equation per mode when the damping is classical (C Φ diagonal in
+  the modal basis: per-mode ratios, Rayleigh damping, or a damping matrix with
+  C M⁻¹ K = K M⁻¹ C, the Caughey–O'Kelly condition):
+  q_r″ + 2 ζ_r ω_r q_r′ + ω_r² q_r = p_r(t), p_r = φ_rᵀ f(t) / M_r (force) or
+  −Γ_r a_g(t) (support acceleration), M_r = φ_rᵀ M φ_r, Γ_r = φ_rᵀ M 1 / M_r;
+  each is solved by the scalar Laplace engine (``response.solve``) exactly as a one-mass
+  case is, and the responses are summed back: x_i = Σ_r φ_ir q_r;
+* a damping matrix that is not classical is solved without modes: X(s) = adj(A(s)) ·
+  [F(s) + M(s x₀ + v₀) + C x₀] / det A(s) with A(s) = M s² + C s + K. Every entry is a
+  rational function over the one characteristic polynomial det A(s) of degree 2n, so each
+  x_i is a sum of scalar problems P(s) X = N_ij(s) F_j(s) solved by the same engine (its
+  input polynomial N_ij = adj(A)_ij); the initial state enters as an impulse at t = 0
+  with the input polynomial adj(A)(M s x₀ + M v₀ + C x₀). The poles are the state-space
+  poles, the roots of det A(s) (exact where it factors into degree ≤ 2, else 30 digits).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass, replace
+from types import MappingProxyType
+from typing import Any
+
+import mpmath
+import sympy
+
+from . import quantities
+from .case import Case, SystemSpec
+from .chain_case import ChainSpec
+from .errors import DerivationError
+from .laplace import s
+from .loads import ImpulseTerm, LoadHistory, Rewrite, SingularityTerm, rewrite_loads
+from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, coefficient_policy, load_pieces, solve
+from .results import Extreme, extreme_magnitude, linear_combination, numeric_intervals, piece_functions
+from .systems import LinearModel, build_model
+
+LAMBDA = sympy.Symbol("lambda", positive=True)   # λ = ω² in the characteristic equation
+DIGITS = 30
+DEFAULT_PERIODS = 5
+
+
+@dataclass(frozen=True)
+class NaturalMode:
+    """One natural mode and its modal equation, with the scalar engine's solution of it.
+
+    ``shape`` has its largest entry +1; ``participation`` is Γ_r = φᵀM1/M_r and
+    ``effective_mass`` (φᵀM1)²/M_r (their sum over the modes is the total mass);
+    ``load_factors`` are φ_jr/M_r, the share of a force on mass j in p_r.
+    """
+
+    number: int
+    eigenvalue: sympy.Expr           # λ_r = ω_r²
+    omega: sympy.Expr
+    exact: bool
+    shape: tuple[sympy.Expr, ...]
+    modal_mass: sympy.Expr
+    modal_stiffness: sympy.Expr
+    damping_ratio: sympy.Expr
+    participation: sympy.Expr
+    effective_mass: sympy.Expr
+    load_factors: tuple[sympy.Expr, ...]
+    initial: tuple[sympy.Expr, sympy.Expr]
+    model: LinearModel | None = None
+    history: LoadHistory | None = None
+    solution: Solution | None = None
+
+
+@dataclass(frozen=True)
+class Response:
+    """One response history of the system: a mass's displacement, a spring's stretch, the
+    support reaction. ``kind`` is displacement | stretch | support-reaction."""
+
+    name: str                         # JSON name: x1, x2, …, e1, …, R
+    label: str
+    kind: str
+    pieces: tuple[Piece, ...]
+    peak: Extreme | None
+    stiffness: sympy.Expr | None = None    # springs: k, so the spring force is k·e
+    spring_force: Extreme | None = None
+
+
+@dataclass(frozen=True)
+class StateSpaceRoute:
+    """The non-classical route: det A(s), its poles, and for each (mass, input) the scalar
+    problem the engine solved."""
+
+    polynomial: sympy.Expr
+    model: LinearModel
+    adjugate: sympy.ImmutableMatrix
+    solutions: tuple[tuple[int, str, Solution], ...]   # (mass index, input name, solution)
+
+
+@dataclass(frozen=True)
+class ChainNumbers:
+    """The results of the watched mass in the shape the console line reads."""
+
+    peak: Extreme | None
+    static: float | None
+    dlf: float | None
+
+
+@dataclass(frozen=True)
+class ChainDerivation:
+    """Everything derived for a case of several masses, immutable."""
+
+    case: Case
+    chain: ChainSpec
+    route: str                          # "modal" | "state-space"
+    characteristic: sympy.Expr          # det(K − λM) (modal) or det(Ms² + Cs + K)
+    factored: sympy.Expr
+    modes: tuple[NaturalMode, ...]
+    state_space: StateSpaceRoute | None
+    damping_matrix: sympy.ImmutableMatrix    # the C of the equation (classical C for ratios)
+    history: LoadHistory
+    until: sympy.Expr
+    window_note: str
+    responses: tuple[Response, ...]
+    numbers: ChainNumbers
+    exact: bool
+    checks: tuple = ()
+    warnings: tuple[str, ...] = ()
+
+    @property
+    def masses(self) -> tuple[Response, ...]:
+        return tuple(r for r in self.responses if r.kind == "displacement")
+
+    @property
+    def springs(self) -> tuple[Response, ...]:
+        return tuple(r for r in self.responses if r.kind == "stretch")
+
+    @property
+    def reaction(self) -> Response:
+        return next(r for r in self.responses if r.kind == "support-reaction")
+
+    @property
+    def watched(self) -> Response:
+        return self.masses[self.chain.watch - 1]
+
+    @property
+    def pieces(self) -> tuple[Piece, ...]:
+        return self.watched.pieces
+
+    @property
+    def status(self) -> str:
+        return "verified" if self.checks and all(c.passed for c in self.checks) else "failed"
+
+    @property
+    def passed(self) -> bool:
+        return self.status == "verified"
+
+    def to_dict(self) -> dict[str, Any]:
+        from .chain_output import result_dictionary
+        return result_dictionary(self)
+
+    def to_json(self) -> str:
+        import json
+        return json.dumps(self.to_dict(), indent=2, allow_nan=False)
+
+
+# ----------------------------------------------------------------------------- modes
+
+
+def characteristic_polynomial(chain: ChainSpec) -> sympy.Poly:
+    """det(K − λM) as a polynomial in λ with exact rational coefficients."""
+    matrix = chain.stiffness_matrix - LAMBDA * chain.mass_matrix
+    return sympy.Poly(sympy.expand(matrix.det(method="berkowitz")), LAMBDA)
+
+
+def _numeric_eigen(mass: sympy.ImmutableMatrix, stiffness: sympy.ImmutableMatrix, dps: int = 50):
+    """Eigenvalues (rising) and M-orthonormal shapes of K φ = λ M φ at ``dps`` digits."""
+    n = mass.shape[0]
+    with mpmath.workdps(dps):
+        m = mpmath.matrix([[mpmath.mpf(sympy.Rational(mass[i, j]).p) / sympy.Rational(mass[i, j]).q
+                            for j in range(n)] for i in range(n)])
+        k = mpmath.matrix([[mpmath.mpf(sympy.Rational(stiffness[i, j]).p)
+                            / sympy.Rational(stiffness[i, j]).q for j in range(n)] for i in range(n)])
+        lower = mpmath.cholesky(m)
+        inverse = mpmath.inverse(lower)
+        a = inverse * k * inverse.T
+        a = (a + a.T) / 2
+        values, vectors = mpmath.eigsy(a)
+        order = sorted(range(n), key=lambda i: values[i])
+        shapes = inverse.T * vectors
+        return ([values[i] for i in order], [[shapes[j, i] for j in range(n)] for i in order])
+
+
+def _scaled_shape(vector: Sequence[Any]) -> list[Any]:
+    """The shape with its largest entry (by magnitude, the first such) equal to +1."""
+    magnitudes = [abs(sympy.N(v, 40)) if isinstance(v, sympy.Expr) else abs(v) for v in vector]
+    top = max(range(len(vector)), key=lambda i: (magnitudes[i], -i))
+    return [v / vector[top] for v in vector]
+
+
+def _float(value: Any) -> sympy.Float:
+    if isinstance(value, sympy.Expr):
+        return sympy.Float(sympy.N(value, DIGITS + 10), DIGITS)
+    return sympy.Float(mpmath.nstr(value, DIGITS + 10, strip_zeros=False), DIGITS)
+
+
+def natural_modes(chain: ChainSpec) -> tuple[sympy.Poly, sympy.Expr, list[tuple]]:
+    """(det(K − λM), its factored form, [(λ, exact, shape)] in rising order)."""
+    polynomial = characteristic_polynomial(chain)
+    _lead, factors = polynomial.factor_list()
+    mass, stiffness = chain.mass_matrix, chain.stiffness_matrix
+    numeric_values, numeric_shapes = _numeric_eigen(mass, stiffness)
+    found: list[tuple] = []
+    for factor, multiplicity in factors:
+        if factor.degree() == 1:
+            c = factor.all_coeffs()
+            value = sympy.nsimplify(-c[1] / c[0])
+            basis = (stiffness - value * mass).nullspace()
+            if len(basis) != multiplicity:
+                raise DerivationError(f"the null space of K − {value}·M has {len(basis)} "
+                                      f"vectors for a root of multiplicity {multiplicity}")
+            orthogonal: list[sympy.Matrix] = []
+            for vector in basis:
+                for other in orthogonal:
+                    vector = vector - (other.T * mass * vector)[0] / (other.T * mass * other)[0] * other
+                orthogonal.append(vector)
+            for vector in orthogonal:
+                found.append((value, True, tuple(sympy.nsimplify(v) for v in _scaled_shape(list(vector)))))
+        else:
+            for root in factor.nroots(n=DIGITS + 10, maxsteps=500):
+                value = sympy.Float(sympy.re(root), DIGITS)
+                for _ in range(multiplicity):
+                    found.append((value, False, None))
+    found.sort(key=lambda item: sympy.N(item[0], 40))
+    if len(found) != mass.shape[0]:
+        raise DerivationError("the characteristic equation did not give one root per mass")
+    result = []
+    taken: set[int] = set()
+    for value, exact, shape in found:
+        if shape is None:
+            index = min((i for i in range(len(numeric_values)) if i not in taken),
+                        key=lambda i: abs(numeric_values[i] - mpmath.mpf(str(value))))
+            taken.add(index)
+            with mpmath.workdps(50):
+                shape = tuple(_float(v) for v in _scaled_shape(numeric_shapes[index]))
+        else:
+            index = min((i for i in range(len(numeric_values)) if i not in taken),
+                        key=lambda i: abs(numeric_values[i] - mpmath.mpf(str(sympy.N(value, 40)))))
+            taken.add(index)
+        result.append((value, exact, shape))
+    return polynomial, sympy.factor(polynomial.as_expr()), result
+
+
+def classical_damping(chain: ChainSpec) -> bool:
+    """C M⁻¹ K = K M⁻¹ C (exactly): the damping matrix is diagonal in the modal basis."""
+    c = chain.damping_matrix
+    if c is None:
+        return True
+    m_inverse = chain.mass_matrix.inv()
+    difference = c * m_inverse * chain.stiffness_matrix - chain.stiffness_matrix * m_inverse * c
+    return all(sympy.nsimplify(entry) == 0 for entry in difference)
+
+
+def _modal_model(eigenvalue: sympy.Expr, ratio: sympy.Expr, number: int) -> LinearModel:
+    """q″ + 2ζω q′ + ω² q = p(t), through the scalar model builder (its poles and regime)."""
+    omega = sympy.sqrt(eigenvalue)
+    parameters = {"mass": sympy.S.One, "stiffness": eigenvalue,
+                  "damping": sympy.nsimplify(2 * ratio * omega) if not ratio.has(sympy.Float)
+                  else 2 * ratio * omega}
+    if ratio != 0:
+        parameters["damping_ratio"] = ratio
+    d = quantities.dimension
+    spec = SystemSpec("spring-mass-damper", MappingProxyType(parameters), None,
+                      d("force"), d("length"))
+    model = build_model(spec, {}, key_prefix="system")
+    return replace(model, variable=f"q_{number}", load_name=f"p_{number}")
+
+
+def scaled_history(history: LoadHistory, factor_of_load) -> LoadHistory:
+    """The load history with every term of load N multiplied by ``factor_of_load(N)`` (zero
+    factors kept, so that every mode has the same breakpoints)."""
+    rewrites = []
+    for rewrite in history.rewrites:
+        factor = factor_of_load(rewrite.load_number)
+        terms = tuple(replace(term, coefficient=term.coefficient * factor)
+                      if isinstance(term, SingularityTerm)
+                      else replace(term, impulse=term.impulse * factor)
+                      for term in rewrite.terms)
+        rewrites.append(Rewrite(rewrite.load_number, rewrite.shape, rewrite.rule, rewrite.source,
+                                terms))
+    return LoadHistory(tuple(rewrites))
+
+
+def _ratio_of_mode(chain: ChainSpec, index: int, eigenvalue, shape, modal_mass) -> sympy.Expr:
+    omega = sympy.sqrt(eigenvalue)
+    if chain.damping_source == "none":
+        return sympy.S.Zero
+    if chain.damping_ratios is not None:
+        return chain.damping_ratios[index]
+    phi = sympy.Matrix(shape)
+    value = (phi.T * chain.damping_matrix * phi)[0] / (2 * omega * modal_mass)
+    return value if value.has(sympy.Float) else sympy.radsimp(sympy.nsimplify(value))
+
+
+# ----------------------------------------------------------------------------- the derivation
+
+
+def _window(case: Case, chain: ChainSpec, slowest: sympy.Expr) -> tuple[sympy.Expr, str]:
+    if case.report.until is not None:
+        return case.report.until, "as given in [report] until"
+    ends = [start + load.length() for load in case.loads for start in load.starts()]
+    end = max(ends, key=lambda e: sympy.N(e, 30)) if ends else sympy.S.Zero
+    period = 2 * sympy.pi / slowest
+    until = sympy.nsimplify(end) + DEFAULT_PERIODS * period
+    if until.has(sympy.Float) or sympy.count_ops(until) > 12:
+        until = sympy.Float(sympy.N(until, DIGITS), DIGITS)
+    return until, (f"default: end of the last load plus {DEFAULT_PERIODS} times the longest "
+                   "natural period")
+
+
+def derive_chain(case: Case, *, time_budget: float | None = None) -> ChainDerivation:
+    """Derive, evaluate and check the response of a case of several masses."""
+    from .budget import time_budget as budget_for
+    from .chain_check import chain_checks
+
+    chain: ChainSpec = case.chain
+    with budget_for(time_budget, case.source) as budget:
+        with budget.stage("natural modes"):
+            polynomial, factored, roots = natural_modes(chain)
+        history = rewrite_loads(case.loads)
+        breakpoints = {t.at for t in history.terms} | {i.at for i in history.impulses}
+        classical = classical_damping(chain)
+        slowest = sympy.sqrt(roots[0][0])
+        until, note = _window(case, chain, slowest)
+        with budget.stage("modal equations (Laplace transform and assembly)"):
+            if classical:
+                exact = all(item[1] for item in roots) and len(breakpoints) <= EXACT_BREAKPOINT_LIMIT
+                modes = _modal_solutions(case, chain, roots, history, until, exact)
+                masses = _sum_modes(modes, exact)
+                damping = _classical_damping_matrix(chain, modes)
+                route, state_space, characteristic = "modal", None, polynomial.as_expr()
+            else:
+                modes = tuple(_mode_data(chain, i, value, exact_root, shape)
+                              for i, (value, exact_root, shape) in enumerate(roots))
+                state_space, masses, exact = _state_space(case, chain, history, until, breakpoints)
+                damping = chain.damping_matrix
+                route, characteristic = "state-space", state_space.polynomial
+                factored = sympy.factor(state_space.polynomial)
+        with budget.stage("results"):
+            responses = _responses(chain, masses, damping, until, exact)
+            numbers = _numbers(case, chain, history, responses, until)
+        partial = ChainDerivation(case, chain, route, characteristic, factored, modes,
+                                  state_space, damping, history, until, note, responses,
+                                  numbers, exact)
+        with budget.stage("verification"):
+            checks = tuple(chain_checks(partial))
+    return replace(partial, checks=checks, warnings=_warnings(case, partial))
+
+
+def _mode_data(chain: ChainSpec, index: int, value, exact: bool, shape) -> NaturalMode:
+    mass = chain.mass_matrix
+    phi = sympy.Matrix(shape)
+    modal_mass = (phi.T * mass * phi)[0]
+    ones = sympy.ones(mass.shape[0], 1)
+    loading = (phi.T * mass * ones)[0]
+    gamma = loading / modal_mass
+    ratio = _ratio_of_mode(chain, index, value, shape, modal_mass)
+    x0 = sympy.Matrix(chain.initial_displacements)
+    v0 = sympy.Matrix(chain.initial_velocities)
+    q0 = (phi.T * mass * x0)[0] / modal_mass
+    qd0 = (phi.T * mass * v0)[0] / modal_mass
+    return NaturalMode(index + 1, value, sympy.sqrt(value), exact, tuple(shape), modal_mass,
+                       value * modal_mass, ratio, gamma, loading**2 / modal_mass,
+                       tuple(v / modal_mass for v in shape), (q0, qd0))
+
+
+def _modal_solutions(case: Case, chain: ChainSpec, roots, history: LoadHistory, until,
+                     exact: bool) -> tuple[NaturalMode, ...]:
+    modes = []
+    for index, (value, exact_root, shape) in enumerate(roots):
+        mode = _mode_data(chain, index, value, exact_root, shape)
+        model = _modal_model(value, mode.damping_ratio, mode.number)
+        if chain.excitation == "force":
+            factors = mode.load_factors
+            modal_history = scaled_history(
+                history, lambda n, factors=factors: factors[chain.load_masses[n - 1] - 1])
+        else:
+            modal_history = scaled_history(history, lambda n, g=mode.participation: -g)
+        initial = None if all(v == 0 for v in mode.initial) else mode.initial
+        solution = solve(model, modal_history, initial, until, exact=exact)
+        modes.append(replace(mode, model=model, history=modal_history, solution=solution))
+    return tuple(modes)
+
+
+def _combine(parts: Sequence[tuple[sympy.Expr, Sequence[Piece]]], exact: bool) -> tuple[Piece, ...]:
+    """Σ factor · pieces, interval by interval (every part has the same breakpoints)."""
+    tidy = coefficient_policy(exact)
+    lengths = {len(p) for _f, p in parts}
+    if len(lengths) != 1:
+        raise DerivationError("the modal solutions do not share their breakpoints")
+    combined = []
+    for k in range(lengths.pop()):
+        first = parts[0][1][k]
+        local = None
+        for factor, pieces in parts:
+            term = pieces[k].local.scaled(factor)
+            local = term if local is None else local + term
+        local = local.map_coefficients(tidy)
+        numeric = None
+        if not exact:
+            with mpmath.workdps(DIGITS + 10):
+                numeric = linear_combination(
+                    [(mpmath.mpf(str(sympy.N(factor, DIGITS + 10))), pieces[k].numeric
+                      if pieces[k].numeric is not None else pieces[k].local.numeric())
+                     for factor, pieces in parts if factor != 0])
+        combined.append(Piece(first.start, first.end, local, numeric))
+    return tuple(combined)
+
+
+def _sum_modes(modes: Sequence[NaturalMode], exact: bool) -> list[tuple[Piece, ...]]:
+    n = len(modes)
+    return [_combine([(mode.shape[i], mode.solution.pieces) for mode in modes], exact)
+            for i in range(n)]
+
+
+def _classical_damping_matrix(chain: ChainSpec, modes: Sequence[NaturalMode]):
+    """The damping matrix of the equation: given, Rayleigh, or for per-mode ratios
+    C = M Φ diag(2ζ_r ω_r / M_r) Φᵀ M (the matrix whose modal damping is ζ_r)."""
+    if chain.damping_matrix is not None:
+        return chain.damping_matrix
+    n = chain.size
+    if chain.damping_source == "none":
+        return sympy.ImmutableMatrix(sympy.zeros(n, n))
+    phi = sympy.Matrix([[mode.shape[i] for mode in modes] for i in range(n)])
+    middle = sympy.diag(*[2 * mode.damping_ratio * mode.omega / mode.modal_mass for mode in modes])
+    matrix = chain.mass_matrix * phi * middle * phi.T * chain.mass_matrix
+    return sympy.ImmutableMatrix(matrix.applyfunc(
+        lambda e: e if e.has(sympy.Float) else sympy.radsimp(sympy.nsimplify(e))))
+
+
+def _state_space(case: Case, chain: ChainSpec, history: LoadHistory, until, breakpoints):
+    """The non-classical route: each x_i from P(s)X = adj(A)_ij F_j by the scalar engine."""
+    n = chain.size
+    mass, damping, stiffness = chain.mass_matrix, chain.damping_matrix, chain.stiffness_matrix
+    a = sympy.Matrix(mass * s**2 + damping * s + stiffness)
+    polynomial = sympy.expand(a.det(method="berkowitz"))
+    adjugate = sympy.ImmutableMatrix(a.adjugate().applyfunc(sympy.expand))
+    coefficients = sympy.Poly(polynomial, s).all_coeffs()
+    d = quantities.dimension
+    spec = SystemSpec("ode", MappingProxyType({f"a{len(coefficients) - 1 - i}": c
+                                               for i, c in enumerate(coefficients)}),
+                      None, d("force"), d("length"))
+    model = replace(build_model(spec, {}, key_prefix="system"), variable="x", load_name="f")
+    exact = model.exact_poles and len(breakpoints) <= EXACT_BREAKPOINT_LIMIT
+    solutions = []
+    x0 = sympy.Matrix(chain.initial_displacements)
+    v0 = sympy.Matrix(chain.initial_velocities)
+    initial_vector = mass * (s * x0 + v0) + damping * x0
+    start = LoadHistory((Rewrite(0, "impulse", "initial state", "transform of derivatives",
+                                 (ImpulseTerm(sympy.S.One, sympy.S.Zero, 0),)),))
+    combined = []
+    for i in range(n):
+        parts = []
+        if chain.excitation == "force":
+            inputs = {j: [r for r in history.rewrites if chain.load_masses[r.load_number - 1] == j + 1]
+                      for j in range(n)}
+            for j, rewrites in inputs.items():
+                numerator = adjugate[i, j]
+                parts.append((f"f_{j + 1}", numerator, LoadHistory(tuple(rewrites))))
+        else:
+            numerator = sympy.expand(-(adjugate * mass * sympy.ones(n, 1))[i])
+            parts.append(("a_g", numerator, history))
+        if not chain.at_rest:
+            parts.append(("initial state", sympy.expand((adjugate * initial_vector)[i]), start))
+        # every part carries all breakpoints (zero-coefficient copies of the other terms)
+        full = [(name, numerator, _with_all_times(sub, history)) for name, numerator, sub in parts]
+        pieces = []
+        for name, numerator, sub in full:
+            if numerator == 0:
+                continue
+            solution = solve(replace(model, input_scale=numerator), sub, None, until, exact=exact)
+            solutions.append((i, name, solution))
+            pieces.append((sympy.S.One, solution.pieces))
+        if not pieces:
+            zero = solve(replace(model, input_scale=sympy.S.Zero), _with_all_times(start, history),
+                         None, until, exact=exact)
+            pieces.append((sympy.S.Zero, zero.pieces))
+        combined.append(_combine(pieces, exact))
+    return StateSpaceRoute(polynomial, model, adjugate, tuple(solutions)), combined, exact
+
+
+def _with_all_times(sub: LoadHistory, history: LoadHistory) -> LoadHistory:
+    """``sub`` plus zero-coefficient copies of every other term of ``history`` and an
+    impulse of zero at t = 0, so that every scalar problem has the same breakpoints."""
+    kept = {id(r) for r in sub.rewrites}
+    zeros = [Rewrite(r.load_number, r.shape, r.rule, r.source,
+                     tuple(replace(term, coefficient=sympy.S.Zero) if isinstance(term, SingularityTerm)
+                           else replace(term, impulse=sympy.S.Zero) for term in r.terms))
+             for r in history.rewrites if id(r) not in kept]
+    return LoadHistory(tuple(sub.rewrites) + tuple(zeros))
+
+
+def _responses(chain: ChainSpec, masses, damping, until, exact: bool) -> tuple[Response, ...]:
+    n = chain.size
+    responses = []
+    for i in range(n):
+        responses.append(Response(f"x{i + 1}", f"mass {i + 1}", "displacement", masses[i],
+                                  _peak(masses[i], until)))
+    zero = [(sympy.S.Zero, masses[0])]
+    for spring in chain.springs:
+        parts = [(sympy.S.One, masses[spring.second - 1])]
+        if spring.first:
+            parts.append((sympy.S.NegativeOne, masses[spring.first - 1]))
+        pieces = _combine(parts or zero, exact)
+        peak = _peak(pieces, until)
+        force = None if peak is None else Extreme(
+            float(spring.stiffness) * peak.value, peak.time,
+            None if peak.value_mp is None else peak.value_mp * mpmath.mpf(str(sympy.N(spring.stiffness, 40))),
+            peak.time_mp)
+        where = "support" if spring.first == 0 else f"mass {spring.first}"
+        responses.append(Response(f"e{spring.number}", f"spring {spring.number} ({where} to mass "
+                                  f"{spring.second})", "stretch", pieces, peak, spring.stiffness,
+                                  force))
+    ones = sympy.ones(1, n)
+    k_row = ones * chain.stiffness_matrix
+    c_row = ones * damping
+    parts = [(k_row[j], masses[j]) for j in range(n) if k_row[j] != 0]
+    velocity = [tuple(Piece(p.start, p.end, p.local.derivative(),
+                            p.numeric.derivative() if p.numeric is not None else None)
+                      for p in masses[j]) for j in range(n)]
+    parts += [(c_row[j], velocity[j]) for j in range(n) if c_row[j] != 0]
+    reaction = _combine(parts or zero, exact)
+    responses.append(Response("R", "support reaction", "support-reaction", reaction,
+                              _peak(reaction, until)))
+    return tuple(responses)
+
+
+def _peak(pieces: Sequence[Piece], until) -> Extreme | None:
+    intervals = numeric_intervals(piece_functions(pieces), [p.start for p in pieces], until)
+    return extreme_magnitude(intervals)
+
+
+def _numbers(case: Case, chain: ChainSpec, history: LoadHistory, responses, until) -> ChainNumbers:
+    """The watched mass's peak, its static displacement under every load held at its own
+    largest value at once (force) or under the largest support acceleration, and the DLF."""
+    n = chain.size
+    watched = responses[chain.watch - 1]
+    vector = sympy.zeros(n, 1)
+    for load in case.loads:
+        rewrites = tuple(r for r in history.rewrites if r.load_number == load.number)
+        sub = LoadHistory(rewrites)
+        times = sorted({t.at for t in sub.terms} | {sympy.S.Zero}, key=lambda v: sympy.N(v, 40))
+        times = [t for t in times if sympy.N(t - until, 40) < 0]
+        if not sub.terms:
+            continue
+        locals_ = load_pieces(sub, times, exact=True)
+        largest = extreme_magnitude(numeric_intervals(locals_, times, until))
+        if largest is None:
+            continue
+        value = sympy.Float(largest.value, 17)
+        if chain.excitation == "force":
+            vector[chain.load_masses[load.number - 1] - 1] += value
+        else:
+            vector += -chain.mass_matrix * sympy.ones(n, 1) * value
+    static = None
+    if any(v != 0 for v in vector):
+        solution = chain.stiffness_matrix.inv() * vector
+        static = abs(float(solution[chain.watch - 1])) or None
+    peak = watched.peak
+    dlf = abs(peak.value) / static if (peak is not None and static) else None
+    return ChainNumbers(peak, static, dlf)
+
+
+def _warnings(case: Case, derivation: ChainDerivation) -> tuple[str, ...]:
+    warnings = []
+    peak = derivation.numbers.peak
+    until = float(sympy.N(derivation.until, 30))
+    if peak is not None and abs(peak.time - until) <= 1e-9 * until:
+        warnings.append(f"{case.source}: report.until: the peak of mass {derivation.chain.watch} "
+                        f"sits at the end of the analysis window (t = {until:.6g} s); the "
+                        "response may still grow after it (extend until)")
+    for load in case.loads:
+        if sympy.N(load.starts()[0] - derivation.until, 30) >= 0:
+            warnings.append(f"{case.source}: {load.key}: starts at or after the end of the "
+                            "analysis window and does not act on it")
+    return tuple(warnings)
