@@ -202,6 +202,10 @@ def audit(derivation) -> Audit:
     if not case.is_fully_valued:
         raise error("claims", "claims can be audited only when every symbol has a value")
     check_claim_names(claims, claimable, error)
+    if "response" in claims and getattr(derivation, "chain", None) is not None:
+        raise error("claims.response", "claimed formulas are not supported for several masses "
+                                       "(claim peak_mass_N, peak_stretch_N, … or values at "
+                                       "times of the watched mass)")
     tolerances = read_tolerances(claims, error)
     reader = quantity_reader(case)
     values = case.symbol_values()

@@ -67,7 +67,7 @@ class NaturalMode:
     shape: tuple[sympy.Expr, ...]
     modal_mass: sympy.Expr
     modal_stiffness: sympy.Expr
-    damping_ratio: sympy.Expr
+    damping_ratio: sympy.Expr | None     # None: non-classical damping couples the modes
     participation: sympy.Expr
     effective_mass: sympy.Expr
     load_factors: tuple[sympy.Expr, ...]
@@ -151,6 +151,11 @@ class ChainDerivation:
     @property
     def pieces(self) -> tuple[Piece, ...]:
         return self.watched.pieces
+
+    @property
+    def window(self):
+        from .derivation import Window
+        return Window(self.until, self.window_note)
 
     @property
     def status(self) -> str:
@@ -345,7 +350,9 @@ def derive_chain(case: Case, *, time_budget: float | None = None) -> ChainDeriva
                 damping = _classical_damping_matrix(chain, modes)
                 route, state_space, characteristic = "modal", None, polynomial.as_expr()
             else:
-                modes = tuple(_mode_data(chain, i, value, exact_root, shape)
+                # undamped modes for the sheet; the damping couples them (no modal ratio)
+                modes = tuple(replace(_mode_data(chain, i, value, exact_root, shape),
+                                      damping_ratio=None)
                               for i, (value, exact_root, shape) in enumerate(roots))
                 state_space, masses, exact = _state_space(case, chain, history, until, breakpoints)
                 damping = chain.damping_matrix

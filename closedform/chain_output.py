@@ -49,6 +49,20 @@ def _strict(value: Any) -> Any:
     return value
 
 
+def _poles(derivation) -> list[dict[str, Any]] | None:
+    """The state-space poles σ ± iω_d of det(Ms² + Cs + K) (non-classical damping only),
+    with ω = |pole| and ζ = −σ/|pole| of each."""
+    if derivation.state_space is None:
+        return None
+    poles = []
+    for pole in derivation.state_space.model.poles:
+        size = sympy.sqrt(pole.rate**2 + pole.frequency**2)
+        poles.append({"rate": _number(pole.rate), "frequency": _number(pole.frequency),
+                      "omega": _number(size), "damping_ratio": _number(-pole.rate / size),
+                      "multiplicity": pole.multiplicity})
+    return poles
+
+
 UNITS = {"displacement": "m", "stretch": "m", "support-reaction": "N"}
 
 
@@ -91,6 +105,7 @@ def result_dictionary(derivation) -> dict[str, Any]:
                    "participation": _number(m.participation),
                    "effective_mass": _number(m.effective_mass),
                    "modal_mass": _number(m.modal_mass)} for m in derivation.modes],
+        "poles": _poles(derivation),
         "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],
