@@ -224,7 +224,7 @@ def natural_modes(chain: ChainSpec) -> tuple[sympy.Poly, sympy.Expr, list[tuple]
     for factor, multiplicity in factors:
         if factor.degree() == 1:
             c = factor.all_coeffs()
-            value = sympy.nsimplify(-c[1] / c[0])
+            value = sympy.Rational(-c[1], c[0])
             basis = (stiffness - value * mass).nullspace()
             if len(basis) != multiplicity:
                 raise DerivationError(f"the null space of K − {value}·M has {len(basis)} "
@@ -235,7 +235,7 @@ def natural_modes(chain: ChainSpec) -> tuple[sympy.Poly, sympy.Expr, list[tuple]
                     vector = vector - (other.T * mass * vector)[0] / (other.T * mass * other)[0] * other
                 orthogonal.append(vector)
             for vector in orthogonal:
-                found.append((value, True, tuple(sympy.nsimplify(v) for v in _scaled_shape(list(vector)))))
+                found.append((value, True, tuple(sympy.simplify(v) for v in _scaled_shape(list(vector)))))
         else:
             for root in factor.nroots(n=DIGITS + 10, maxsteps=500):
                 value = sympy.Float(sympy.re(root), DIGITS)
@@ -268,15 +268,13 @@ def classical_damping(chain: ChainSpec) -> bool:
         return True
     m_inverse = chain.mass_matrix.inv()
     difference = c * m_inverse * chain.stiffness_matrix - chain.stiffness_matrix * m_inverse * c
-    return all(sympy.nsimplify(entry) == 0 for entry in difference)
+    return all(sympy.simplify(entry) == 0 for entry in difference)
 
 
 def _modal_model(eigenvalue: sympy.Expr, ratio: sympy.Expr, number: int) -> LinearModel:
     """q″ + 2ζω q′ + ω² q = p(t), through the scalar model builder (its poles and regime)."""
     omega = sympy.sqrt(eigenvalue)
-    parameters = {"mass": sympy.S.One, "stiffness": eigenvalue,
-                  "damping": sympy.nsimplify(2 * ratio * omega) if not ratio.has(sympy.Float)
-                  else 2 * ratio * omega}
+    parameters = {"mass": sympy.S.One, "stiffness": eigenvalue, "damping": 2 * ratio * omega}
     if ratio != 0:
         parameters["damping_ratio"] = ratio
     d = quantities.dimension
@@ -309,7 +307,7 @@ def _ratio_of_mode(chain: ChainSpec, index: int, eigenvalue, shape, modal_mass) 
         return chain.damping_ratios[index]
     phi = sympy.Matrix(shape)
     value = (phi.T * chain.damping_matrix * phi)[0] / (2 * omega * modal_mass)
-    return value if value.has(sympy.Float) else sympy.radsimp(sympy.nsimplify(value))
+    return value if value.has(sympy.Float) else sympy.radsimp(sympy.simplify(value))
 
 
 # ----------------------------------------------------------------------------- the derivation
@@ -321,7 +319,7 @@ def _window(case: Case, chain: ChainSpec, slowest: sympy.Expr) -> tuple[sympy.Ex
     ends = [start + load.length() for load in case.loads for start in load.starts()]
     end = max(ends, key=lambda e: sympy.N(e, 30)) if ends else sympy.S.Zero
     period = 2 * sympy.pi / slowest
-    until = sympy.nsimplify(end) + DEFAULT_PERIODS * period
+    until = end + DEFAULT_PERIODS * period
     if until.has(sympy.Float) or sympy.count_ops(until) > 12:
         until = sympy.Float(sympy.N(until, DIGITS), DIGITS)
     return until, (f"default: end of the last load plus {DEFAULT_PERIODS} times the longest "
@@ -447,7 +445,7 @@ def _classical_damping_matrix(chain: ChainSpec, modes: Sequence[NaturalMode]):
     middle = sympy.diag(*[2 * mode.damping_ratio * mode.omega / mode.modal_mass for mode in modes])
     matrix = chain.mass_matrix * phi * middle * phi.T * chain.mass_matrix
     return sympy.ImmutableMatrix(matrix.applyfunc(
-        lambda e: e if e.has(sympy.Float) else sympy.radsimp(sympy.nsimplify(e))))
+        lambda e: e if e.has(sympy.Float) else sympy.radsimp(sympy.simplify(e))))
 
 
 def _state_space(case: Case, chain: ChainSpec, history: LoadHistory, until, breakpoints):

@@ -1791,6 +1791,9 @@ def render_outputs(derivation, formats, stem: str) -> dict[str, str | bytes]:
     (the plots inside it), ``svg`` the SVG plots alone, ``json`` the result contract and
     ``csv`` the response sampled over the window.
     """
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own sheet
+        from .chain_sheet import render_outputs as chain_outputs
+        return chain_outputs(derivation, formats, stem)
     formats = list(formats)
     if "pdf" in formats:
         require_latex()   # before any work: name the missing tool
