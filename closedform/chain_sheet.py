@@ -236,7 +236,7 @@ def sheet_context(derivation, target: str, stem: str) -> dict[str, Any]:
             "ratio": _math(mode.damping_ratio) if mode.damping_ratio is not None else None,
             "participation": _math(mode.participation),
             "effective_mass": _math(mode.effective_mass),
-            "share": Math(f"{float(mode.effective_mass / total_mass) * 100:.2f} %"),
+            "share": f"{float(mode.effective_mass / total_mass) * 100:.2f} %",
         })
     effective_total = sum(mode.effective_mass for mode in derivation.modes)
 
