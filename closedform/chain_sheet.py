@@ -31,6 +31,7 @@ from .render import (
     number,
     ordered_terms,
     require_latex,
+    slug,
     typeset,
 )
 
@@ -339,23 +340,41 @@ def sheet_context(derivation, target: str, stem: str) -> dict[str, Any]:
     }
 
 
-def render_markdown(derivation, *, stem: str | None = None) -> str:
+def _numbering(derivation, stem: str, section: int | None, level: int) -> dict[str, Any]:
+    """Headings and numbers of the sheet, alone or as section ``section`` of an appendix."""
+    return {"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
+            "prefix": f"{section}." if section else "", "suffix": "" if section else ".",
+            "title_number": f"{section}. " if section else "",
+            "title_prefix": "" if derivation.passed else "FAILED — do not use: ",
+            "label": slug(stem), "label_anchor": f"case-{slug(stem)}" if section else None}
+
+
+def render_markdown(derivation, *, stem: str | None = None, section: int | None = None,
+                    level: int = 1) -> str:
+    """The sheet as Markdown; ``section`` and ``level`` number and nest it in an appendix."""
     stem = stem or (Path(derivation.case.source).stem or "case")
-    return make_environment("md").get_template("chain.md.j2").render(
-        sheet_context(derivation, "md", stem))
+    context = sheet_context(derivation, "md", stem) | _numbering(derivation, stem, section, level)
+    return make_environment("md").get_template("chain.md.j2").render(context)
 
 
-def render_latex(derivation, standalone: bool = True, *, stem: str | None = None) -> str:
+def render_latex(derivation, standalone: bool = True, *, stem: str | None = None,
+                 section: int | None = None) -> str:
+    """The sheet as a LaTeX document, or (``standalone=False``) a fragment from \\section."""
     stem = stem or (Path(derivation.case.source).stem or "case")
     environment = make_environment("tex")
-    context = sheet_context(derivation, "tex", stem)
+    context = sheet_context(derivation, "tex", stem) | _numbering(derivation, stem, section, 1)
     body = environment.get_template("chain.tex.j2").render(context)
     if not standalone:
         return body
     paper = {"a4": "a4paper", "letter": "letterpaper"}[derivation.case.report.paper]
     return environment.get_template("document.tex.j2").render(
         {"preamble": Math(latex_preamble()), "body": Math(body), "title": context["title"],
-         "status": context["status"], "label": "chain", "paper": Math(paper)})
+         "status": context["status"], "label": context["label"], "paper": Math(paper)})
+
+
+def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
+    """The plot of every mass as a ``fmt`` ("svg" or "pdf") file."""
+    return {figure_name(stem, fmt): _figure(derivation, fmt, Units(derivation.case))}
 
 
 def render_outputs(derivation, formats, stem: str) -> dict[str, str | bytes]:

@@ -1605,6 +1605,9 @@ def render_markdown(derivation, *, stem: str | None = None, section: int | None 
                     level: int = 1) -> str:
     """The sheet as Markdown with $…$ / $$…$$ math; figures are referenced as SVG files
     named after ``stem``. ``section`` and ``level`` number and nest it inside an appendix."""
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own sheet
+        from .chain_sheet import render_markdown as chain_markdown
+        return chain_markdown(derivation, stem=stem, section=section, level=level)
     context = sheet_context(derivation, "md", stem=stem, section=section)
     context.update({"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
                     "label_anchor": f"case-{context['label']}" if section else None})
@@ -1626,6 +1629,9 @@ def render_latex(derivation, standalone: bool = True, *, stem: str | None = None
     """The sheet as LaTeX: a complete document, or (``standalone=False``) a fragment that
     starts with \\section and can be \\input into an appendix whose preamble has
     :func:`latex_preamble`. Figures are referenced as PDF files named after ``stem``."""
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own sheet
+        from .chain_sheet import render_latex as chain_latex
+        return chain_latex(derivation, standalone, stem=stem, section=section)
     environment = make_environment("tex")
     context = sheet_context(derivation, "tex", stem=stem, section=section)
     body = environment.get_template("sheet.tex.j2").render(context)
@@ -1639,6 +1645,9 @@ def render_latex(derivation, standalone: bool = True, *, stem: str | None = None
 
 def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
     """The load and response plots of one sheet as ``fmt`` ("svg" or "pdf") files."""
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own plot
+        from .chain_sheet import figure_files as chain_figures
+        return chain_figures(derivation, stem, fmt)
     if not plots.plottable(derivation):
         return {}
     case = derivation.case
