@@ -47,11 +47,11 @@ def test_sheet_matches_its_golden_file(suffix):
 def test_sheet_shows_the_derivation_in_order():
     md = sheets()["md"]
     order = ["**Status: VERIFIED", "M = \\begin{bmatrix}", "K = \\begin{bmatrix}",
-             "\\det(K - \\lambda M) =", "## 3 Mode shapes and modal participation",
+             "\\det(K - \\lambda M) =", "## 3. Mode shapes and modal participation",
              "Sum of the effective modal masses: $8350$ kg; total mass $8350$ kg",
              "**Mode 1**", "**Mode 2**", "**mass 1**", "**mass 2**",
              "**spring 1 (support to mass 1)**", "**spring 2 (mass 1 to mass 2)**",
-             "peak support reaction", "## 7 Independent checks",
+             "peak support reaction", "## 7. Independent checks",
              "independent integration of the full system", render.CAUTION]
     positions = [md.index(text) for text in order]
     assert positions == sorted(positions)
