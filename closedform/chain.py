@@ -17,13 +17,14 @@ Method (classical modal analysis, stated as theorems rather than copied from a t
   −Γ_r a_g(t) (support acceleration), M_r = φ_rᵀ M φ_r, Γ_r = φ_rᵀ M 1 / M_r;
   each is solved by the scalar Laplace engine (``response.solve``) exactly as a one-mass
   case is, and the responses are summed back: x_i = Σ_r φ_ir q_r;
-* a damping matrix that is not classical is solved without modes: X(s) = adj(A(s)) ·
-  [F(s) + M(s x₀ + v₀) + C x₀] / det A(s) with A(s) = M s² + C s + K. Every entry is a
-  rational function over the one characteristic polynomial det A(s) of degree 2n, so each
-  x_i is a sum of scalar problems P(s) X = N_ij(s) F_j(s) solved by the same engine (its
-  input polynomial N_ij = adj(A)_ij); the initial state enters as an impulse at t = 0
-  with the input polynomial adj(A)(M s x₀ + M v₀ + C x₀). The poles are the state-space
-  poles, the roots of det A(s) (exact where it factors into degree ≤ 2, else 30 digits).
+* a damping matrix that is not classical is solved by complex modes of the state
+  equation y′ = A y + b(t), y = (x, x′): A = Ψ diag(p_k) Ψ⁻¹ (50-digit eigen-decomposition,
+  poles and vectors carried at 30 digits; the poles are the roots of det(Ms² + Cs + K)),
+  z_k = l_k y with z_k′ = p_k z_k + l_k b. For a conjugate pair the real and imaginary
+  parts of z_k obey real second-order equations with an input derivative,
+  η″ − 2σ η′ + |p|² η = part(c) g′ − part(p̄ c) g, each solved by the same scalar engine
+  (input polynomial s or 1); a real pole gives z′ − p z = c g. Then
+  x_i = Σ 2(Re ψ_ik Re z_k − Im ψ_ik Im z_k) (+ ψ_ik z_k for real poles).
 """
 
 from __future__ import annotations
@@ -40,8 +41,8 @@ from . import quantities
 from .case import Case, SystemSpec
 from .chain_case import ChainSpec
 from .errors import DerivationError
-from .laplace import s
-from .loads import ImpulseTerm, LoadHistory, Rewrite, SingularityTerm, rewrite_loads
+from .laplace import Pole, s
+from .loads import LoadHistory, Rewrite, SingularityTerm, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, coefficient_policy, load_pieces, solve
 from .results import Extreme, extreme_magnitude, linear_combination, numeric_intervals, piece_functions
 from .systems import LinearModel, build_model
@@ -92,14 +93,23 @@ class Response:
 
 
 @dataclass(frozen=True)
+class ComplexMode:
+    """One state-space pole σ ± iω_d (frequency 0: a real pole) and the scalar problems
+    the engine solved for its modal coordinate."""
+
+    number: int
+    rate: sympy.Expr
+    frequency: sympy.Expr
+    model: LinearModel
+    solutions: tuple[tuple[str, Solution], ...]
+
+
+@dataclass(frozen=True)
 class StateSpaceRoute:
-    """The non-classical route: det A(s), its poles, and for each (mass, input) the scalar
-    problem the engine solved."""
+    """The non-classical route: det(Ms² + Cs + K) and the complex modes."""
 
     polynomial: sympy.Expr
-    model: LinearModel
-    adjugate: sympy.ImmutableMatrix
-    solutions: tuple[tuple[int, str, Solution], ...]   # (mass index, input name, solution)
+    modes: tuple[ComplexMode, ...]
 
 
 @dataclass(frozen=True)
@@ -352,7 +362,7 @@ def derive_chain(case: Case, *, time_budget: float | None = None) -> ChainDeriva
                 modes = tuple(replace(_mode_data(chain, i, value, exact_root, shape),
                                       damping_ratio=None)
                               for i, (value, exact_root, shape) in enumerate(roots))
-                state_space, masses, exact = _state_space(case, chain, history, until, breakpoints)
+                state_space, masses, exact = _state_space(case, chain, history, until)
                 damping = chain.damping_matrix
                 route, characteristic = "state-space", state_space.polynomial
                 factored = sympy.factor(state_space.polynomial)
@@ -448,66 +458,107 @@ def _classical_damping_matrix(chain: ChainSpec, modes: Sequence[NaturalMode]):
         lambda e: e if e.has(sympy.Float) else sympy.radsimp(sympy.simplify(e))))
 
 
-def _state_space(case: Case, chain: ChainSpec, history: LoadHistory, until, breakpoints):
-    """The non-classical route: each x_i from P(s)X = adj(A)_ij F_j by the scalar engine."""
+def _state_space(case: Case, chain: ChainSpec, history: LoadHistory, until):
+    """The non-classical route: complex modes of the state equation, each conjugate pair
+    written as real second-order equations solved by the scalar engine.
+
+    With y = (x, x′), y′ = A y + b(t) and A = Ψ diag(p) Ψ⁻¹ (rows l_k of Ψ⁻¹), the modal
+    coordinate z_k = l_k y obeys z_k′ = p_k z_k + l_k b(t). For a pair p, p̄ the real and
+    imaginary parts η of z obey (D − p)(D − p̄) η = part[(D − p̄) l b], i.e.
+    η″ − 2σ η′ + |p|² η = part(c) g′ − part(p̄ c) g for an input c·g(t); a real pole gives
+    z′ − p z = c g. Then x_i = Σ_pairs 2(Re ψ_ik Re z_k − Im ψ_ik Im z_k) + Σ_real ψ_ik z_k.
+    """
     n = chain.size
     mass, damping, stiffness = chain.mass_matrix, chain.damping_matrix, chain.stiffness_matrix
-    a = sympy.Matrix(mass * s**2 + damping * s + stiffness)
-    polynomial = sympy.expand(a.det(method="berkowitz"))
-    adjugate = sympy.ImmutableMatrix(a.adjugate().applyfunc(sympy.expand))
-    coefficients = sympy.Poly(polynomial, s).all_coeffs()
-    d = quantities.dimension
-    spec = SystemSpec("ode", MappingProxyType({f"a{len(coefficients) - 1 - i}": c
-                                               for i, c in enumerate(coefficients)}),
-                      None, d("force"), d("length"))
-    model = replace(build_model(spec, {}, key_prefix="system"), variable="x", load_name="f")
-    exact = model.exact_poles and len(breakpoints) <= EXACT_BREAKPOINT_LIMIT
-    solutions = []
-    x0 = sympy.Matrix(chain.initial_displacements)
-    v0 = sympy.Matrix(chain.initial_velocities)
-    initial_vector = mass * (s * x0 + v0) + damping * x0
-    start = LoadHistory((Rewrite(0, "impulse", "initial state", "transform of derivatives",
-                                 (ImpulseTerm(sympy.S.One, sympy.S.Zero, 0),)),))
-    combined = []
-    for i in range(n):
-        parts = []
+    polynomial = sympy.expand(sympy.Matrix(mass * s**2 + damping * s + stiffness).det(
+        method="berkowitz"))
+    with mpmath.workdps(50):
+        def mp(value):
+            return mpmath.mpf(sympy.Rational(value).p) / sympy.Rational(value).q
+        m_inverse = mpmath.inverse(mpmath.matrix([[mp(mass[i, j]) for j in range(n)]
+                                                  for i in range(n)]))
+        k = mpmath.matrix([[mp(stiffness[i, j]) for j in range(n)] for i in range(n)])
+        c = mpmath.matrix([[mp(damping[i, j]) for j in range(n)] for i in range(n)])
+        a = mpmath.zeros(2 * n, 2 * n)
+        lower_k, lower_c = -m_inverse * k, -m_inverse * c
+        for i in range(n):
+            a[i, n + i] = 1
+            for j in range(n):
+                a[n + i, j], a[n + i, n + j] = lower_k[i, j], lower_c[i, j]
+        values, right = mpmath.eig(a)
+        left = mpmath.inverse(right)
+        y0 = mpmath.matrix([mp(v) for v in chain.initial_displacements]
+                           + [mp(v) for v in chain.initial_velocities])
         if chain.excitation == "force":
-            inputs = {j: [r for r in history.rewrites if chain.load_masses[r.load_number - 1] == j + 1]
+            inputs = {j + 1: mpmath.matrix([0] * n + [m_inverse[i, j] for i in range(n)])
                       for j in range(n)}
-            for j, rewrites in inputs.items():
-                numerator = adjugate[i, j]
-                parts.append((f"f_{j + 1}", numerator, LoadHistory(tuple(rewrites))))
         else:
-            numerator = sympy.expand(-(adjugate * mass * sympy.ones(n, 1))[i])
-            parts.append(("a_g", numerator, history))
-        if not chain.at_rest:
-            parts.append(("initial state", sympy.expand((adjugate * initial_vector)[i]), start))
-        # every part carries all breakpoints (zero-coefficient copies of the other terms)
-        full = [(name, numerator, _with_all_times(sub, history)) for name, numerator, sub in parts]
-        pieces = []
-        for name, numerator, sub in full:
-            if numerator == 0:
-                continue
-            solution = solve(replace(model, input_scale=numerator), sub, None, until, exact=exact)
-            solutions.append((i, name, solution))
-            pieces.append((sympy.S.One, solution.pieces))
-        if not pieces:
-            zero = solve(replace(model, input_scale=sympy.S.Zero), _with_all_times(start, history),
-                         None, until, exact=exact)
-            pieces.append((sympy.S.Zero, zero.pieces))
-        combined.append(_combine(pieces, exact))
-    return StateSpaceRoute(polynomial, model, adjugate, tuple(solutions)), combined, exact
+            inputs = {None: mpmath.matrix([0] * n + [-1] * n)}
+        chosen = []
+        for index, value in enumerate(values):
+            scale = abs(value)
+            if abs(value.imag) <= mpmath.mpf(10) ** -35 * scale:
+                chosen.append((index, False))
+            elif value.imag > 0:
+                chosen.append((index, True))
+        for first, (i, _pi) in enumerate(chosen):
+            for j, _pj in chosen[first + 1:]:
+                if abs(values[i] - values[j]) <= mpmath.mpf(10) ** -25 * abs(values[i]):
+                    raise DerivationError("repeated state-space poles (a defective or repeated "
+                                          "complex mode) are not supported; perturb the damping")
+        pairs, contributions = [], [[] for _ in range(n)]
+        for number, (index, is_pair) in enumerate(chosen, start=1):
+            p = values[index]
+            z0 = sum(left[index, q] * y0[q] for q in range(2 * n))
+            factors = {key: sum(left[index, q] * vector[q] for q in range(2 * n))
+                       for key, vector in inputs.items()}
+            psi = [right[i, index] for i in range(n)]
+            rate, frequency = _sympy_float(p.real), _sympy_float(p.imag) if is_pair else sympy.S.Zero
+            solutions = []
+            if is_pair:
+                model = LinearModel("ode", f"eta_{number}", f"g_{number}",
+                                    (sympy.S.One, -2 * rate, rate**2 + frequency**2), sympy.S.One,
+                                    sympy.S.One, (Pole(rate, frequency),), "under-damped", False)
+                for part, weight in (("re", [2 * v.real for v in psi]),
+                                     ("im", [-2 * v.imag for v in psi])):
+                    def take(value, part=part):
+                        return _sympy_float(value.real if part == "re" else value.imag)
+                    derivative = scaled_history(history, lambda n_, f=factors, t=take:
+                                                t(f[_input_key(chain, n_)]))
+                    direct = scaled_history(history, lambda n_, f=factors, t=take, p=p:
+                                            -t(mpmath.conj(p) * f[_input_key(chain, n_)]))
+                    initial = (take(z0), take(p * z0))
+                    initial = None if all(v == 0 for v in initial) else initial
+                    for name, scale, sub, start in (("s", s, derivative, None),
+                                                    ("1", sympy.S.One, direct, initial)):
+                        solution = solve(replace(model, input_scale=scale), sub, start, until,
+                                         exact=False)
+                        solutions.append((f"{part} z_{number}, input {name}", solution))
+                        for i in range(n):
+                            contributions[i].append((_sympy_float(weight[i]), solution.pieces))
+            else:
+                model = LinearModel("ode", f"z_{number}", f"g_{number}", (sympy.S.One, -rate),
+                                    sympy.S.One, sympy.S.One, (Pole(rate, sympy.S.Zero),),
+                                    "first-order", False)
+                sub = scaled_history(history, lambda n_, f=factors:
+                                     _sympy_float(f[_input_key(chain, n_)].real))
+                initial = (_sympy_float(z0.real),)
+                solution = solve(model, sub, None if initial[0] == 0 else initial, until,
+                                 exact=False)
+                solutions.append((f"z_{number}", solution))
+                for i in range(n):
+                    contributions[i].append((_sympy_float(psi[i].real), solution.pieces))
+            pairs.append(ComplexMode(number, rate, frequency, model, tuple(solutions)))
+    masses = [_combine(parts, False) for parts in contributions]
+    return StateSpaceRoute(polynomial, tuple(pairs)), masses, False
 
 
-def _with_all_times(sub: LoadHistory, history: LoadHistory) -> LoadHistory:
-    """``sub`` plus zero-coefficient copies of every other term of ``history`` and an
-    impulse of zero at t = 0, so that every scalar problem has the same breakpoints."""
-    kept = {id(r) for r in sub.rewrites}
-    zeros = [Rewrite(r.load_number, r.shape, r.rule, r.source,
-                     tuple(replace(term, coefficient=sympy.S.Zero) if isinstance(term, SingularityTerm)
-                           else replace(term, impulse=sympy.S.Zero) for term in r.terms))
-             for r in history.rewrites if id(r) not in kept]
-    return LoadHistory(tuple(sub.rewrites) + tuple(zeros))
+def _input_key(chain: ChainSpec, load_number: int):
+    return chain.load_masses[load_number - 1] if chain.excitation == "force" else None
+
+
+def _sympy_float(value) -> sympy.Float:
+    return sympy.Float(mpmath.nstr(value, DIGITS + 10, strip_zeros=False), DIGITS)
 
 
 def _responses(chain: ChainSpec, masses, damping, until, exact: bool) -> tuple[Response, ...]:

@@ -55,11 +55,10 @@ def _poles(derivation) -> list[dict[str, Any]] | None:
     if derivation.state_space is None:
         return None
     poles = []
-    for pole in derivation.state_space.model.poles:
+    for pole in derivation.state_space.modes:
         size = sympy.sqrt(pole.rate**2 + pole.frequency**2)
         poles.append({"rate": _number(pole.rate), "frequency": _number(pole.frequency),
-                      "omega": _number(size), "damping_ratio": _number(-pole.rate / size),
-                      "multiplicity": pole.multiplicity})
+                      "omega": _number(size), "damping_ratio": _number(-pole.rate / size)})
     return poles
 
 

@@ -272,13 +272,17 @@ def sheet_context(derivation, target: str, stem: str) -> dict[str, Any]:
     state_space = None
     if derivation.state_space is not None:
         route = derivation.state_space
-        poles = "; ".join(
-            f"{typeset(_rounded(p.rate))} \\pm {typeset(_rounded(p.frequency))}\\,i"
-            if p.is_pair else str(typeset(_rounded(p.rate))) for p in route.model.poles)
-        state_space = {"poles": inline(poles), "count": len(route.solutions),
-                       "adjugate": [display(rf"N_{{{i + 1}{j + 1}}}(s)",
-                                            _terms(route.adjugate[i, j]))
-                                    for i in range(n) for j in range(n)]}
+        poles = []
+        for pole in route.modes:
+            size = sympy.sqrt(pole.rate**2 + pole.frequency**2)
+            poles.append({"number": pole.number,
+                          "pole": inline(f"{typeset(_rounded(pole.rate))} \\pm "
+                                         f"{typeset(_rounded(pole.frequency))}\\,i")
+                          if pole.frequency != 0 else _math(pole.rate),
+                          "omega": _math(size), "ratio": _math(-pole.rate / size),
+                          "equation": inline(typeset(_rounded(pole.model.characteristic_polynomial())))})
+        state_space = {"poles": poles,
+                       "count": sum(len(pole.solutions) for pole in route.modes)}
 
     # responses and results ---------------------------------------------------------
     responses = []
