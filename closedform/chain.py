@@ -540,14 +540,19 @@ def _state_space(case: Case, chain: ChainSpec, history: LoadHistory, until):
                 model = LinearModel("ode", f"z_{number}", f"g_{number}", (sympy.S.One, -rate),
                                     sympy.S.One, sympy.S.One, (Pole(rate, sympy.S.Zero),),
                                     "first-order", False)
-                sub = scaled_history(history, lambda n_, f=factors:
-                                     _sympy_float(f[_input_key(chain, n_)].real))
-                initial = (_sympy_float(z0.real),)
-                solution = solve(model, sub, None if initial[0] == 0 else initial, until,
-                                 exact=False)
-                solutions.append((f"z_{number}", solution))
-                for i in range(n):
-                    contributions[i].append((_sympy_float(psi[i].real), solution.pieces))
+                # the eigenvector may carry any complex phase: z = Re z + i Im z, both real,
+                # each obeys z′ − p z = part(c) g, and x_i gets Re(ψ_ik z_k)
+                for part, weight in (("re", [v.real for v in psi]), ("im", [-v.imag for v in psi])):
+                    def take(value, part=part):
+                        return _sympy_float(value.real if part == "re" else value.imag)
+                    sub = scaled_history(history, lambda n_, f=factors, t=take:
+                                         t(f[_input_key(chain, n_)]))
+                    initial = (take(z0),)
+                    solution = solve(model, sub, None if initial[0] == 0 else initial, until,
+                                     exact=False)
+                    solutions.append((f"{part} z_{number}", solution))
+                    for i in range(n):
+                        contributions[i].append((_sympy_float(weight[i]), solution.pieces))
             pairs.append(ComplexMode(number, rate, frequency, model, tuple(solutions)))
     masses = [_combine(parts, False) for parts in contributions]
     return StateSpaceRoute(polynomial, tuple(pairs)), masses, False

@@ -290,3 +290,72 @@ def test_every_mass_is_claimable_by_number(tmp_path, capsys):
     assert out.startswith("peak_mass_1: claimed") and "confirmed" in out.splitlines()[0]
     assert "peak_spring_force_2" in out and "REFUTED" in out
     assert out.splitlines()[-1] == "1 confirmed, 1 refuted"
+
+
+def test_non_classical_damping_with_real_poles_matches_solve_ivp():
+    """A large damper between two masses gives two real (over-damped) state-space poles
+    besides one pair; the closed form is compared with scipy.integrate.solve_ivp (reference
+    library, DOP853, rtol 1e-12) of M u″ + C u′ + K u = −M·1·a_g, started from u2(0) = 10 mm."""
+    from scipy.integrate import solve_ivp
+
+    case = closedform.load_case({
+        "title": "t", "system": {"model": "chain", "masses": ["1 kg", "1 kg"],
+                                 "stiffnesses": ["100 N/m", "100 N/m"],
+                                 "dampers": ["0 N*s/m", "60 N*s/m"],
+                                 "excitation": "support-acceleration"},
+        "initial": {"displacements": ["0 m", "0.01 m"]},
+        "load": [{"shape": "ramp", "rate": "20 m/s^3", "duration": "0.1 s"}],
+        "report": {"until": "3 s", "watch": 2}})
+    derivation = closedform.derive(case)
+    assert derivation.route == "state-space" and derivation.status == "verified"
+    assert sum(1 for p in derivation.to_dict()["poles"] if p["frequency"] == 0) == 2
+
+    def rate(t, y):
+        a_g = 20 * min(t, 0.1)
+        x1, x2, v1, v2 = y
+        return [v1, v2, -(200 * x1 - 100 * x2 - 60 * (v2 - v1)) - a_g,
+                -(100 * (x2 - x1) + 60 * (v2 - v1)) - a_g]
+
+    times = [0.05, 0.5, 1.0, 2.5]
+    reference = solve_ivp(rate, (0, 3), [0, 0.01, 0, 0], method="DOP853", rtol=1e-12,
+                          atol=1e-15, t_eval=times, max_step=0.01)
+    x2 = derivation.masses[1]
+    for time, expected in zip(times, reference.y[1]):
+        piece = max((p for p in x2.pieces if float(p.start) <= time), key=lambda p: float(p.start))
+        value = float(piece.local.numeric()(time - float(piece.start)))
+        assert value == pytest.approx(expected, rel=1e-8, abs=1e-12)
+
+
+def test_damping_ratio_per_mode():
+    case = closedform.load_case({
+        "title": "t", "system": {"model": "chain", "masses": ["2 kg", "1 kg"],
+                                 "stiffnesses": ["400 N/m", "200 N/m"],
+                                 "damping_ratio": [0.01, 0.05]},
+        "load": [{"mass": 2, "shape": "impulse", "impulse": "1 N*s"}],
+        "report": {"until": "1 s"}})
+    derivation = closedform.derive(case)
+    assert derivation.status == "verified"
+    assert [m.damping_ratio for m in derivation.modes] == [sympy.Rational(1, 100),
+                                                          sympy.Rational(1, 20)]
+    assert derivation.exact
+
+
+@pytest.mark.parametrize(("text", "expected"), [
+    (BASE.replace('masses = ["1200 kg", "300 kg"]', 'masses = ["1 kg", "1 kg", "1 kg", "1 kg", '
+                  '"1 kg", "1 kg", "1 kg"]'),
+     "case.toml:4: system.masses: too many masses (at most 6, got 7)"),
+    (BASE.replace("damping_ratio = 0.02", "damping_ratio = [0.02]"),
+     "case.toml:6: system.damping_ratio: expected one number for every mode or a list of 2, "
+     "one per mode, got 1"),
+    (BASE.replace("damping_ratio = 0.02", 'damping_ratio = 0.02\ndampers = ["1 kN*s/m", '
+                  '"1 kN*s/m"]'),
+     "case.toml:6: system.damping_ratio: give one of dampers and damping_ratio, not both"),
+    ('title = "x"\n[symbols]\nm = "kg"\n' + BASE.split("\n", 1)[1],
+     "case.toml:2: symbols: several masses need numbers; [symbols] are not supported for the "
+     "chain and matrix models"),
+    (BASE.replace('excitation', 'x').replace("damping_ratio = 0.02",
+                                             'damping_ratio = 0.02\nexcitation = "support"'),
+     "case.toml:7: system.excitation: expected one of force, support-acceleration, got 'support'"),
+], ids=["seven masses", "ratio list", "two dampings", "symbols", "excitation"])
+def test_more_bad_input(tmp_path, capsys, text, expected):
+    test_bad_input_is_one_located_line(tmp_path, capsys, text, expected)
