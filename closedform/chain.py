@@ -175,6 +175,51 @@ class ChainDerivation:
     def passed(self) -> bool:
         return self.status == "verified"
 
+    def response_names(self) -> tuple[str, ...]:
+        """The names ``evaluate(times, response=…)`` accepts: x1…, e1…, R."""
+        return tuple(r.name for r in self.responses)
+
+    def evaluate(self, times, derivative: int = 0, *, response: str | None = None):
+        """A response at ``times`` (s, inside [0, until]) from the closed-form pieces, SI.
+
+        Parameters
+        ----------
+        times : array_like
+            Times in seconds; at a breakpoint the piece that starts there is used.
+        derivative : int, optional
+            0 for the value, 1 for the first time derivative, and so on.
+        response : str, optional
+            ``x1``, ``x2``, … (masses), ``e1``, … (spring stretches), ``R`` (support
+            reaction); default the watched mass.
+
+        Returns
+        -------
+        numpy.ndarray
+            float64 values, the shape of ``times``.
+        """
+        import numpy
+
+        from .errors import ClosedformError
+
+        name = response or self.watched.name
+        chosen = next((r for r in self.responses if r.name == name), None)
+        if chosen is None:
+            raise ClosedformError(f"no response {name!r} (expected one of: "
+                                  f"{', '.join(self.response_names())})")
+        grid = numpy.asarray(times, dtype=float)
+        starts = numpy.array([float(sympy.N(p.start, 30)) for p in chosen.pieces])
+        index = numpy.clip(numpy.searchsorted(starts, grid, side="right") - 1, 0, None)
+        values = numpy.zeros_like(grid)
+        for k, piece in enumerate(chosen.pieces):
+            mask = index == k
+            if not mask.any():
+                continue
+            function = piece.numeric if piece.numeric is not None else piece.local.numeric()
+            for _ in range(derivative):
+                function = function.derivative()
+            values[mask] = function.evaluate_float(grid[mask] - starts[k])
+        return values
+
     def to_dict(self) -> dict[str, Any]:
         from .chain_output import result_dictionary
         return result_dictionary(self)

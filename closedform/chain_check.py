@@ -501,8 +501,9 @@ def _integration_check(derivation, histories: Histories, loading: Loading, m, c,
     passed = math.isfinite(relative) and relative <= INTEGRATION_TOLERANCE
     at = f" (mass {where[1]} at t = {where[0]:.6g} s)" if where else ""
     return Check("independent integration of the full system", passed,
-                 f"state-space y′ = A y + B f(t) stepped by the matrix exponential with "
-                 f"8-point Gauss–Legendre load integrals (30 digits), {len(samples)} times, "
+                 f"state-space y′ = A y + B f(t) stepped by the matrix exponential, loads "
+                 f"linear in time convolved exactly, others by 8-point Gauss–Legendre (30 "
+                 f"digits), {len(samples)} times, "
                  f"every mass: max deviation {relative:.1e} of the largest |x|{at} "
                  f"(limit {INTEGRATION_TOLERANCE:.0e})")
 

@@ -359,3 +359,17 @@ def test_damping_ratio_per_mode():
 ], ids=["seven masses", "ratio list", "two dampings", "symbols", "excitation"])
 def test_more_bad_input(tmp_path, capsys, text, expected):
     test_bad_input_is_one_located_line(tmp_path, capsys, text, expected)
+
+
+def test_python_evaluate_every_response():
+    """``evaluate`` reads the pieces: the stretch of spring
+    2 is x2 − x1, and its derivative is the finite-difference slope (central, h = 1e-7 s)."""
+    derivation = closedform.derive(closedform.load_case_text(BASE))
+    assert derivation.response_names() == ("x1", "x2", "e1", "e2", "R")
+    times = numpy.array([0.002, 0.03, 0.11])
+    x1, x2 = derivation.evaluate(times, response="x1"), derivation.evaluate(times)
+    assert numpy.allclose(derivation.evaluate(times, response="e2"), x2 - x1, rtol=1e-12,
+                          atol=1e-18)
+    h = 1e-7
+    slope = (derivation.evaluate(times + h) - derivation.evaluate(times - h)) / (2 * h)
+    assert numpy.allclose(derivation.evaluate(times, 1), slope, rtol=1e-6)
