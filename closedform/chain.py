@@ -44,7 +44,7 @@ from .errors import DerivationError
 from .laplace import Pole, s
 from .loads import LoadHistory, Rewrite, SingularityTerm, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, coefficient_policy, load_pieces, solve
-from .results import Extreme, extreme_magnitude, linear_combination, numeric_intervals, piece_functions
+from .results import Extreme, extreme_magnitude, numeric_intervals, piece_functions
 from .systems import LinearModel, build_model
 
 LAMBDA = sympy.Symbol("lambda", positive=True)   # λ = ω² in the characteristic equation
@@ -128,7 +128,7 @@ class ChainDerivation:
     case: Case
     chain: ChainSpec
     route: str                          # "modal" | "state-space"
-    characteristic: sympy.Expr          # det(K − λM) (modal) or det(Ms² + Cs + K)
+    characteristic: sympy.Expr          # det(K − λM); det(Ms² + Cs + K) is on state_space
     factored: sympy.Expr
     modes: tuple[NaturalMode, ...]
     state_space: StateSpaceRoute | None
@@ -409,8 +409,7 @@ def derive_chain(case: Case, *, time_budget: float | None = None) -> ChainDeriva
                               for i, (value, exact_root, shape) in enumerate(roots))
                 state_space, masses, exact = _state_space(case, chain, history, until)
                 damping = chain.damping_matrix
-                route, characteristic = "state-space", state_space.polynomial
-                factored = sympy.factor(state_space.polynomial)
+                route, characteristic = "state-space", polynomial.as_expr()
         with budget.stage("results"):
             responses = _responses(chain, masses, damping, until, exact)
             numbers = _numbers(case, chain, history, responses, until)
@@ -467,19 +466,30 @@ def _combine(parts: Sequence[tuple[sympy.Expr, Sequence[Piece]]], exact: bool) -
     for k in range(lengths.pop()):
         first = parts[0][1][k]
         local = None
-        for factor, pieces in parts:
-            term = pieces[k].local.scaled(factor)
+        terms = [pieces[k].local.scaled(factor) for factor, pieces in parts]
+        for term in terms:
             local = term if local is None else local + term
         local = local.map_coefficients(tidy)
         numeric = None
         if not exact:
-            with mpmath.workdps(DIGITS + 10):
-                numeric = linear_combination(
-                    [(mpmath.mpf(str(sympy.N(factor, DIGITS + 10))), pieces[k].numeric
-                      if pieces[k].numeric is not None else pieces[k].local.numeric())
-                     for factor, pieces in parts if factor != 0])
+            local = _without_residue(local, terms)
+            numeric = local.numeric()
         combined.append(Piece(first.start, first.end, local, numeric))
     return tuple(combined)
+
+
+RESIDUE = 1e-26   # of the parts' magnitudes: below the 30 digits carried, a cancellation
+
+
+def _without_residue(total, parts):
+    """The sum without the coefficients that 30-digit parts cancelled to rounding residue
+    (the parts of a real pole's complex-phased eigenvector, say)."""
+    kept = []
+    for mode, c in total.terms.items():
+        size = sum(abs(float(part.terms.get(mode, 0))) for part in parts)
+        if abs(float(c)) > RESIDUE * size:
+            kept.append((mode, c))
+    return type(total).from_terms(kept)
 
 
 def _sum_modes(modes: Sequence[NaturalMode], exact: bool) -> list[tuple[Piece, ...]]:

@@ -211,17 +211,11 @@ def sheet_context(derivation, target: str, stem: str) -> dict[str, Any]:
 
     # the characteristic equation and the modes ----------------------------------------
     lam = sympy.Symbol(r"\lambda")
-    if derivation.route == "modal":
-        polynomial = derivation.characteristic.subs(sympy.Symbol("lambda", positive=True), lam)
-        factored = derivation.factored.subs(sympy.Symbol("lambda", positive=True), lam)
-        characteristic = display(r"\det(K - \lambda M)", _terms(sympy.expand(polynomial), 30))
-        factored_display = display(r"\det(K - \lambda M)", [typeset(factored, 30)]) \
-            if sympy.count_ops(factored) < 60 and factored != polynomial else None
-    else:
-        s = sympy.Symbol("s")
-        characteristic = display(r"\det(M s^2 + C s + K)", _terms(derivation.characteristic, 30))
-        factored_display = None
-        del s
+    polynomial = derivation.characteristic.subs(sympy.Symbol("lambda", positive=True), lam)
+    factored = derivation.factored.subs(sympy.Symbol("lambda", positive=True), lam)
+    characteristic = display(r"\det(K - \lambda M)", _terms(sympy.expand(polynomial), 30))
+    factored_display = display(r"\det(K - \lambda M)", [typeset(factored, 30)]) \
+        if sympy.count_ops(factored) < 60 and factored != polynomial else None
     total_mass = sum(chain.mass_matrix[i, i] for i in range(n)) if chain.mass_matrix.is_diagonal() \
         else sum(chain.mass_matrix)
     modes = []
@@ -282,6 +276,8 @@ def sheet_context(derivation, target: str, stem: str) -> dict[str, Any]:
                           "omega": _math(size), "ratio": _math(-pole.rate / size),
                           "equation": inline(typeset(_rounded(pole.model.characteristic_polynomial())))})
         state_space = {"poles": poles,
+                       "polynomial": display(r"\det(M s^2 + C s + K)",
+                                             _terms(route.polynomial, 30)),
                        "count": sum(len(pole.solutions) for pole in route.modes)}
 
     # responses and results ---------------------------------------------------------
