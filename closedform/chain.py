@@ -228,6 +228,14 @@ class ChainDerivation:
         import json
         return json.dumps(self.to_dict(), indent=2, allow_nan=False)
 
+    def _repr_markdown_(self) -> str:
+        from .chain_sheet import render_markdown
+        return render_markdown(self)
+
+    def _repr_latex_(self) -> str:
+        from .chain_sheet import render_latex
+        return render_latex(self, standalone=False)
+
 
 # ----------------------------------------------------------------------------- modes
 
