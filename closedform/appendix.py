@@ -33,6 +33,7 @@ from .options import add_budgets, add_formats, add_jobs, add_output
 
 if TYPE_CHECKING:
     from .batch import CaseOutcome, CaseTask, Finished
+    from .chain import ChainDerivation
     from .derivation import Derivation
 
 APPENDIX_FORMATS = ("md", "tex", "pdf")
@@ -122,7 +123,7 @@ class AppendixSection:
     stem: str
     formats: tuple[str, ...]
 
-    def __call__(self, derivation: Derivation, path: str) -> Finished:
+    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
         from .batch import Finished
 
         case = derivation.case
@@ -188,7 +189,7 @@ def prepare_case(path: Path, number: int, stem: str, formats: tuple[str, ...],
                     number, stem)
 
 
-def summary_cells(derivation: Derivation, target: str) -> SummaryCells:
+def summary_cells(derivation: Derivation | ChainDerivation, target: str) -> SummaryCells:
     """Peak (in the case's report unit, with its time) and DLF, as inline math, for the
     flavour called ``target``."""
     units = render.Units(derivation.case)

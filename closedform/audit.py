@@ -57,7 +57,7 @@ from .claims import (
     read_tolerances,
     read_value_claims,
 )
-from .derivation import Window
+from .derivation import Derivation, Window
 from .errors import CaseError
 from .options import add_budgets, add_formats, add_output
 from .response import Piece, t
@@ -66,7 +66,8 @@ from .results import Results, real_number
 if TYPE_CHECKING:
     from .batch import Finished
     from .case import Case
-    from .derivation import Derivation, DerivedResponse
+    from .chain import ChainDerivation
+    from .derivation import DerivedResponse
 
 SAMPLES_PER_INTERVAL = 200
 AUDIT_FORMATS = ("md", "tex", "pdf", "json")
@@ -125,7 +126,7 @@ class Verdict:
 class Audit:
     """The verdicts on every claim of a case, with the derivation they were judged by."""
 
-    derivation: Derivation
+    derivation: Derivation | ChainDerivation
     verdicts: tuple[Verdict, ...]
 
     @property
@@ -186,7 +187,7 @@ class _FormulaPiece:
         return str(self.formula)
 
 
-def audit(derivation: Derivation) -> Audit:
+def audit(derivation: Derivation | ChainDerivation) -> Audit:
     """Verdicts for every claim of the case (raises CaseError for an unusable claim)."""
     from .case import quantity_reader
 
@@ -204,6 +205,10 @@ def audit(derivation: Derivation) -> Audit:
     if not case.is_fully_valued:
         raise error("claims", "claims can be audited only when every symbol has a value")
     check_claim_names(claims, claimable, error)
+    if "response" in claims and getattr(derivation, "chain", None) is not None:
+        raise error("claims.response", "claimed formulas are not supported for several masses "
+                                       "(claim peak_mass_N, peak_stretch_N, … or values at "
+                                       "times of the watched mass)")
     tolerances = read_tolerances(claims, error)
     reader = quantity_reader(case)
     values = case.symbol_values()
@@ -220,6 +225,9 @@ def audit(derivation: Derivation) -> Audit:
         verdicts.extend(_value_verdict(case, item, ours, values, tolerances.numbers)
                         for item in claimed_values)
     if "response" in claims:
+        if not isinstance(derivation, Derivation):    # several masses: refused above
+            raise error("claims.response", "claimed formulas are not supported for several "
+                                           "masses")
         pieces = read_response_claims(case, reader, claims["response"], until, t, error)
         verdicts.extend(_response_verdict(derivation, piece, tolerances.expressions)
                         for piece in pieces)
@@ -450,7 +458,7 @@ class AuditSheet:
     formats: tuple[str, ...]
     as_json: bool
 
-    def __call__(self, derivation: Derivation, path: str) -> Finished:
+    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
         from .batch import Finished
 
         try:

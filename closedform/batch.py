@@ -26,6 +26,7 @@ from .outputs import safe_stem
 from .workers import DEFAULT_MEMORY, GRACE_SECONDS, Lost, fork_available, format_size, run_tasks
 
 if TYPE_CHECKING:
+    from .chain import ChainDerivation
     from .derivation import Derivation
 
 R = TypeVar("R")
@@ -51,7 +52,7 @@ class Finisher(Protocol):
     budget; a top-level class or function, so that it can be sent to a worker process. A
     CaseError it raises is reported like any other input error of the case."""
 
-    def __call__(self, derivation: Derivation, path: str) -> Finished: ...
+    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished: ...
 
 
 @dataclass(frozen=True)
@@ -174,9 +175,9 @@ class SheetFiles:
     JSON result), named after the case file; ``renderer`` replaces ``render_outputs``."""
 
     formats: tuple[str, ...]
-    renderer: Callable[[Derivation, Sequence[str], str], dict[str, str | bytes]] | None = None
+    renderer: Callable[[Derivation | ChainDerivation, Sequence[str], str], dict[str, str | bytes]] | None = None
 
-    def __call__(self, derivation: Derivation, path: str) -> Finished:
+    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
         from .render import render_outputs
 
         contents = (self.renderer or render_outputs)(derivation, self.formats, safe_stem(path)) \
@@ -196,7 +197,7 @@ def internal_error(shown: str, error: BaseException) -> str:
                     "not derived. Please report it with the case file.")
 
 
-def summary_line(derivation: Derivation) -> str:
+def summary_line(derivation: Derivation | ChainDerivation) -> str:
     from .render import summary_figures
 
     parts = [f"{derivation.case.source}: {derivation.status.upper()}"]

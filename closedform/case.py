@@ -302,6 +302,12 @@ class _Reader:
         symbols = self.symbols(data.get("symbols", {}))
         if "system" not in data:
             raise self.error("system", "the [system] table is required")
+        from .chain_case import CHAIN_MODELS, read_chain_case
+        if self.table(data["system"], "system").get("model") in CHAIN_MODELS:
+            return read_chain_case(self, data, lambda system, loads, report, chain: Case(
+                title=title.strip(), reference=reference.strip(), system=system, loads=loads,
+                initial=None, symbols=(), report=report, claims=self.claims(data),
+                source=self.file, sha256=self.digest, chain=chain))
         system = self.system(self.table(data["system"], "system"))
         loads_data = data.get("load", [])
         if not isinstance(loads_data, list):
@@ -314,15 +320,18 @@ class _Reader:
         self.breakpoint_limit(loads)
         initial = self.initial(data.get("initial"), system)
         report = self.report(self.table(data.get("report", {}), "report"), system)
+        return Case(title=title.strip(), reference=reference.strip(), system=system,
+                    loads=loads, initial=initial, symbols=symbols, report=report,
+                    claims=self.claims(data), source=self.file, sha256=self.digest)
+
+    def claims(self, data: Mapping[str, Any]) -> Mapping[str, Any]:
         claims = self.table(data.get("claims", {}), "claims")
         for name in claims:
             if not _CLAIM_NAME_RE.fullmatch(name):
                 raise self.error(f"claims.{_key_part(name)}",
                                  f"not a claim name {quote(name)} (expected a result name of the "
                                  "JSON result such as peak or dlf, or response, at, tolerance)")
-        return Case(title=title.strip(), reference=reference.strip(), system=system,
-                    loads=loads, initial=initial, symbols=symbols, report=report,
-                    claims=MappingProxyType(dict(claims)), source=self.file, sha256=self.digest)
+        return MappingProxyType(dict(claims))
 
     def table(self, value: Any, key: str) -> Mapping[str, Any]:
         if not isinstance(value, Mapping):

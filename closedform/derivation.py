@@ -10,7 +10,7 @@ import json
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Any, Protocol
+from typing import TYPE_CHECKING, Any, Protocol
 
 import sympy
 
@@ -22,6 +22,9 @@ from .loads import LoadHistory, rewrite_loads
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
+
+if TYPE_CHECKING:
+    from .chain import ChainDerivation
 
 DEFAULT_PERIODS = 5   # default window: last load end + this many slowest periods/time constants
 
@@ -228,7 +231,7 @@ def analysis_window(case: Case, model: LinearModel) -> Window:
                   "natural period or time constant")
 
 
-def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
+def derive(case: Case, *, time_budget: float | None = None) -> Derivation | ChainDerivation:
     """Derive, evaluate and check the response of one case.
 
     ``time_budget`` (seconds) bounds the whole derivation; past it a TimeBudgetExceeded
@@ -236,6 +239,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
     """
     from .budget import time_budget as budget_for
 
+    if case.chain is not None:          # several masses: the modal route (closedform.chain)
+        from .chain import derive_chain
+        return derive_chain(case, time_budget=time_budget)
     with budget_for(time_budget, case.source) as budget:
         with budget.stage("model and poles"):
             model = build_model(case.system, case.symbol_values())

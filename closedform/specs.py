@@ -136,6 +136,7 @@ class Case:
     claims: Mapping[str, Any]
     source: str = "<case>"
     sha256: str = ""
+    chain: Any = None        # several masses (chain_case.ChainSpec) for the chain/matrix models
 
     def symbol_values(self) -> dict[sympy.Symbol, sympy.Expr]:
         return {d.symbol: d.value for d in self.symbols if d.value is not None}

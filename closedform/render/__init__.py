@@ -27,7 +27,7 @@ from __future__ import annotations
 from .console import plain_number, summary_figures
 from .context import Sheet, sheet_context
 from .datafiles import CSV_POINTS, render_coefficients, render_csv
-from .documents import Document, SheetDocument, Writer
+from .documents import Document, SheetDocument, Writer, sheet_document
 from .escaping import Math, latex_escape, markdown_escape
 from .figures import figure_files
 from .flavours import FLAVOURS, LATEX, MARKDOWN, Flavour, flavour, make_environment
@@ -104,6 +104,6 @@ __all__ = [
     "ordered_terms", "plain_number", "polynomial_rows", "printed_equation_check",
     "register_writer", "render_coefficients", "render_csv", "render_latex", "render_markdown",
     "render_outputs", "render_sheet", "require_latex", "require_tools", "sheet_context",
-    "shown_digits", "slug", "summary_figures", "typeset", "unit_latex", "unit_text",
+    "sheet_document", "shown_digits", "slug", "summary_figures", "typeset", "unit_latex", "unit_text",
     "visible_width", "with_unit", "write_files", "writer_for", "writers_for",
 ]

@@ -108,3 +108,12 @@ class SheetDocument(Document):
     def csv(self) -> str:
         from .datafiles import render_csv
         return render_csv(self.derivation)
+
+
+def sheet_document(derivation, stem: str) -> Document:
+    """The document of the sheet of ``derivation``: a :class:`SheetDocument`, or for several
+    masses (``model = "chain"`` / ``"matrix"``) their own (``chain_sheet.ChainSheetDocument``)."""
+    if getattr(derivation, "chain", None) is not None:
+        from ..chain_sheet import ChainSheetDocument
+        return ChainSheetDocument(derivation, stem)
+    return SheetDocument(derivation, stem)

@@ -18,6 +18,9 @@ if TYPE_CHECKING:
 
 def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
     """The load and response plots of one sheet as ``fmt`` ("svg" or "pdf") files."""
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own plot
+        from ..chain_sheet import figure_files as chain_figures
+        return chain_figures(derivation, stem, fmt)
     if not plots.plottable(derivation):
         return {}
     case = derivation.case

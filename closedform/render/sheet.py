@@ -23,6 +23,10 @@ def render_sheet(derivation, flavour: Flavour, *, stem: str | None = None,
     """The sheet in ``flavour``, its figures named after ``stem``. ``section`` and ``level``
     number and nest it inside an appendix; ``standalone`` wraps it in the flavour's
     document (LaTeX: preamble and paper size) where the flavour has one."""
+    if getattr(derivation, "chain", None) is not None:     # several masses: their own sheet
+        from ..chain_sheet import render_chain_sheet
+        return render_chain_sheet(derivation, flavour, stem=stem, section=section, level=level,
+                                  standalone=standalone)
     context = sheet_context(derivation, flavour.name, stem=stem, section=section)
     context.update({"h1": Math("#" * level), "h2": Math("#" * (level + 1)),
                     "label_anchor": f"case-{context['label']}" if section else None})

@@ -12,7 +12,7 @@ from __future__ import annotations
 
 from collections.abc import Iterable, Sequence
 
-from .documents import Document, Files, SheetDocument, Writer
+from .documents import Document, Files, Writer, sheet_document
 from .flavours import Flavour
 from .formats import CSV, JSON, MD, PDF, SVG, TEX
 
@@ -79,4 +79,4 @@ def render_outputs(derivation, formats, stem: str) -> Files:
     ``pdf`` is the compiled sheet, ``svg`` the plots alone, ``json`` the result contract and
     ``csv`` the response sampled over the window; a long history adds its coefficient file
     to any sheet text."""
-    return write_files(SheetDocument(derivation, stem), list(formats))
+    return write_files(sheet_document(derivation, stem), list(formats))
