@@ -68,7 +68,7 @@ _LOAD_KEYS = {
     "formula": ("expr", "duration", "unit"),
 }
 _COMMON_LOAD_KEYS = ("shape", "at", "repeat", "label")
-_REPORT_KEYS = ("until", "units", "numbers", "digits", "paper")
+_REPORT_KEYS = ("until", "units", "numbers", "digits", "paper", "levels")
 # [report] units: every quantity a sheet shows, with the dimension its unit must have
 # (None: the model's response, whatever it measures).
 _DISPLAY_DIMENSIONS = {
@@ -104,6 +104,8 @@ MAX_TEXT = 500
 MAX_LOADS = 1000
 #: Most names declared under [symbols].
 MAX_SYMBOLS = 100
+#: Most [report] levels.
+MAX_LEVELS = 20
 # Characters refused in free text: controls (a tab is fine) and the bidirectional overrides
 # that make text display in an order other than the one it is read in.
 _HIDDEN_CHARACTERS = frozenset(chr(c) for c in (*range(0, 9), *range(10, 32), 127,
@@ -205,6 +207,7 @@ class ReportSpec:
     numbers: str = "auto"       # auto | exact | decimal: how the sheet prints numbers
     digits: int = 6             # significant digits of decimals on the sheet
     paper: str = "a4"           # a4 | letter
+    levels: tuple[sympy.Expr, ...] = ()   # response levels whose crossing times are reported
 
 
 @dataclass(frozen=True)
@@ -1035,7 +1038,17 @@ class _Reader:
         if paper not in PAPER_SIZES:
             raise self.error("report.paper", f"expected one of {', '.join(PAPER_SIZES)}, "
                                              f"got {_shown_value(paper)}")
-        return ReportSpec(until, MappingProxyType(units), numbers, digits, paper)
+        levels = self.levels(data.get("levels", []), system)
+        return ReportSpec(until, MappingProxyType(units), numbers, digits, paper, levels)
+
+    def levels(self, data: Any, system: SystemSpec | None) -> tuple[sympy.Expr, ...]:
+        """[report] levels: values of the response (its units) whose crossing times are wanted."""
+        if not isinstance(data, list) or len(data) > MAX_LEVELS:
+            raise self.error("report.levels", f"expected a list of at most {MAX_LEVELS} values "
+                                              f"of the response, got {_shown(data)}")
+        dimension = system.response_dimension if system is not None else "dimensionless"
+        return tuple(self.quantity(item, dimension, f"report.levels[{i}]")
+                     for i, item in enumerate(data))
 
 
 def _shown_value(value: Any) -> str:

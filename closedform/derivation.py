@@ -18,6 +18,7 @@ from .case import Case
 from .energy import energy_checks
 from .extremes import extreme_checks
 from .loads import LoadHistory, rewrite_loads
+from .metrics import ResponseMetrics, metric_fields, response_metrics
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .systems import LinearModel, build_model
@@ -64,6 +65,7 @@ class Derivation:
     numbers: Results
     checks: tuple[Check, ...]
     warnings: tuple[str, ...] = ()
+    metrics: ResponseMetrics | None = None
 
     @property
     def pieces(self):
@@ -218,6 +220,8 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
                              ordering=values)
         with budget.stage("results"):
             results = evaluate_results(case, model, history, solution, window)
+        with budget.stage("response metrics"):
+            metrics = response_metrics(case, model, history, solution, window)
         partial = Derivation(case, model, history, window, solution, results, ())
         with budget.stage("verification"):
             checks = tuple(verify(partial))
@@ -230,7 +234,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
             checks += tuple(extreme_checks(partial))
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
-                      window_warnings(case, window, results))
+                      window_warnings(case, window, results), metrics)
 
 
 def _seconds(value: sympy.Expr) -> str:
@@ -365,6 +369,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "static": results.static,
         "dlf": results.dlf,
         **result_fields(results),
+        **metric_fields(derivation.metrics),
         "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],

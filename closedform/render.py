@@ -38,6 +38,7 @@ from sympy.printing.latex import LatexPrinter
 
 from . import __version__, plots, quantities, reread
 from .errors import CaseError, ClosedformError
+from .metrics import metric_notes, metric_rows
 
 if TYPE_CHECKING:
     from .verify import Check
@@ -1313,6 +1314,9 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "window": units.show(derivation.window.until, time_dimension, ("time",), exact=True),
         "window_note": derivation.window.note,
         "results": rows,
+        "metrics": metric_rows(getattr(derivation, "metrics", None), units.show,
+                               response_dimension, response_prefer),
+        "metrics_notes": metric_notes(getattr(derivation, "metrics", None)),
         "results_available": peak is not None,
         "static_gain": _static_gain(model.input_scale, model.coefficients[-1]),
         "peak_label": peak_label,
