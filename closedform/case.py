@@ -52,7 +52,8 @@ _SYSTEM_KEYS = {
     "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
     "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
     "first-order": ("model", "time_constant", "gain", "input_unit"),
-    "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime"),
+    "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime",
+                   "initial_current"),
     "ode": ("model", "coefficients", "regime"),
 }
 _LOAD_KEYS = {
@@ -84,7 +85,7 @@ _DISPLAY_QUANTITIES = tuple(_DISPLAY_DIMENSIONS)
 NUMBER_STYLES = ("auto", "exact", "decimal")
 PAPER_SIZES = ("a4", "letter")
 DIGITS_RANGE = (2, 15)
-_INITIAL_KEYS = ("values", "displacement", "velocity")
+_INITIAL_KEYS = ("values", "displacement", "velocity", "voltage")
 # Claim names are the result names of the JSON result, known only once the case is derived
 # (closedform.claims checks them then); here a claim key must merely look like one.
 _CLAIM_NAME_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
@@ -624,6 +625,9 @@ class _Reader:
                 self.quantity(data.get("resistance", 0), "resistance", "system.resistance"),
                 "system.resistance", "resistance")
             parameters["capacitance"] = required("capacitance", "capacitance")
+            if "initial_current" in data:      # i(0) = C·v′(0): folded into the initial values
+                parameters["initial_current"] = self.quantity(
+                    data["initial_current"], "current", "system.initial_current")
         else:
             coefficients = data.get("coefficients")
             if not isinstance(coefficients, list) or not 2 <= len(coefficients) <= 5:
@@ -972,20 +976,39 @@ class _Reader:
 
     def initial(self, data: Any, system: SystemSpec) -> tuple[sympy.Expr, ...] | None:
         if data is None:
-            return None
+            if system.parameters.get("initial_current") is None:
+                return None
+            data = {}
         data = self.table(data, "initial")
         self.check_keys(data, _INITIAL_KEYS, "initial")
         order = _order(system)
         dimensions = _initial_dimensions(system, order)
         if "values" in data:
+            if "initial_current" in system.parameters:
+                raise self.error("initial.values", "give the capacitor voltage as initial.voltage "
+                                                   "with system.initial_current, not values")
             if "displacement" in data or "velocity" in data:
                 raise self.error("initial.values", "give values or displacement/velocity, not both")
+            if "voltage" in data:
+                raise self.error("initial.values", "give values or voltage, not both")
             raw = data["values"]
             if not isinstance(raw, list) or len(raw) != order:
                 raise self.error("initial.values", f"expected {order} values x(0)…x^({order - 1})(0), "
                                                    f"got {_shown(raw)}")
             return tuple(self.quantity(v, dimensions[i], f"initial.values[{i}]")
                          for i, v in enumerate(raw))
+        current = system.parameters.get("initial_current")
+        if system.model == "series-rlc" and ("displacement" in data or "velocity" in data):
+            raise self.error("initial.displacement" if "displacement" in data else
+                             "initial.velocity", "displacement/velocity are for mechanical "
+                             "models; use voltage = … (capacitor) and system.initial_current")
+        if system.model == "series-rlc":
+            voltage = self.quantity(data.get("voltage", 0), dimensions[0], "initial.voltage")
+            return (voltage, sympy.S.Zero if current is None
+                    else current / system.parameters["capacitance"])
+        if "voltage" in data:
+            raise self.error("initial.voltage", "voltage is the capacitor voltage of the "
+                                                "series-rlc model; use values = […]")
         if system.model not in ("spring-mass-damper", "base-excitation"):
             raise self.error("initial.displacement", "displacement/velocity are for mechanical "
                                                      "models; use values = […]")

@@ -307,7 +307,7 @@ def response_metrics(case, model, history, solution, window) -> ResponseMetrics 
         time = max(edges) if edges else mpmath.mpf(0)
         end = followed[-1].end
         beyond = time > intervals[-1].end
-        if end > intervals[-1].end:
+        if end > intervals[-1].end * (1 + mpmath.mpf(10) ** (-DIGITS + 5)):
             note = (f"the last piece followed past the window to t = {mpmath.nstr(end, 6)} s, "
                     "after which the envelope of its decaying terms stays inside the band")
         else:

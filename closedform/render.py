@@ -78,11 +78,11 @@ LESS = {True: r"\le", False: "<"}
 DERIVATIVE_MARKS = {0: "{v}", 1: r"\dot{{{v}}}", 2: r"\ddot{{{v}}}"}
 PARAMETER_SYMBOLS = {"mass": "m", "stiffness": "k", "damping": "c", "damping_ratio": r"\zeta",
                      "time_constant": r"\tau", "gain": "K", "inductance": "L",
-                     "resistance": "R", "capacitance": "C"}
+                     "resistance": "R", "capacitance": "C", "initial_current": "i(0)"}
 PARAMETER_DIMENSIONS = {"mass": "mass", "stiffness": "stiffness", "damping": "damping",
                         "damping_ratio": "dimensionless", "time_constant": "time",
                         "inductance": "inductance", "resistance": "resistance",
-                        "capacitance": "capacitance"}
+                        "capacitance": "capacitance", "initial_current": "current"}
 LOAD_VALUE_NAMES = ("amplitude", "impulse", "rate", "duration", "peak_at", "rise", "hold", "fall")
 
 
@@ -1203,6 +1203,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
                 tolerance=1e-9 if any(sympy.sympify(c).has(sympy.Float)
                                       for c in piece.local.terms.values()) else 1e-15),
             "shown": None,
+            "current": _current_display(check, case, i, piece, end, local),
         }
         if converted:
             rf = 1 / (response_unit.factor if response_unit else sympy.S.One)
@@ -1493,6 +1494,18 @@ def _inversion_context(inversion, name: str, variable: sympy.Symbol,
 def _time_shift_source() -> str:
     from .laplace import SOURCES
     return SOURCES.get("time shift", "")
+
+
+def _current_display(check, case, number: int, piece, end, local) -> Display | None:
+    """i(t̂) = C·v′(t̂) on one interval of a series-rlc case, registered for re-reading."""
+    if case.system.model != "series-rlc" or getattr(piece, "numeric", None) is not None:
+        return None
+    current = piece.local.derivative().scaled(case.system.parameters["capacitance"])
+    shown = type("CurrentPiece", (), {"numeric": None, "local": current, "start": piece.start})
+    return check.piece(number, shown, end, display(
+        "i(t)", grouped_terms(polynomial_rows(current), local, available_width("i(t)"))),
+        tolerance=1e-9 if any(sympy.sympify(c).has(sympy.Float)
+                              for c in current.terms.values()) else 1e-15, what="current")
 
 
 def _extra_fields(results) -> dict[str, Any]:
