@@ -43,6 +43,7 @@ MODELS = ("spring-mass-damper", "base-excitation", "first-order", "series-rlc", 
 SHAPES = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half-sine",
           "trapezoid", "table", "formula")
 REGIMES = ("undamped", "under-damped", "critically-damped", "over-damped")
+BASE_INPUTS = ("support-acceleration", "support-displacement")
 PULSE_SHAPES = ("rectangle", "triangle", "decay", "half-sine", "trapezoid", "table", "formula")
 
 TAU = sympy.Symbol("tau", real=True)
@@ -50,11 +51,12 @@ TAU = sympy.Symbol("tau", real=True)
 _TOP_KEYS = ("title", "reference", "system", "initial", "load", "report", "symbols", "claims")
 _SYSTEM_KEYS = {
     "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
+    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime",
+                        "input"),
     "first-order": ("model", "time_constant", "gain", "input_unit"),
     "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime",
                    "initial_current"),
-    "ode": ("model", "coefficients", "regime"),
+    "ode": ("model", "coefficients", "regime", "input_coefficients"),
 }
 _LOAD_KEYS = {
     "step": ("amplitude",),
@@ -145,6 +147,7 @@ class SystemSpec:
     regime: str | None
     load_dimension: Any
     response_dimension: Any
+    input: str | None = None      # base-excitation: support-acceleration | support-displacement
 
     def get(self, name: str) -> sympy.Expr | None:
         return self.parameters.get(name)
@@ -478,6 +481,12 @@ class _Reader:
         loads = tuple(self.load(self.table(item, f"load[{i}]"), i, system.load_dimension)
                       for i, item in enumerate(loads_data, start=1))
         self.breakpoint_limit(loads)
+        if system.input == "support-displacement":
+            for load in loads:
+                if load.shape == "impulse":
+                    raise self.error(f"{load.key}.shape", "an impulse is not a support "
+                                     "displacement (a Dirac displacement has no finite response); "
+                                     "give the displacement history, e.g. a step or a table")
         initial = self.initial(data.get("initial"), system)
         report = self.report(self.table(data.get("report", {}), "report"), system)
         claims = self.table(data.get("claims", {}), "claims")
@@ -640,12 +649,40 @@ class _Reader:
                 raise self.error("system.coefficients[0]", "the leading coefficient a_n must not be 0")
             for i, value in enumerate(values):
                 parameters[f"a{len(values) - 1 - i}"] = value
+            if "input_coefficients" in data:
+                parameters.update(self.input_coefficients(data["input_coefficients"],
+                                                          len(values) - 1))
         d = quantities.dimension
+        if model == "base-excitation":
+            excitation = data.get("input", BASE_INPUTS[0])
+            if excitation not in BASE_INPUTS:
+                raise self.error("system.input", f"unknown input {_shown(excitation)} (expected "
+                                                 f"one of: {', '.join(BASE_INPUTS)})")
+            if excitation == "support-displacement":
+                return SystemSpec(model, MappingProxyType(parameters), regime, d("length"),
+                                  d("length"), excitation)
         dimensions = {"spring-mass-damper": (d("force"), d("length")),
                       "base-excitation": (d("acceleration"), d("length")),
                       "series-rlc": (d("voltage"), d("voltage")),
                       "ode": (d("dimensionless"), d("dimensionless"))}[model]
         return SystemSpec(model, MappingProxyType(parameters), regime, *dimensions)
+
+    def input_coefficients(self, data: Any, order: int) -> dict[str, sympy.Expr]:
+        """ode input_coefficients = [b_m, …, b_0], m < n, as parameters b_m … b_0."""
+        key = "system.input_coefficients"
+        if not isinstance(data, list) or not data:
+            raise self.error(key, f"expected a list [b_m, …, b_0] of numbers, got {_shown(data)}")
+        if len(data) > order:
+            raise self.error(key, f"expected at most {order} input coefficients [b_m, …, b_0] "
+                                  f"with m < n = {order} (as many as the output's, or more, "
+                                  f"would put a Dirac impulse into x), got {len(data)}")
+        values = [self.quantity(item, "dimensionless", f"{key}[{i}]") for i, item in enumerate(data)]
+        if values[0] == 0 and len(values) > 1:
+            raise self.error(f"{key}[0]", "the leading input coefficient b_m must not be 0 "
+                                          "(leave it out)")
+        if all(value == 0 for value in values):
+            raise self.error(key, "at least one input coefficient must not be 0")
+        return {f"b{len(values) - 1 - i}": value for i, value in enumerate(values)}
 
     def unit_dimension(self, unit: str, key: str) -> Any:
         """The dimension of a unit string given in the case ("1" or "" for none)."""
@@ -1094,7 +1131,7 @@ def _order(system: SystemSpec) -> int:
     if system.model == "first-order":
         return 1
     if system.model == "ode":
-        return len(system.parameters) - 1
+        return sum(1 for name in system.parameters if name[:1] == "a") - 1
     return 2
 
 

@@ -443,7 +443,8 @@ def metric_rows(metrics: ResponseMetrics | None, show, response_dimension,
             if overshoot.time is not None:
                 row("time of the largest overshoot", overshoot.time, time, ("time",))
     for crossing in metrics.crossings:
-        label = f"reaches the level {crossing.level:.6g} {metrics.unit} at t"
+        unit = "" if metrics.unit == "1" else f" {metrics.unit}"
+        label = f"reaches the level {crossing.level:.6g}{unit} at t"
         if not crossing.times:
             rows.append({"name": label, "si": "not reached in the analysis window (no crossing)",
                          "shown": None})

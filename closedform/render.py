@@ -38,6 +38,7 @@ from sympy.printing.latex import LatexPrinter
 
 from . import __version__, plots, quantities, reread
 from .errors import CaseError, ClosedformError
+from .inputs import singular_parts
 from .metrics import metric_notes, metric_rows
 
 if TYPE_CHECKING:
@@ -1040,7 +1041,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         else:
             dimension = quantities.dimension("dimensionless")
         si, shown = units.show(value, dimension, exact=True)
-        symbol = PARAMETER_SYMBOLS.get(name) or re.sub(r"^a(\d)$", r"a_{\1}", name)
+        symbol = PARAMETER_SYMBOLS.get(name) or re.sub(r"^([ab])(\d)$", r"\1_{\2}", name)
         parameters.append({"name": name.replace("_", " "), "symbol": inline(symbol),
                            "si": si, "shown": shown})
     symbols = [{"name": inline(typeset(d.symbol)),
@@ -1144,6 +1145,19 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
             + (f", multiplicity {p.multiplicity}" if p.multiplicity > 1 else "")))
             for p in model.poles],
     }
+
+    inputs = None
+    if getattr(model, "input_coefficients", ()):
+        polynomial = model.input_polynomial()
+        time_symbol = sympy.Symbol("t")
+        inputs = {
+            "polynomial": check.of_s("B(s)", polynomial, display(
+                "B(s)", [typeset(t) for t in ordered_terms(sympy.expand(polynomial))])),
+            "load": Math(model.load_name),
+            "singular": [{"at": inline(typeset(part.at)),
+                          "part": inline(typeset(part.expression(time_symbol)))}
+                         for part in singular_parts(model, derivation.history)],
+        }
 
     # kernels and partial fractions -------------------------------------------------------
     kernels = []
@@ -1299,6 +1313,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "loads": loads,
         "rewrites": rewrites,
         "transform": transform,
+        "inputs": inputs,
         "kernels": kernels,
         "free": free,
         "superposition": superposition,

@@ -24,6 +24,12 @@ MODEL_EQUATIONS = {
     "series-rlc": r"L C\,\ddot{v} + R C\,\dot{v} + v = v_s(t)",
     "ode": r"a_n x^{(n)} + \dots + a_1 \dot{x} + a_0 x = f(t)",
 }
+#: The equations where derivatives of the input act (ode input_coefficients, support
+#: displacement on base excitation).
+INPUT_DERIVATIVE_EQUATIONS = {
+    "ode": r"a_n x^{(n)} + \dots + a_1 \dot{x} + a_0 x = b_m f^{(m)} + \dots + b_1 \dot{f} + b_0 f",
+    "base-excitation": r"m\,\ddot{u} + c\,\dot{u} + k\,u = -m\,\ddot{y}(t)",
+}
 VARIABLES = {"spring-mass-damper": "x", "base-excitation": "u", "first-order": "y",
              "series-rlc": "v", "ode": "x"}
 LOAD_NAMES = {"spring-mass-damper": "F", "base-excitation": "a_g", "first-order": "u",
@@ -47,6 +53,16 @@ class LinearModel:
     regime: str
     exact_poles: bool
     regime_note: str = ""
+    input_coefficients: tuple[sympy.Expr, ...] = ()   # b_m … b_0 where the input's derivatives act
+
+    def input_polynomial(self) -> sympy.Expr:
+        """B(s) = b_m s^m + … + b_0 (the right-hand side b_m f⁽ᵐ⁾ + … + b_0 f transformed from
+        rest, L{f⁽ʲ⁾} = sʲF(s) for a load that is zero before t = 0); the input scale b where
+        no derivative of the input acts."""
+        if not self.input_coefficients:
+            return self.input_scale
+        m = len(self.input_coefficients) - 1
+        return sympy.Add(*[b * s ** (m - i) for i, b in enumerate(self.input_coefficients)])
 
     @property
     def order(self) -> int:
@@ -57,6 +73,8 @@ class LinearModel:
 
     @property
     def equation(self) -> str:
+        if self.input_coefficients:
+            return INPUT_DERIVATIVE_EQUATIONS[self.name]
         return MODEL_EQUATIONS[self.name]
 
     def static_gain(self) -> sympy.Expr | None:
@@ -117,13 +135,30 @@ def build_model(system: SystemSpec, values: Mapping[sympy.Symbol, sympy.Expr] | 
         coefficients = (product, p["resistance"] * p["capacitance"], one)
         scale = one
     else:
-        order = len(p) - 1
+        order = sum(1 for name in p if name[:1] == "a") - 1
         coefficients = tuple(p[f"a{order - i}"] for i in range(order + 1))
         scale = one
+    inputs = input_coefficients(system)
+    if inputs:
+        scale = inputs[-1]            # b_0: the static gain is B(0)/a_0
     coefficients = tuple(sympy.sympify(a) for a in coefficients)
     poles, regime, exact, note = _poles(coefficients, system, dict(values or {}), key_prefix)
-    return LinearModel(system.model, VARIABLES[system.model], LOAD_NAMES[system.model],
-                       coefficients, scale, coefficients[0], poles, regime, exact, note)
+    load_name = "y" if system.input == "support-displacement" else LOAD_NAMES[system.model]
+    return LinearModel(system.model, VARIABLES[system.model], load_name,
+                       coefficients, scale, coefficients[0], poles, regime, exact, note, inputs)
+
+
+def input_coefficients(system: SystemSpec) -> tuple[sympy.Expr, ...]:
+    """b_m … b_0 of a right-hand side with derivatives of the input (empty where none act):
+    an ode's ``input_coefficients``; a support displacement y on base excitation,
+    m u″ + c u′ + k u = −m y″ (u relative to the support)."""
+    p = system.parameters
+    if system.model == "ode":
+        names = sorted((name for name in p if name[:1] == "b"), key=lambda n: -int(n[1:]))
+        return tuple(sympy.sympify(p[name]) for name in names)
+    if system.model == "base-excitation" and system.input == "support-displacement":
+        return (-sympy.sympify(p["mass"]), sympy.S.Zero, sympy.S.Zero)
+    return ()
 
 
 def _poles(coefficients: tuple[sympy.Expr, ...], system: SystemSpec, values: dict,

@@ -105,10 +105,19 @@ class _Equation:
 
     coefficients: tuple[sympy.Expr, ...]    # a_n … a_0
     scale: sympy.Expr                       # b
+    inputs: tuple[sympy.Expr, ...] = ()     # b_m … b_0 where the input's derivatives act
 
     @property
     def order(self) -> int:
         return len(self.coefficients) - 1
+
+    def right_side(self, load: sympy.Expr) -> sympy.Expr:
+        """b·load, or b_m load⁽ᵐ⁾ + … + b_0 load (load smooth on the span it is taken on)."""
+        if not self.inputs:
+            return self.scale * load
+        m = len(self.inputs) - 1
+        return sympy.Add(*[b * sympy.diff(load, T, m - i) for i, b in enumerate(self.inputs)
+                           if b != 0])
 
     def a(self, i: int) -> sympy.Expr:
         """The coefficient of x⁽ⁱ⁾."""
@@ -120,7 +129,7 @@ class _Equation:
 
     def subs(self, values: Mapping) -> _Equation:
         return _Equation(tuple(_subs(a, values) for a in self.coefficients),
-                         _subs(self.scale, values))
+                         _subs(self.scale, values), tuple(_subs(b, values) for b in self.inputs))
 
 
 def _equation(system: SystemSpec) -> _Equation:
@@ -133,6 +142,9 @@ def _equation(system: SystemSpec) -> _Equation:
         else:
             c = p.get("damping", 0)
         b = one if system.model == "spring-mass-damper" else -m
+        if system.model == "base-excitation" and system.input == "support-displacement":
+            # u = x − y relative to a support displaced by y: m u″ + c u′ + k u = −m y″
+            return _Equation((m, sympy.sympify(c), k), one, (-m, sympy.S.Zero, sympy.S.Zero))
         return _Equation((m, sympy.sympify(c), k), b)
     if system.model == "first-order":
         return _Equation((sympy.sympify(p["time_constant"]), one),
@@ -144,8 +156,10 @@ def _equation(system: SystemSpec) -> _Equation:
     if system.model == "ode":
         indices = [int(key[1:]) for key in p if key[:1] == "a" and key[1:].isdigit()]
         order = max(indices)
+        inputs = [int(key[1:]) for key in p if key[:1] == "b" and key[1:].isdigit()]
         return _Equation(tuple(sympy.sympify(p.get(f"a{i}", 0)) for i in range(order, -1, -1)),
-                         one)
+                         one, tuple(sympy.sympify(p.get(f"b{i}", 0))
+                                    for i in range(max(inputs), -1, -1)) if inputs else ())
     raise ValueError(f"unknown model {system.model!r}")
 
 
@@ -636,7 +650,7 @@ def _split_zero(x: sympy.Expr, load: sympy.Expr, equation: _Equation, simplify: 
         for term in _terms(image):
             k, psi = term.as_independent(T, as_Add=False)
             totals[psi] = totals.get(psi, sympy.S.Zero) + constant * k
-    for term in _terms(sympy.expand(equation.scale * load)):
+    for term in _terms(sympy.expand(equation.right_side(load))):
         k, psi = term.as_independent(T, as_Add=False)
         totals[psi] = totals.get(psi, sympy.S.Zero) - k
     return all(_zero_symbolically(total, simplify, probe) for total in totals.values())
@@ -651,7 +665,10 @@ def _residual_figure(equation: _Equation, derivatives: Sequence[sympy.Expr], loa
         a = equation.a(i)
         if a != 0:
             terms.extend(a * term for term in _terms(derivatives[i]))
-    terms.extend(-equation.scale * term for term in _terms(load))
+    if equation.inputs:
+        terms.extend(-term for term in _terms(sympy.expand(equation.right_side(load))))
+    else:
+        terms.extend(-equation.scale * term for term in _terms(load))
     evaluate = _function(terms)
     worst, where = mpmath.mpf(0), None
     with mpmath.workdps(dps):
@@ -784,15 +801,17 @@ def _initial_check(problem: _Problem, reference: Mapping, fallbacks: Sequence[Ma
         n = problem.equation.order
         derivatives = problem.derivatives(0)
         kicks = _impulses_at(problem, sympy.S.Zero, reference)
-        jump = problem.equation.jump(sympy.Add(*[k.size for k in kicks]))
+        jumps = _jumps(problem, sympy.S.Zero, reference, kicks)
         pairs = []
         for j in range(n):
-            expected = problem.initial[j] + (jump if j == n - 1 else 0)
+            expected = problem.initial[j] + jumps[j]
             pairs.append((f"{_name_of_derivative(j)}(0+)", [], list(_terms(derivatives[j])),
                           expected))
         passed, detail = _compare(pairs, symbolic, fallbacks, sympy.S.Zero)
         given = "at rest" if all(_is_zero(v) for v in problem.initial) else "as given"
         extra = f"; impulse of {', '.join(k.load for k in kicks)} at t = 0" if kicks else ""
+        if problem.equation.inputs and any(not _is_zero(j) for j in jumps):
+            extra += "; jumps from the input's derivatives at t = 0 added"
         return passed, f"initial state {given}{extra}: {detail}"
     return _guard("initial values" + (" [symbolic]" if symbolic else ""), run)
 
@@ -809,17 +828,22 @@ def _breakpoint_checks(problem: _Problem, reference: Mapping, fallbacks: Sequenc
 
         def run(index: int = index, time: sympy.Expr = time) -> tuple[bool, str]:
             kicks = _impulses_at(problem, time, reference)
-            jump = problem.equation.jump(sympy.Add(*[k.size for k in kicks]))
+            jumps = _jumps(problem, time, reference, kicks)
+            jump = jumps[-1]
             left = problem.derivatives(index)
             right = problem.derivatives(index + 1)
             pairs = []
             for j in range(n):
                 pairs.append((f"{_name_of_derivative(j)} at t = {_short(time)}",
-                              list(_terms(left[j])), list(_terms(right[j])),
-                              jump if j == n - 1 else sympy.S.Zero))
+                              list(_terms(left[j])), list(_terms(right[j])), jumps[j]))
             passed, detail = _compare(pairs, symbolic, fallbacks, time)
             names = [_name_of_derivative(j) for j in range(n)]
-            if kicks:
+            if problem.equation.inputs:
+                shown = ", ".join(f"{name} by {_short(_mp(value, reference))}"
+                                  for name, value in zip(names, jumps))
+                rule = (f"jumps from the input's derivatives and impulses (integrated across "
+                        f"t = {_short(time)} from the load's own branches): {shown}")
+            elif kicks:
                 size = sympy.simplify(jump) if symbolic else _short(_mp(jump, reference))
                 rule = (f"{names[-1]} jumps by b·J/a_n = {size} "
                         f"(impulse of {', '.join(k.load for k in kicks)})")
@@ -855,6 +879,110 @@ def _impulses_off_boundaries(impulses: Sequence[_Impulse], order: int, until: mp
         if not check.passed:
             checks.append(check)
     return checks
+
+
+# ----------------------------------------------------------------------------- inputs with derivatives
+#
+# Where derivatives of the input act, a_n x⁽ⁿ⁾ + … + a_0 x = b_m f⁽ᵐ⁾ + … + b_0 f, these checks
+# use the classical realisation through an auxiliary w with a_n w⁽ⁿ⁾ + … + a_0 w = f (the same
+# companion system as for a plain load, b = 1) and x = b_m w⁽ᵐ⁾ + … + b_0 w: it needs no
+# derivative of f, and shares nothing with the transform B(s)F(s)/P(s) of the derivation.
+# Across a breakpoint w, …, w⁽ⁿ⁻²⁾ are continuous, w⁽ⁿ⁻¹⁾ jumps by J/a_n (impulse J), and each
+# higher derivative by (Δf⁽ⁱ⁻ⁿ⁾ − Σ_l a_l Δw⁽ˡ⁺ⁱ⁻ⁿ⁾)/a_n from the equation; the jumps Δf⁽ʲ⁾
+# of the load come from its own branches on either side. x⁽ᵏ⁾ then jumps by Σ_j b_j Δw⁽ʲ⁺ᵏ⁾.
+
+
+def _input_weights(equation: _Equation) -> list[sympy.Expr]:
+    """b_0 … b_m: the coefficient of f⁽ʲ⁾ at index j."""
+    return list(reversed(equation.inputs))
+
+
+def _load_jumps(problem: _Problem, time: sympy.Expr, values: Mapping, count: int) -> list:
+    """f(t⁺) − f(t⁻), f′(t⁺) − f′(t⁻), … (``count`` of them) from the load's own branches."""
+    instant = _mp(time, values)
+    scale = max(abs(_mp(problem.until, values)), TINY)
+    jumps = [sympy.S.Zero] * count
+    for segment in problem.segments:
+        start = _mp(segment.start, values)
+        end = None if segment.end is None else _mp(segment.end, values)
+        starts_here = _same_time(start, instant, scale)
+        ends_here = end is not None and _same_time(end, instant, scale)
+        before = start < instant and not starts_here and (end is None or end > instant or ends_here)
+        after = (start < instant or starts_here) and (end is None or (end > instant and not ends_here))
+        if before == after:
+            continue
+        sign = 1 if after else -1
+        derivative = segment.value
+        for i in range(count):
+            jumps[i] += sign * derivative.subs(T, time)
+            derivative = sympy.diff(derivative, T)
+    return jumps
+
+
+def _jumps(problem: _Problem, time: sympy.Expr, values: Mapping, kicks: Sequence[_Impulse]) -> list:
+    """What x, x′, … x⁽ⁿ⁻¹⁾ jump by at ``time`` (impulses ``kicks`` there)."""
+    equation = problem.equation
+    n = equation.order
+    impulse = sympy.Add(*[k.size for k in kicks])
+    if not equation.inputs:
+        return [sympy.S.Zero] * (n - 1) + [equation.jump(impulse)]
+    b = _input_weights(equation)
+    m = len(b) - 1
+    df = _load_jumps(problem, time, values, max(m, 1))
+    a = [equation.a(i) for i in range(n + 1)]
+    dw = [sympy.S.Zero] * (n + m)
+    dw[n - 1] = impulse / a[n]
+    for i in range(n, n + m):
+        dw[i] = (df[i - n] - sympy.Add(*[a[lo] * dw[lo + i - n] for lo in range(n)])) / a[n]
+    return [sympy.Add(*[b[j] * dw[j + k] for j in range(m + 1)]) for k in range(n)]
+
+
+def _integrate_with_inputs(problem: _Problem) -> _Trajectory:
+    """The independent integration of x = Σ b_j w⁽ʲ⁾ through w (see above); w starts from the
+    state that gives the case's x(0⁻) … x⁽ⁿ⁻¹⁾(0⁻) with the load at rest before t = 0."""
+    equation = problem.equation
+    n = equation.order
+    b = _input_weights(equation)
+    m = len(b) - 1
+    with mpmath.workdps(INTEGRATION_DIGITS):
+        a = [_mp(equation.a(i), None, INTEGRATION_DIGITS) for i in range(n + 1)]
+        bs = [_mp(value, None, INTEGRATION_DIGITS) for value in b]
+        # w⁽ⁱ⁾ as a combination of (w, …, w⁽ⁿ⁻¹⁾) while f = 0 (before t = 0)
+        rows = [[mpmath.mpf(1 if i == j else 0) for j in range(n)] for i in range(n)]
+        for i in range(n, 2 * n + m):
+            rows.append([-mpmath.fsum(a[lo] * rows[lo + i - n][j] for lo in range(n)) / a[n]
+                         for j in range(n)])
+        matrix = mpmath.matrix([[mpmath.fsum(bs[j] * rows[j + k][c] for j in range(m + 1))
+                                 for c in range(n)] for k in range(n)])
+        x0 = [_mp(v, None, INTEGRATION_DIGITS) for v in problem.initial]
+        if all(v == 0 for v in x0):
+            w0 = [mpmath.mpf(0)] * n
+        else:
+            try:
+                w0 = list(mpmath.lu_solve(matrix, mpmath.matrix(x0)))
+            except ZeroDivisionError:
+                raise ValueError("B(s) shares a root with P(s): the initial values cannot be "
+                                 "carried by the auxiliary w of this check") from None
+        # x = Σ_{j<n} b_j w⁽ʲ⁾ (+ b_n w⁽ⁿ⁾ = b_n (f − Σ a_l w⁽ˡ⁾)/a_n when m = n)
+        output = [bs[j] if j <= m else mpmath.mpf(0) for j in range(n)]
+        lead_input = bs[n] / a[n] if m == n else mpmath.mpf(0)
+        if m == n:
+            output = [output[j] - lead_input * a[j] for j in range(n)]
+        auxiliary = _Problem(_Equation(equation.coefficients, sympy.S.One), problem.segments,
+                             problem.impulses, tuple(sympy.Float(mpmath.nstr(v, INTEGRATION_DIGITS),
+                                                                 INTEGRATION_DIGITS) for v in w0),
+                             problem.until, problem.pieces)
+        trajectory = _integrate(auxiliary, auxiliary.integration_loads(), output)
+        if m == n:
+            samples = []
+            for time, value in trajectory.samples:
+                load = _load_on(problem, time, time, {})
+                samples.append((time, value + lead_input * (_mp(load.subs(T, sympy.Float(
+                    mpmath.nstr(time, INTEGRATION_DIGITS), INTEGRATION_DIGITS)), None,
+                    INTEGRATION_DIGITS) if load != 0 else 0)))
+            largest = max([abs(v) for _t, v in samples] + [trajectory.largest])
+            trajectory = _Trajectory(samples, largest, trajectory.steps, trajectory.capped)
+        return trajectory
 
 
 # ----------------------------------------------------------------------------- integration
@@ -968,7 +1096,7 @@ class _SymbolicLoads:
         return ("general", lambda time: function(time)[0], rates)
 
 
-def _integrate(problem: Any, loads: Any = None) -> _Trajectory:
+def _integrate(problem: Any, loads: Any = None, output: Sequence | None = None) -> _Trajectory:
     """Integrate a_n x⁽ⁿ⁾ + … + a_0 x = b·load(t) at 40 digits (numeric problem only).
 
     Method (chosen to share nothing with the Laplace route of the derivation): the state
@@ -994,6 +1122,7 @@ def _integrate(problem: Any, loads: Any = None) -> _Trajectory:
     need only a few).
 
     ``loads`` gives the load on each interval (default: from the problem's sympy segments).
+    ``output`` (weights c_i) samples Σ c_i x⁽ⁱ⁾ instead of x (inputs with derivatives).
     """
     loads = loads if loads is not None else _SymbolicLoads(problem)
     with mpmath.workdps(INTEGRATION_DIGITS):
@@ -1016,19 +1145,23 @@ def _integrate(problem: Any, loads: Any = None) -> _Trajectory:
         beta = b / (a[n] * rho ** (n - 1))
         z = [_mp(problem.initial[i], None, INTEGRATION_DIGITS) / rho ** i for i in range(n)]
         oscillation, decay = None, None
+        weights = None if output is None else [output[i] * rho ** i for i in range(n)]
+
+        def sampled(state):
+            return state[0] if weights is None else mpmath.fsum(w * v for w, v in zip(weights, state))
 
         cuts = loads.cuts(until)
         multiply = _matvec_plain if loads.long_history else _matvec
 
         cache: dict[tuple, Any] = {}
         samples: list[tuple[mpmath.mpf, mpmath.mpf]] = []
-        largest = abs(z[0])
+        largest = abs(sampled(z))
         steps = 0
         capped = False
         for lo, hi in zip(cuts, cuts[1:]):
             for size in loads.kicks_at(lo, until):
                 z[n - 1] += b * size / a[n] / rho ** (n - 1)
-            largest = max(largest, abs(z[0]))
+            largest = max(largest, abs(sampled(z)))
             length = hi - lo
             load = loads.on(lo, hi)
             divisions = max(2, int(mpmath.ceil(SAMPLES * length / until)) + 1)
@@ -1085,9 +1218,9 @@ def _integrate(problem: Any, loads: Any = None) -> _Trajectory:
                         for i in range(n):
                             state[i] += vector[i] * value
                 steps += 1
-                largest = max(largest, abs(state[0]))
+                largest = max(largest, abs(sampled(state)))
                 if k < count and k % per_division == 0:
-                    samples.append((lo + k * h, state[0]))
+                    samples.append((lo + k * h, sampled(state)))
             z = state[:n]
         return _Trajectory(samples, largest, steps, capped)
 
@@ -1126,7 +1259,10 @@ def _spread(samples: list, cap: int | None) -> list:
 
 def _integration_check(problem: Any, label: str = "", peak: Any = None) -> Check:
     def run() -> tuple[bool, str]:
-        trajectory = _integrate(problem, problem.integration_loads())
+        if getattr(problem.equation, "inputs", ()):
+            trajectory = _integrate_with_inputs(problem)
+        else:
+            trajectory = _integrate(problem, problem.integration_loads())
         samples = _spread(trajectory.samples, problem.sample_cap)
         starts = problem.piece_starts(INTEGRATION_DIGITS)
         functions: dict[int, Callable] = {}
