@@ -21,6 +21,7 @@ from .loads import LoadHistory, rewrite_loads
 from .metrics import ResponseMetrics, metric_fields, response_metrics
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
+from .support_motion import with_absolute_displacement
 from .systems import LinearModel, build_model
 from .verify import Check, verify
 
@@ -220,6 +221,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
                              ordering=values)
         with budget.stage("results"):
             results = evaluate_results(case, model, history, solution, window)
+            results = with_absolute_displacement(results, case, history, solution, window)
         with budget.stage("response metrics"):
             metrics = response_metrics(case, model, history, solution, window)
         partial = Derivation(case, model, history, window, solution, results, ())

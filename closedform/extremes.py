@@ -48,7 +48,21 @@ import mpmath
 import numpy
 import sympy
 
-from .verify import _U, PARSE_DIGITS, Check, _equation, _OutsideStructure, _Parser, _resolved_values
+from .verify import (
+    _U,
+    PARSE_DIGITS,
+    Check,
+    T,
+    _equation,
+    _OutsideStructure,
+    _Parser,
+    _resolved_values,
+    load_between,
+)
+
+#: Quantities that add the load itself to the weighted response (support displacement:
+#: absolute displacement x = u + y).
+WITH_LOAD = ("peak_absolute_displacement",)
 
 MAX_TOLERANCE = 1.5e-9        # no |q| above |P|·(1 + this): the reported value is the earliest
                               # within 1e-9 of the maximum, so it may lie up to 1e-9 below it;
@@ -165,6 +179,8 @@ def quantity_weights(case) -> dict[str, tuple]:
             weights["peak_support_reaction"] = (k, c)
             if model == "base-excitation":    # u″ + a_g = −(k·u + c·u′)/m from the equation
                 weights["peak_absolute_acceleration"] = (-k / m, -c / m)
+                if system.input == "support-displacement":
+                    weights["peak_absolute_displacement"] = (one,)      # u + y
         elif model == "series-rlc":
             weights["peak_current"] = (zero, number(system.parameters["capacitance"]))
             weights["peak_capacitor_voltage"] = (one,)
@@ -410,6 +426,22 @@ def _pieces(derivation, values: Mapping) -> list[tuple[mpmath.mpf, mpmath.mpf, T
     return [(a, b, piece_terms(p, values, parser)) for a, b, p in zip(starts, ends, pieces)]
 
 
+def _load_terms(case, pieces, values: Mapping) -> list[Terms]:
+    """The load on each piece in its local time, from the checks' own load evaluator."""
+    parser = _Parser(_U)
+    result = []
+    with mpmath.workdps(PARSE_DIGITS):
+        for start, end, _terms in pieces:
+            load = load_between(case, start, end, values)
+            terms: Terms = {}
+            if load != 0:
+                shifted = sympy.sympify(load).subs(T, sympy.Float(mpmath.nstr(start, PARSE_DIGITS),
+                                                                  PARSE_DIGITS) + _U)
+                _add_parsed(terms, parser.terms(sympy.expand(shifted)), 1)
+            result.append({key: c for key, c in terms.items() if c != 0})
+    return result
+
+
 def _number(value, values: Mapping) -> mpmath.mpf:
     value = sympy.sympify(value).subs(values)
     if value.is_Rational:
@@ -454,6 +486,15 @@ def extreme_checks(derivation) -> list[Check]:
                 orders.append(derivative(orders[-1]))
         quantity = [combination(list(zip(w, orders))) for orders in derived]
         slopes = [combination(list(zip(w, orders[1:]))) for orders in derived]
+        if name in WITH_LOAD:
+            try:
+                loads = _load_terms(case, pieces, values)
+            except (_OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
+                checks.append(Check(f"extreme {label}", False, "the load could not be read: "
+                                    f"{type(error).__name__}: {error}"))
+                continue
+            quantity = [combination([(1, q), (1, y)]) for q, y in zip(quantity, loads)]
+            slopes = [combination([(1, q), (1, derivative(y))]) for q, y in zip(slopes, loads)]
         checks.append(_check_one(label, extreme, pieces, quantity, slopes))
     return checks
 

@@ -983,7 +983,25 @@ def _equation_with_values(model) -> Math:
     scale = model.input_scale
     load = rf"{model.load_name}(t)"
     right = load if scale == 1 else (rf"-{load}" if scale == -1 else rf"{_factor(scale)}\,{load}")
+    if getattr(model, "input_coefficients", ()):
+        m = len(model.input_coefficients) - 1
+        parts = []
+        for i, b in enumerate(model.input_coefficients):
+            if b == 0:
+                continue
+            mark = _variable_mark(model.load_name, m - i) + ("(t)" if m - i == 0 else "")
+            parts.append(mark if b == 1 else (f"-{mark}" if b == -1 else rf"{_factor(b)}\,{mark}"))
+        right = " + ".join(parts).replace("+ -", "- ")
     return Math(" + ".join(left).replace("+ -", "- ") + " = " + right)
+
+
+def _assumptions(system) -> list[str]:
+    if system.model == "base-excitation" and system.input == "support-displacement":
+        return ["linear elastic spring, lumped mass, small displacements", "viscous damping",
+                "rigid support moving with the given displacement y(t), at rest before t = 0",
+                "u is the displacement relative to the support; the absolute displacement "
+                "is u + y"]
+    return ASSUMPTIONS[system.model]
 
 
 def _exact_time(value: sympy.Expr) -> Math:
@@ -1021,7 +1039,9 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
     coefficient_file = coefficient_file_name(stem)
     variable = model.variable
     response_prefer = RESPONSE_PREFER
-    load_prefer = {"spring-mass-damper": ("force",), "base-excitation": ("acceleration",),
+    load_prefer = {"spring-mass-damper": ("force",), "base-excitation": (
+                       "displacement" if case.system.input == "support-displacement"
+                       else "acceleration",),
                    "series-rlc": ("voltage",)}.get(case.system.model, ())
     u = sympy.Symbol("u")
     t_symbol = sympy.Symbol("t")
@@ -1339,7 +1359,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "figures": {"load": Math(figure_name(stem, "load", figure_suffix)),
                     "response": Math(figure_name(stem, "response", figure_suffix))}
         if plotted else None,
-        "assumptions": ASSUMPTIONS[case.system.model] + COMMON_ASSUMPTIONS,
+        "assumptions": _assumptions(case.system) + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
         "warnings": [w.removeprefix(f"{case.source}: ") for w in derivation.warnings],
         "paper": case.report.paper,
@@ -1687,7 +1707,9 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
         1 / float(sympy.N(response_unit.factor, 30)) if response_unit else 1.0)
     load_dimension = case.system.load_dimension
     load_unit = units.unit_for(load_dimension, {"spring-mass-damper": ("force",),
-                                                "base-excitation": ("acceleration",),
+                                                "base-excitation": (
+                                                    "displacement" if case.system.input ==
+                                                    "support-displacement" else "acceleration",),
                                                 "series-rlc": ("voltage",)}.get(case.system.model, ()))
     load_axis = plots.Axis(
         f"{derivation.model.load_name} [{unit_text(load_unit.text) if load_unit else quantities.si_unit_text(load_dimension)}]",

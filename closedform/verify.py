@@ -937,6 +937,14 @@ def _jumps(problem: _Problem, time: sympy.Expr, values: Mapping, kicks: Sequence
     return [sympy.Add(*[b[j] * dw[j + k] for j in range(m + 1)]) for k in range(n)]
 
 
+def load_between(case: Case, lo: Any, hi: Any, values: Mapping) -> sympy.Expr:
+    """The load acting on (lo, hi), as a sympy expression in ``T``, from each load's own
+    definition (this module's load evaluator, never the engine's singularity terms)."""
+    segments, _impulses = _load_model(case.loads)
+    problem = _Problem(_equation(case.system), segments, (), (), sympy.S.One, ())
+    return _subs(_load_on(problem, lo, hi, values), values)
+
+
 def _integrate_with_inputs(problem: _Problem) -> _Trajectory:
     """The independent integration of x = Σ b_j w⁽ʲ⁾ through w (see above); w starts from the
     state that gives the case's x(0⁻) … x⁽ⁿ⁻¹⁾(0⁻) with the load at rest before t = 0."""
