@@ -160,7 +160,9 @@ class ResultQuantities:
 
     Built from the JSON result fields: ``peak`` and every ``peak_…`` field are
     :class:`Extreme`; ``static`` and ``until`` are quantities; ``dlf`` is a dimensionless
-    quantity; ``residual`` is a :class:`Residual`; ``impulse_idealization`` a tuple of
+    quantity; ``final_value``, ``rise_time``, ``settling_time`` are quantities and
+    ``overshoot`` a quantity in percent (where the response has a final value);
+    ``residual`` is a :class:`Residual`; ``impulse_idealization`` a tuple of
     :class:`ImpulseIdealization`. A field that is null in the JSON is ``None``. An unknown
     name raises AttributeError listing the names there are; ``dir()`` lists them too.
 
@@ -202,6 +204,13 @@ class ResultQuantities:
                     quantity(field["amplitude"], field["unit"]), quantity(field["after"], "s"))
             elif name == "impulse_idealization":
                 values[name] = tuple(_idealization(entry) for entry in field)
+            elif name == "final_value":
+                values[name] = quantity(field, unit)
+            elif name in ("rise_time", "settling_time"):
+                values[name] = None if field is None or field["value"] is None \
+                    else quantity(field["value"], "s")
+            elif name == "overshoot":
+                values[name] = None if field is None else quantity(field["value"], "percent")
             elif isinstance(field, Mapping) and {"value", "time", "unit"} <= set(field) \
                     or (field is None and name.startswith("peak_")):
                 values[name] = _extreme(field, unit)
@@ -212,6 +221,7 @@ class ResultQuantities:
         """The results of ``derivation``: the same fields, names and SI units as its JSON
         result."""
         from . import quantities
+        from .metrics import metric_fields
         from .results import result_fields
 
         numbers = derivation.numbers
@@ -224,6 +234,7 @@ class ResultQuantities:
             "static": numbers.static,
             "dlf": numbers.dlf,
             **result_fields(numbers),
+            **metric_fields(getattr(derivation, "metrics", None)),
         })
 
     def names(self) -> tuple[str, ...]:
