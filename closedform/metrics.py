@@ -272,10 +272,12 @@ def response_metrics(case, model, history, solution, window) -> ResponseMetrics 
     unit = quantities.si_unit_text(case.system.response_dimension)
     starts = [piece.start for piece in solution.pieces]
     intervals = numeric_intervals(piece_functions(solution.pieces), starts, window.until, values)
-    stretches = [_stretches(i) for i in intervals]
+    final, rows = _tail(intervals[-1].function)
+    if final is None and not case.report.levels:
+        return ResponseMetrics(unit, None, None, None, None, (), rows)
+    stretches = [_stretches(i) for i in intervals]      # (the costly part: every x′ root)
     crossings = tuple(Crossing(float(level), tuple(float(t) for t in crossing_times(
         intervals, real_number(level, values), stretches))) for level in case.report.levels)
-    final, rows = _tail(intervals[-1].function)
     if final is None:
         return ResponseMetrics(unit, None, None, None, None, crossings, rows)
     with mpmath.workdps(DIGITS + 10):

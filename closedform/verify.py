@@ -1459,6 +1459,7 @@ def _describe(values: Mapping) -> str:
 #   LONG_SAMPLES points, one or more inside every load interval, never on a breakpoint.
 
 LONG_HISTORY = 40                  # more pieces than this: aggregated checks, numeric route
+INPUT_PIECE_LIMIT = 400            # with input derivatives: per-piece checks up to this many
 LONG_SAMPLES = 2000                # comparison points of the integration, at most
 LONG_POINT_FRACTIONS = ("0.07", "0.41", "0.77")   # residual points per interval
 PARSE_DIGITS = EXACT_DIGITS + 20   # numbers of the parsed pieces and loads
@@ -2342,13 +2343,19 @@ def verify(derivation: Any) -> list[Check]:
     """
     try:
         case: Case = derivation.case
-        long = _is_long(case, derivation)
+        inputs = _equation(case.system).inputs
+        if inputs and len(derivation.pieces) > INPUT_PIECE_LIMIT:
+            return [Check("verification", False, f"derivatives of the input act on more than "
+                          f"{INPUT_PIECE_LIMIT} pieces, more than these checks take (the "
+                          "long-history checks do not carry them)", inconclusive=True)]
+        long = _is_long(case, derivation) and not inputs   # (inputs: the per-piece checks)
         problem: Any = _long_problem(derivation) if long else _problem(derivation)
     except Exception as error:  # noqa: BLE001 - reported as a failed check
         return [Check("verification set-up", False,
                       f"could not read the case or the pieces: {type(error).__name__}: {error}")]
     results = getattr(derivation, "numbers", None)
     peak = getattr(getattr(results, "peak", None), "value", None)
+
     try:
         if long:
             return _long_checks(case, problem, peak)

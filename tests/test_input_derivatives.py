@@ -149,3 +149,15 @@ amplitude = 1
 ], ids=["as many as the output", "leading zero", "not a list", "with a unit"])
 def test_bad_input_coefficients(tmp_path, capsys, text, expected):
     assert_message(tmp_path, capsys, text, expected)
+
+
+def test_a_history_past_the_long_route_keeps_the_per_piece_checks():
+    # more pieces than verify.LONG_HISTORY: the input's derivatives are still checked piece
+    # by piece (the aggregated long-history checks do not carry them)
+    points = [[round(0.002 * i, 6), round(0.5 + 0.4 * math.sin(i / 3.0), 4)] for i in range(45)]
+    table = "[[load]]\nshape = \"table\"\npoints = " + repr(points) + "\n"
+    d = derive_text(ode_case([1, 160, 40000], [80, 40000], table, 0.2))
+    assert len(d.pieces) > 40
+    assert d.status == "verified"
+    names = [c.name for c in d.checks]
+    assert sum(name.startswith("breakpoint conditions") for name in names) == len(d.pieces) - 1
