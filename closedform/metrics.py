@@ -40,6 +40,7 @@ import mpmath
 
 from . import quantities
 from .basis import COS, NumericExponentialPolynomial
+from .errors import DerivationError
 from .results import DIGITS, Interval, numeric_intervals, piece_functions, real_number, stationary_points
 
 BAND = mpmath.mpf(2) / 100           # settling band, relative to the final value
@@ -265,9 +266,20 @@ def _extended(intervals: list[Interval], length) -> list[Interval]:
 
 
 def response_metrics(case, model, history, solution, window) -> ResponseMetrics | None:
-    """The metrics of one derived case; None for a case whose symbols have no values."""
+    """The metrics of one derived case; None for a case whose symbols have no values.
+
+    Raises DerivationError where the roots cannot be found (a response beyond the float range
+    while levels are asked for): never a metric that was not established."""
     if case.is_symbolic and not case.is_fully_valued:
         return None
+    try:
+        return _metrics(case, history, solution, window)
+    except (OverflowError, ArithmeticError) as error:
+        raise DerivationError(f"the response metrics could not be computed: "
+                              f"{type(error).__name__}: {error}") from None
+
+
+def _metrics(case, history, solution, window) -> ResponseMetrics:
     values = case.symbol_values()
     unit = quantities.si_unit_text(case.system.response_dimension)
     starts = [piece.start for piece in solution.pieces]
