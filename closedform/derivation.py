@@ -16,7 +16,7 @@ import sympy
 from . import __version__
 from .case import Case
 from .energy import energy_checks
-from .extremes import extreme_checks
+from .extremes import extreme_checks, metric_checks
 from .loads import LoadHistory, rewrite_loads
 from .metrics import ResponseMetrics, metric_fields, response_metrics
 from .response import EXACT_BREAKPOINT_LIMIT, Solution, solve
@@ -224,7 +224,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
             results = with_absolute_displacement(results, case, history, solution, window)
         with budget.stage("response metrics"):
             metrics = response_metrics(case, model, history, solution, window)
-        partial = Derivation(case, model, history, window, solution, results, ())
+        partial = Derivation(case, model, history, window, solution, results, (), (), metrics)
         with budget.stage("verification"):
             checks = tuple(verify(partial))
         with budget.stage("energy balance"):
@@ -234,6 +234,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
             checks += (printed_equation_check(partial),)
         with budget.stage("extremes"):
             checks += tuple(extreme_checks(partial))
+            checks += tuple(metric_checks(partial))
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results), metrics)

@@ -274,3 +274,23 @@ def test_metrics_table_on_the_sheet():
 ], ids=["wrong dimension", "not a list"])
 def test_bad_levels(tmp_path, capsys, text, expected):
     assert_message(tmp_path, capsys, text, expected)
+
+
+def test_a_wrong_metric_fails_its_check():
+    # the metrics are read again from the verification's own parse of the pieces: a time
+    # moved by 1 %, or a level crossing that is not one, fails the check
+    import dataclasses
+
+    from closedform.extremes import metric_checks
+    d = derive_text(oscillator_step(0.3, 10.0, 2.0, 'levels = ["1.2 m"]'))
+    (right,) = metric_checks(d)
+    assert right.passed
+    rise = d.metrics.rise_time
+    moved = dataclasses.replace(d.metrics, rise_time=dataclasses.replace(rise, start=rise.start * 1.01))
+    (check,) = metric_checks(dataclasses.replace(d, metrics=moved))
+    assert not check.passed and "10 % of x_f" in check.detail
+    crossing = d.metrics.crossings[0]
+    shifted = dataclasses.replace(crossing, times=(crossing.times[0] + 1e-3,) + crossing.times[1:])
+    (check,) = metric_checks(dataclasses.replace(
+        d, metrics=dataclasses.replace(d.metrics, crossings=(shifted,))))
+    assert not check.passed and "level 1.2" in check.detail
