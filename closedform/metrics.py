@@ -222,12 +222,14 @@ def _envelope(rows: list):
     return envelope, turn, slowest
 
 
-def envelope_time(rows: list, bound, start):
+def envelope_time(rows: list, bound, start, cap=None):
     """A local time u ≥ start past which the envelope stays ≤ bound (None: not within
-    ENVELOPE_LIMIT slowest decay times)."""
+    ENVELOPE_LIMIT slowest decay times, nor before ``cap``)."""
     with mpmath.workdps(DIGITS + 10):
         envelope, turn, slowest = _envelope(rows)
         low = max(mpmath.mpf(start), turn)
+        if cap is not None and low > cap:
+            return None
         if envelope(low) <= bound:
             return low
         step = slowest if slowest > 0 else mpmath.mpf(1)
@@ -243,7 +245,7 @@ def envelope_time(rows: list, bound, start):
                 high = middle
             else:
                 low = middle
-        return high
+        return None if cap is not None and high > cap else high
 
 
 # ----------------------------------------------------------------------------- metrics
@@ -298,7 +300,9 @@ def _metrics(case, history, solution, window) -> ResponseMetrics:
         band = BAND * abs(final)
         window_length = intervals[-1].end - intervals[-1].start
     continues = _continues(history, window.until, values)
-    settle_at = envelope_time(rows, band, window_length) if continues else None
+    # followed at most ENVELOPE_LIMIT windows past the end (float-sized intervals)
+    cap = ENVELOPE_LIMIT * intervals[-1].end
+    settle_at = envelope_time(rows, band, window_length, cap) if continues else None
     followed = _extended(intervals, settle_at) if settle_at is not None else intervals
     followed_stretches = stretches if settle_at is None else \
         stretches[:-1] + [_stretches(followed[-1])]
@@ -313,7 +317,7 @@ def _metrics(case, history, solution, window) -> ResponseMetrics:
     if settle_at is None:
         why = ("a load acts after the analysis window, so the response after it is not known "
                "here" if not continues else "the envelope of the decaying terms does not enter "
-               f"the band within {ENVELOPE_LIMIT:g} decay times")
+               f"the band within {ENVELOPE_LIMIT:g} decay times or analysis windows")
         settling = SettlingTime(None, float(BAND), False, f"not established: {why}")
     else:
         edges = [t for level in (final - band, final + band)
@@ -333,11 +337,11 @@ def _metrics(case, history, solution, window) -> ResponseMetrics:
 
     overshoot = None
     if ratio0 < 1:
-        overshoot = _overshoot(followed, followed_stretches, final, rows, settle_at)
+        overshoot = _overshoot(followed, followed_stretches, final, rows, settle_at, cap)
     return ResponseMetrics(unit, float(final), rise, settling, overshoot, crossings)
 
 
-def _overshoot(intervals, stretches, final, rows, followed_to) -> Overshoot:
+def _overshoot(intervals, stretches, final, rows, followed_to, cap) -> Overshoot:
     """The largest excess beyond the final value after the response first reaches it."""
     def search(intervals, stretches):
         first = crossing_times(intervals, final, stretches)
@@ -365,7 +369,8 @@ def _overshoot(intervals, stretches, final, rows, followed_to) -> Overshoot:
         local_end = intervals[-1].end - intervals[-1].start
         excess = best[0] if best is not None else mpmath.mpf(0)
         if excess * abs(final) < envelope(local_end):
-            further = envelope_time(rows, max(excess, OVERSHOOT_FLOOR) * abs(final), local_end)
+            further = envelope_time(rows, max(excess, OVERSHOOT_FLOOR) * abs(final), local_end,
+                                    cap)
             if further is not None and further > local_end:
                 intervals = _extended(intervals, further)
                 stretches = stretches[:-1] + [_stretches(intervals[-1])]
