@@ -64,7 +64,7 @@ SHAPES = shapes.names()
 PULSE_SHAPES = tuple(name for name in SHAPES if shapes.get(name).pulse)
 
 _TOP_KEYS = ("title", "reference", "system", "initial", "load", "report", "symbols", "claims")
-_REPORT_KEYS = ("until", "units", "numbers", "digits", "paper")
+_REPORT_KEYS = ("until", "units", "numbers", "digits", "paper", "levels")
 # [report] units: every quantity a sheet shows, with the dimension its unit must have
 # (None: the model's response, whatever it measures).
 _DISPLAY_DIMENSIONS = {
@@ -80,7 +80,7 @@ _DISPLAY_QUANTITIES = tuple(_DISPLAY_DIMENSIONS)
 NUMBER_STYLES = ("auto", "exact", "decimal")
 PAPER_SIZES = ("a4", "letter")
 DIGITS_RANGE = (2, 15)
-_INITIAL_KEYS = ("values", "displacement", "velocity")
+_INITIAL_KEYS = ("values", "displacement", "velocity", "voltage")
 # Claim names are the result names of the JSON result, known only once the case is derived
 # (closedform.claims checks them then); here a claim key must merely look like one.
 _CLAIM_NAME_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
@@ -96,6 +96,8 @@ MAX_TEXT = 500
 MAX_LOADS = 1000
 #: Most names declared under [symbols].
 MAX_SYMBOLS = 100
+#: Most [report] levels.
+MAX_LEVELS = 20
 # Characters refused in free text: controls (a tab is fine) and the bidirectional overrides
 # that make text display in an order other than the one it is read in.
 _HIDDEN_CHARACTERS = frozenset(chr(c) for c in (*range(0, 9), *range(10, 32), 127,
@@ -318,6 +320,12 @@ class _Reader:
         loads = tuple(self.load(self.table(item, f"load[{i}]"), i, system.load_dimension)
                       for i, item in enumerate(loads_data, start=1))
         self.breakpoint_limit(loads)
+        if system.input == "support-displacement":
+            for load in loads:
+                if load.shape == "impulse":
+                    raise self.error(f"{load.key}.shape", "an impulse is not a support "
+                                     "displacement (a Dirac displacement has no finite response); "
+                                     "give the displacement history, e.g. a step or a table")
         initial = self.initial(data.get("initial"), system)
         report = self.report(self.table(data.get("report", {}), "report"), system)
         return Case(title=title.strip(), reference=reference.strip(), system=system,
@@ -477,21 +485,38 @@ class _Reader:
         return Repeat(count, every)
 
     def initial(self, data: Any, system: SystemSpec) -> tuple[sympy.Expr, ...] | None:
-        if data is None:
+        current = system.parameters.get("initial_current")
+        if data is None and current is None:
             return None
-        data = self.table(data, "initial")
+        data = self.table({} if data is None else data, "initial")
         self.check_keys(data, _INITIAL_KEYS, "initial")
         order = _order(system)
         dimensions = _initial_dimensions(system, order)
         if "values" in data:
+            if current is not None:
+                raise self.error("initial.values", "give the capacitor voltage as initial.voltage "
+                                                   "with system.initial_current, not values")
             if "displacement" in data or "velocity" in data:
                 raise self.error("initial.values", "give values or displacement/velocity, not both")
+            if "voltage" in data:
+                raise self.error("initial.values", "give values or voltage, not both")
             raw = data["values"]
             if not isinstance(raw, list) or len(raw) != order:
                 raise self.error("initial.values", f"expected {order} values x(0)…x^({order - 1})(0), "
                                                    f"got {_shown(raw)}")
             return tuple(self.quantity(v, dimensions[i], f"initial.values[{i}]")
                          for i, v in enumerate(raw))
+        if system.model == "series-rlc":     # i(0) = C·v′(0): folded into the initial values
+            if "displacement" in data or "velocity" in data:
+                raise self.error("initial.displacement" if "displacement" in data else
+                                 "initial.velocity", "displacement/velocity are for mechanical "
+                                 "models; use voltage = … (capacitor) and system.initial_current")
+            voltage = self.quantity(data.get("voltage", 0), dimensions[0], "initial.voltage")
+            return (voltage, sympy.S.Zero if current is None
+                    else current / system.parameters["capacitance"])
+        if "voltage" in data:
+            raise self.error("initial.voltage", "voltage is the capacitor voltage of the "
+                                                "series-rlc model; use values = […]")
         if not models.get(system.model).mechanical:
             raise self.error("initial.displacement", "displacement/velocity are for mechanical "
                                                      "models; use values = […]")
@@ -544,7 +569,14 @@ class _Reader:
         if paper not in PAPER_SIZES:
             raise self.error("report.paper", f"expected one of {', '.join(PAPER_SIZES)}, "
                                              f"got {_shown_value(paper)}")
-        return ReportSpec(until, MappingProxyType(units), numbers, digits, paper)
+        levels = data.get("levels", [])     # response values whose crossing times are wanted
+        if not isinstance(levels, list) or len(levels) > MAX_LEVELS:
+            raise self.error("report.levels", f"expected a list of at most {MAX_LEVELS} values "
+                                              f"of the response, got {_shown(levels)}")
+        dimension = system.response_dimension if system is not None else "dimensionless"
+        return ReportSpec(until, MappingProxyType(units), numbers, digits, paper,
+                          tuple(self.quantity(item, dimension, f"report.levels[{i}]")
+                                for i, item in enumerate(levels)))
 
 
 def _function_names() -> tuple[str, ...]:

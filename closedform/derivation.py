@@ -19,8 +19,10 @@ from .case import Case
 from .checks.base import Check
 from .checks.registry import DERIVE, run_checks
 from .loads import LoadHistory, rewrite_loads
+from .metrics import ResponseMetrics, metric_fields, response_metrics
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
+from .support_motion import with_absolute_displacement
 from .systems import LinearModel, build_model
 
 if TYPE_CHECKING:
@@ -100,6 +102,7 @@ class Derivation:
     numbers: Results
     checks: tuple[Check, ...]
     warnings: tuple[str, ...] = ()
+    metrics: ResponseMetrics | None = None
 
     @property
     def pieces(self) -> tuple[Piece, ...]:
@@ -257,11 +260,14 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation | Chai
                              ordering=values)
         with budget.stage("results"):
             results = evaluate_results(case, model, history, solution, window)
-        partial = Derivation(case, model, history, window, solution, results, ())
+            results = with_absolute_displacement(results, case, history, solution, window)
+        with budget.stage("response metrics"):
+            metrics = response_metrics(case, model, history, solution, window)
+        partial = Derivation(case, model, history, window, solution, results, (), (), metrics)
         checks = run_checks(partial, DERIVE, stage=budget.stage)
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
-                      window_warnings(case, window, results))
+                      window_warnings(case, window, results), metrics)
 
 
 def _seconds(value: sympy.Expr) -> str:
@@ -372,6 +378,33 @@ def _extreme(extreme: Extreme | None) -> dict[str, float] | None:
     return {"value": extreme.value, "time": extreme.time}
 
 
+CURRENT_PIECE_LIMIT = 200     # longer histories: the current's pieces are left to evaluate()
+
+
+def current_pieces(derivation) -> list[tuple[sympy.Expr, sympy.Expr | None, sympy.Expr]]:
+    """(start, end, i(t) = C·v′(t) in the global time) of each piece of a series-rlc case."""
+    if derivation.case.system.model != "series-rlc" or len(derivation.pieces) > CURRENT_PIECE_LIMIT:
+        return []
+    from .response import t
+    capacitance = derivation.case.system.parameters["capacitance"]
+    return [(p.start, p.end, sympy.expand(capacitance * sympy.diff(p.expression(t), t)))
+            for p in derivation.pieces]
+
+
+def current_fields(derivation) -> dict[str, Any]:
+    """``current`` of a series-rlc case: i(0) and i(t) = C·v′(t) on each interval (SI)."""
+    if derivation.case.system.model != "series-rlc":
+        return {}
+    values = derivation.case.symbol_values()
+    initial = derivation.case.initial
+    capacitance = derivation.case.system.parameters["capacitance"]
+    start = sympy.S.Zero if initial is None else capacitance * initial[1]
+    return {"current": {
+        "initial": _time_value(start, values), "unit": "A",
+        "pieces": [{"start": _time_value(a, values), "end": _time_value(b, values),
+                    "expr": str(expr)} for a, b, expr in current_pieces(derivation)]}}
+
+
 def result_dictionary(derivation: Derivation) -> dict[str, Any]:
     """The JSON result contract (schema 1) of the design brief."""
     from . import quantities
@@ -396,6 +429,8 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "static": results.static,
         "dlf": results.dlf,
         **result_fields(results),
+        **metric_fields(derivation.metrics),
+        **current_fields(derivation),
         "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],

@@ -124,6 +124,39 @@ class Residual:
 
 
 @dataclass(frozen=True)
+class RiseTime:
+    """Rise time from 10 % to 90 % of the final value (JSON ``rise_time``): ``value`` and the
+    times ``start`` and ``end`` it runs between; ``to`` converts the value."""
+
+    value: Any
+    start: Any
+    end: Any
+
+    def to(self, unit: str):
+        return self.value.to(unit)
+
+    def __str__(self) -> str:
+        return f"{self.value} from {self.start} to {self.end}"
+
+
+@dataclass(frozen=True)
+class SettlingTime:
+    """Settling time into the band (JSON ``settling_time``): ``value`` (None when not
+    established), the relative ``band``, ``established`` and the ``note`` saying how."""
+
+    value: Any
+    band: float
+    established: bool
+    note: str
+
+    def to(self, unit: str):
+        return None if self.value is None else self.value.to(unit)
+
+    def __str__(self) -> str:
+        return f"{self.value} ({self.note})"
+
+
+@dataclass(frozen=True)
 class ImpulseIdealization:
     """One pulse replaced by an impulse of its area at its centroid (JSON
     ``impulse_idealization`` entries, with quantities for the numbers that have units)."""
@@ -160,7 +193,10 @@ class ResultQuantities:
 
     Built from the JSON result fields: ``peak`` and every ``peak_…`` field are
     :class:`Extreme`; ``static`` and ``until`` are quantities; ``dlf`` is a dimensionless
-    quantity; ``residual`` is a :class:`Residual`; ``impulse_idealization`` a tuple of
+    quantity; where the response has a final value, ``final_value`` is a quantity,
+    ``rise_time`` a :class:`RiseTime`, ``settling_time`` a :class:`SettlingTime` and
+    ``overshoot`` an :class:`Extreme` in percent;
+    ``residual`` is a :class:`Residual`; ``impulse_idealization`` a tuple of
     :class:`ImpulseIdealization`. A field that is null in the JSON is ``None``. An unknown
     name raises AttributeError listing the names there are; ``dir()`` lists them too.
 
@@ -202,6 +238,20 @@ class ResultQuantities:
                     quantity(field["amplitude"], field["unit"]), quantity(field["after"], "s"))
             elif name == "impulse_idealization":
                 values[name] = tuple(_idealization(entry) for entry in field)
+            elif name == "final_value":
+                values[name] = quantity(field, unit)
+            elif name == "rise_time":
+                values[name] = None if field is None else RiseTime(
+                    quantity(field["value"], "s"), quantity(field["start"], "s"),
+                    quantity(field["end"], "s"))
+            elif name == "settling_time":
+                values[name] = SettlingTime(
+                    None if field["value"] is None else quantity(field["value"], "s"),
+                    field["band"], field["established"], field["note"])
+            elif name == "overshoot":
+                values[name] = None if field is None else Extreme(
+                    quantity(field["value"], "percent"),
+                    None if field["time"] is None else quantity(field["time"], "s"))
             elif isinstance(field, Mapping) and {"value", "time", "unit"} <= set(field) \
                     or (field is None and name.startswith("peak_")):
                 values[name] = _extreme(field, unit)
@@ -212,6 +262,7 @@ class ResultQuantities:
         """The results of ``derivation``: the same fields, names and SI units as its JSON
         result."""
         from . import quantities
+        from .metrics import metric_fields
         from .results import result_fields
 
         numbers = derivation.numbers
@@ -224,6 +275,7 @@ class ResultQuantities:
             "static": numbers.static,
             "dlf": numbers.dlf,
             **result_fields(numbers),
+            **metric_fields(getattr(derivation, "metrics", None)),
         })
 
     def names(self) -> tuple[str, ...]:

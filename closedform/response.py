@@ -152,7 +152,7 @@ def solve(model: LinearModel | ScalarEquation, history: LoadHistory, initial: Se
             *[term.coefficient * sympy.exp(-term.at * s) * mode_transforms[term.mode]
               for term in history.terms],
             *[impulse.impulse * sympy.exp(-impulse.at * s) for impulse in history.impulses])
-        transform = (model.input_scale * load_transform + q) / model.characteristic_polynomial()
+        transform = (model.input_polynomial() * load_transform + q) / model.characteristic_polynomial()
 
     free = None
     if q != 0:
@@ -162,7 +162,7 @@ def solve(model: LinearModel | ScalarEquation, history: LoadHistory, initial: Se
     for term in history.terms:
         if term.mode not in kernels:
             mode_transform, pair = transform_of_mode(term.mode)
-            scaled = RationalTransform(mode_transform.numerator * model.input_scale,
+            scaled = RationalTransform(mode_transform.numerator * model.input_polynomial(),
                                        mode_transform.poles)
             over_system = scaled.divided_by(lead, model.poles)
             _refuse_resonance_hidden_by_symbols(over_system, ordering)
@@ -170,7 +170,7 @@ def solve(model: LinearModel | ScalarEquation, history: LoadHistory, initial: Se
     if history.impulses:
         pair = TablePair("unit impulse", sympy.DiracDelta(sympy.Symbol("u")), sympy.S.One,
                          SOURCES["impulse"])
-        unit = RationalTransform(model.input_scale, ())
+        unit = RationalTransform(model.input_polynomial(), ())
         kernels[None] = Kernel("unit impulse", None, pair, invert(unit.divided_by(lead, model.poles)))
 
     # Events in time order; those at or after the end of the window do not act on it.

@@ -737,8 +737,8 @@ def impulse_response_peak(coefficients: Sequence, scale, impulse) -> tuple[mpmat
 def impulse_idealizations(case, model, history: LoadHistory, solution,
                           values: Mapping) -> tuple[ImpulseIdealization, ...]:
     """The impulse idealization of every pulse of a second-order case (first occurrence)."""
-    if model.order != 2 or model.coefficients[-1] == 0:
-        return ()
+    if model.order != 2 or model.coefficients[-1] == 0 or model.input_coefficients:
+        return ()     # (where input derivatives act, the impulse response is not b·h)
     with mpmath.workdps(DIGITS + 10):
         coefficients = [real_number(a, values) for a in model.coefficients]
         scale = real_number(model.input_scale, values)

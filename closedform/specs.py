@@ -64,6 +64,7 @@ class SystemSpec:
     regime: str | None
     load_dimension: Any
     response_dimension: Any
+    input: str | None = None      # base-excitation: support-acceleration | support-displacement
 
     def get(self, name: str) -> sympy.Expr | None:
         return self.parameters.get(name)
@@ -120,6 +121,7 @@ class ReportSpec:
     numbers: str = "auto"       # auto | exact | decimal: how the sheet prints numbers
     digits: int = 6             # significant digits of decimals on the sheet
     paper: str = "a4"           # a4 | letter
+    levels: tuple[sympy.Expr, ...] = ()   # response levels whose crossing times are reported
 
 
 @dataclass(frozen=True)

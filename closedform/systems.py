@@ -40,6 +40,16 @@ class LinearModel:
     regime: str
     exact_poles: bool
     regime_note: str = ""
+    input_coefficients: tuple[sympy.Expr, ...] = ()   # b_m … b_0 where the input's derivatives act
+
+    def input_polynomial(self) -> sympy.Expr:
+        """B(s) = b_m s^m + … + b_0 (the right-hand side b_m f⁽ᵐ⁾ + … + b_0 f transformed from
+        rest, L{f⁽ʲ⁾} = sʲF(s) for a load that is zero before t = 0); the input scale b where
+        no derivative of the input acts."""
+        if not self.input_coefficients:
+            return self.input_scale
+        m = len(self.input_coefficients) - 1
+        return sympy.Add(*[b * s ** (m - i) for i, b in enumerate(self.input_coefficients)])
 
     @property
     def order(self) -> int:
@@ -50,7 +60,10 @@ class LinearModel:
 
     @property
     def equation(self) -> str:
-        return models.get(self.name).equation
+        definition = models.get(self.name)
+        if self.input_coefficients:
+            return definition.input_equation
+        return definition.equation
 
     def static_gain(self) -> sympy.Expr | None:
         """x per unit load when held steady: b / a_0 (None when there is no restoring term)."""
@@ -114,6 +127,10 @@ class ScalarEquation:
     def lead(self) -> sympy.Expr:
         return self.coefficients[0]
 
+    def input_polynomial(self) -> sympy.Expr:
+        """B(s): the input scale b (no derivative of the input acts on one mode)."""
+        return self.input_scale
+
     def characteristic_polynomial(self) -> sympy.Expr:
         return sympy.Add(*[a * s ** (self.order - i) for i, a in enumerate(self.coefficients)])
 
@@ -138,10 +155,16 @@ def build_model(system: SystemSpec, values: Mapping[sympy.Symbol, sympy.Expr] | 
     """
     definition = models.get(system.model)
     coefficients, scale = definition.equation_of(system.parameters)
+    inputs = definition.input_coefficients(system)
+    if inputs:
+        scale = inputs[-1]            # b_0: the static gain is B(0)/a_0
     coefficients = tuple(sympy.sympify(a) for a in coefficients)
     poles, regime, exact, note = _poles(coefficients, system, dict(values or {}), key_prefix)
-    return LinearModel(system.model, definition.variable, definition.load_name,
-                       coefficients, scale, coefficients[0], poles, regime, exact, note)
+    load_name = (definition.input_load_name or definition.load_name) if inputs \
+        else definition.load_name
+    return LinearModel(system.model, definition.variable, load_name,
+                       coefficients, sympy.sympify(scale), coefficients[0], poles, regime,
+                       exact, note, inputs)
 
 
 def _poles(coefficients: tuple[sympy.Expr, ...], system: SystemSpec, values: dict,

@@ -105,10 +105,12 @@ def test_the_worked_audit_case_refutes_exactly_its_wrong_number(capsys):
 
 
 @pytest.mark.parametrize("claims, message", [
-    ("", "claims.toml:13: claims: no [claims] to audit (expected some of: at, dlf, peak, "
+    ("", "claims.toml:13: claims: no [claims] to audit (expected some of: at, dlf, "
+         "final_value, overshoot, overshoot_response, overshoot_time, peak, "
          "peak_acceleration, peak_acceleration_time, peak_spring_force, peak_spring_force_time, "
          "peak_support_reaction, peak_support_reaction_time, peak_time, peak_velocity, "
-         "peak_velocity_time, residual, response, static)"),
+         "peak_velocity_time, residual, response, rise_time, rise_time_end, rise_time_start, "
+         "settling_time, settling_time_band, static)"),
     ('peak = "3 kg"\n', "claims.toml:14: claims.peak: wrong dimension (expected length, got mass)"),
 ])
 def test_unusable_claims_exit_2(tmp_path, claims, message):

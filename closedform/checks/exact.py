@@ -130,7 +130,7 @@ def _split_zero(x: sympy.Expr, load: sympy.Expr, equation: Equation, simplify: b
         for term in sum_terms(image):
             k, psi = term.as_independent(T, as_Add=False)
             totals[psi] = totals.get(psi, sympy.S.Zero) + constant * k
-    for term in sum_terms(sympy.expand(equation.scale * load)):
+    for term in sum_terms(sympy.expand(equation.right_side(load))):
         k, psi = term.as_independent(T, as_Add=False)
         totals[psi] = totals.get(psi, sympy.S.Zero) - k
     return all(_zero_symbolically(total, simplify, probe) for total in totals.values())
@@ -145,7 +145,10 @@ def _residual_figure(equation: Equation, derivatives: Sequence[sympy.Expr], load
         a = equation.a(i)
         if a != 0:
             terms.extend(a * term for term in sum_terms(derivatives[i]))
-    terms.extend(-equation.scale * term for term in sum_terms(load))
+    if equation.inputs:
+        terms.extend(-term for term in sum_terms(sympy.expand(equation.right_side(load))))
+    else:
+        terms.extend(-equation.scale * term for term in sum_terms(load))
     evaluate = compile_function(terms)
     worst, where = mpmath.mpf(0), None
     with mpmath.workdps(dps):
@@ -278,15 +281,17 @@ def initial_check(problem: Problem, reference: Mapping, fallbacks: Sequence[Mapp
         n = problem.equation.order
         derivatives = problem.derivatives(0)
         kicks = _impulses_at(problem, sympy.S.Zero, reference)
-        jump = problem.equation.jump(sympy.Add(*[k.size for k in kicks]))
+        jumps = _jumps(problem, sympy.S.Zero, reference, kicks)
         pairs = []
         for j in range(n):
-            expected = problem.initial[j] + (jump if j == n - 1 else 0)
+            expected = problem.initial[j] + jumps[j]
             pairs.append((f"{name_of_derivative(j)}(0+)", [], list(sum_terms(derivatives[j])),
                           expected))
         passed, detail = _compare(pairs, symbolic, fallbacks, sympy.S.Zero)
         given = "at rest" if all(is_zero(v) for v in problem.initial) else "as given"
         extra = f"; impulse of {', '.join(k.load for k in kicks)} at t = 0" if kicks else ""
+        if problem.equation.inputs and any(not is_zero(j) for j in jumps):
+            extra += "; jumps from the input's derivatives at t = 0 added"
         return passed, f"initial state {given}{extra}: {detail}"
     return guard("initial values" + (" [symbolic]" if symbolic else ""), run)
 
@@ -303,17 +308,22 @@ def breakpoint_checks(problem: Problem, reference: Mapping, fallbacks: Sequence[
 
         def run(index: int = index, time: sympy.Expr = time) -> tuple[bool, str]:
             kicks = _impulses_at(problem, time, reference)
-            jump = problem.equation.jump(sympy.Add(*[k.size for k in kicks]))
+            jumps = _jumps(problem, time, reference, kicks)
+            jump = jumps[-1]
             left = problem.derivatives(index)
             right = problem.derivatives(index + 1)
             pairs = []
             for j in range(n):
                 pairs.append((f"{name_of_derivative(j)} at t = {short(time)}",
-                              list(sum_terms(left[j])), list(sum_terms(right[j])),
-                              jump if j == n - 1 else sympy.S.Zero))
+                              list(sum_terms(left[j])), list(sum_terms(right[j])), jumps[j]))
             passed, detail = _compare(pairs, symbolic, fallbacks, time)
             names = [name_of_derivative(j) for j in range(n)]
-            if kicks:
+            if problem.equation.inputs:
+                shown = ", ".join(f"{name} by {short(to_mpf(value, reference))}"
+                                  for name, value in zip(names, jumps))
+                rule = (f"jumps from the input's derivatives and impulses (integrated across "
+                        f"t = {short(time)} from the load's own branches): {shown}")
+            elif kicks:
                 size = sympy.simplify(jump) if symbolic else short(to_mpf(jump, reference))
                 rule = (f"{names[-1]} jumps by b·J/a_n = {size} "
                         f"(impulse of {', '.join(k.load for k in kicks)})")
@@ -329,6 +339,55 @@ def breakpoint_checks(problem: Problem, reference: Mapping, fallbacks: Sequence[
     return checks + impulses_off_boundaries(
         problem.impulses, n, until, lambda value: to_mpf(value, reference),
         lambda at: any(same_time(at, b, until) for b in known), suffix)
+
+
+# ----------------------------------------------------------------------------- inputs with derivatives
+#
+# Where derivatives of the input act, a_n x⁽ⁿ⁾ + … + a_0 x = b_m f⁽ᵐ⁾ + … + b_0 f: across a
+# breakpoint, through the auxiliary w with a_n w⁽ⁿ⁾ + … + a_0 w = f and x = Σ b_j w⁽ʲ⁾,
+# w, …, w⁽ⁿ⁻²⁾ are continuous, w⁽ⁿ⁻¹⁾ jumps by J/a_n (impulse J), and each higher
+# derivative by (Δf⁽ⁱ⁻ⁿ⁾ − Σ_l a_l Δw⁽ˡ⁺ⁱ⁻ⁿ⁾)/a_n from the equation; the jumps Δf⁽ʲ⁾ of the
+# load come from its own branches on either side. x⁽ᵏ⁾ then jumps by Σ_j b_j Δw⁽ʲ⁺ᵏ⁾.
+
+
+def load_jumps(problem: Problem, time: sympy.Expr, values: Mapping, count: int) -> list:
+    """f(t⁺) − f(t⁻), f′(t⁺) − f′(t⁻), … (``count`` of them) from the load's own branches."""
+    instant = to_mpf(time, values)
+    scale = max(abs(to_mpf(problem.until, values)), TINY)
+    jumps = [sympy.S.Zero] * count
+    for segment in problem.segments:
+        start = to_mpf(segment.start, values)
+        end = None if segment.end is None else to_mpf(segment.end, values)
+        starts_here = same_time(start, instant, scale)
+        ends_here = end is not None and same_time(end, instant, scale)
+        before = start < instant and not starts_here and (end is None or end > instant or ends_here)
+        after = (start < instant or starts_here) and (end is None or (end > instant and not ends_here))
+        if before == after:
+            continue
+        sign = 1 if after else -1
+        derivative = segment.value
+        for i in range(count):
+            jumps[i] += sign * derivative.subs(T, time)
+            derivative = sympy.diff(derivative, T)
+    return jumps
+
+
+def _jumps(problem: Problem, time: sympy.Expr, values: Mapping, kicks: Sequence[Impulse]) -> list:
+    """What x, x′, … x⁽ⁿ⁻¹⁾ jump by at ``time`` (impulses ``kicks`` there)."""
+    equation = problem.equation
+    n = equation.order
+    impulse = sympy.Add(*[k.size for k in kicks])
+    if not equation.inputs:
+        return [sympy.S.Zero] * (n - 1) + [equation.jump(impulse)]
+    b = list(reversed(equation.inputs))          # b_0 … b_m
+    m = len(b) - 1
+    df = load_jumps(problem, time, values, max(m, 1))
+    a = [equation.a(i) for i in range(n + 1)]
+    dw = [sympy.S.Zero] * (n + m)
+    dw[n - 1] = impulse / a[n]
+    for i in range(n, n + m):
+        dw[i] = (df[i - n] - sympy.Add(*[a[lo] * dw[lo + i - n] for lo in range(n)])) / a[n]
+    return [sympy.Add(*[b[j] * dw[j + k] for j in range(m + 1)]) for k in range(n)]
 
 
 def impulses_off_boundaries(impulses: Sequence[Impulse], order: int, until: mpmath.mpf,

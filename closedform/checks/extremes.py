@@ -48,10 +48,14 @@ import mpmath
 import numpy
 import sympy
 
-from .base import Check
+from .base import Check, T
 from .long import LOCAL_TIME, PARSE_DIGITS, OutsideStructure, Parser
-from .model import equation_of
+from .model import equation_of, load_between
 from .substitutions import resolved_values
+
+#: Quantities that add the load itself to the weighted response (support displacement:
+#: absolute displacement x = u + y).
+WITH_LOAD = ("peak_absolute_displacement",)
 
 MAX_TOLERANCE = 1.5e-9        # no |q| above |P|·(1 + this): the reported value is the earliest
                               # within 1e-9 of the maximum, so it may lie up to 1e-9 below it;
@@ -168,6 +172,8 @@ def quantity_weights(case) -> dict[str, tuple]:
             weights["peak_support_reaction"] = (k, c)
             if model == "base-excitation":    # u″ + a_g = −(k·u + c·u′)/m from the equation
                 weights["peak_absolute_acceleration"] = (-k / m, -c / m)
+                if system.input == "support-displacement":
+                    weights["peak_absolute_displacement"] = (one,)      # u + y
         elif model == "series-rlc":
             weights["peak_current"] = (zero, number(system.parameters["capacitance"]))
             weights["peak_capacitor_voltage"] = (one,)
@@ -413,6 +419,22 @@ def _pieces(derivation, values: Mapping) -> list[tuple[mpmath.mpf, mpmath.mpf, T
     return [(a, b, piece_terms(p, values, parser)) for a, b, p in zip(starts, ends, pieces)]
 
 
+def _load_terms(case, pieces, values: Mapping) -> list[Terms]:
+    """The load on each piece in its local time, from the checks' own load evaluator."""
+    parser = Parser(LOCAL_TIME)
+    result = []
+    with mpmath.workdps(PARSE_DIGITS):
+        for start, end, _terms in pieces:
+            load = load_between(case, start, end, values)
+            terms: Terms = {}
+            if load != 0:
+                shifted = sympy.sympify(load).subs(T, sympy.Float(mpmath.nstr(start, PARSE_DIGITS),
+                                                                  PARSE_DIGITS) + LOCAL_TIME)
+                _add_parsed(terms, parser.terms(sympy.expand(shifted)), 1)
+            result.append({key: c for key, c in terms.items() if c != 0})
+    return result
+
+
 def _number(value, values: Mapping) -> mpmath.mpf:
     value = sympy.sympify(value).subs(values)
     if value.is_Rational:
@@ -457,6 +479,15 @@ def extreme_checks(derivation) -> list[Check]:
                 orders.append(derivative(orders[-1]))
         quantity = [combination(list(zip(w, orders))) for orders in derived]
         slopes = [combination(list(zip(w, orders[1:]))) for orders in derived]
+        if name in WITH_LOAD:
+            try:
+                loads = _load_terms(case, pieces, values)
+            except (OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
+                checks.append(Check(f"extreme {label}", False, "the load could not be read: "
+                                    f"{type(error).__name__}: {error}"))
+                continue
+            quantity = [combination([(1, q), (1, y)]) for q, y in zip(quantity, loads)]
+            slopes = [combination([(1, q), (1, derivative(y))]) for q, y in zip(slopes, loads)]
         checks.append(_check_one(label, extreme, pieces, quantity, slopes))
     return checks
 
@@ -541,3 +572,96 @@ def _show(value) -> str:
         return f"{float(value):.10g}"
     except (OverflowError, ValueError):
         return mpmath.nstr(value, 10)
+
+
+# ----------------------------------------------------------------------------- response metrics
+
+
+METRIC_TOLERANCE = 1e-10      # |x(t) − level| against the response's scale (float times)
+
+
+def metric_checks(derivation) -> list[Check]:
+    """The step-response metrics and level crossings read again: at every reported time the
+    response, evaluated from the verification's own parse of the pieces, has the value the
+    metric says (a level, 10 %/90 % of the final value, the edge of the 2 % band, the
+    overshoot), and the final value is the constant of the last piece with every other term
+    decaying. A crossing at a breakpoint where x jumps must have the level between the two
+    one-sided values."""
+    metrics = getattr(derivation, "metrics", None)
+    if metrics is None or (metrics.final_value is None and not metrics.crossings):
+        return []
+    name = "response metrics read again"
+    try:
+        values = resolved_values(derivation.case)
+        pieces = _pieces(derivation, values)
+        with mpmath.workdps(PARSE_DIGITS):
+            return [_metric_check(name, metrics, pieces)]
+    except (OutsideStructure, ValueError, ArithmeticError, TypeError) as error:
+        return [Check(name, False, f"could not be evaluated: {type(error).__name__}: {error}",
+                      inconclusive=True)]
+
+
+def _metric_check(name: str, metrics, pieces) -> Check:
+    starts = [a for a, _b, _terms in pieces]
+    slopes = [derivative(terms) for _a, _b, terms in pieces]
+    peak = max(abs(value_at(terms, 0)) for _a, _b, terms in pieces)
+
+    def sides(time):
+        moment = mpmath.mpf(time)
+        index = 0
+        for i, a in enumerate(starts):
+            if a <= moment + mpmath.mpf(10) ** -14 * max(1, abs(moment)):
+                index = i
+        a, _b, terms = pieces[index]
+        v = mpmath.mpf(time) - a
+        right = (value_at(terms, v), value_at(slopes[index], v))
+        left = None
+        if index > 0 and abs(v) <= mpmath.mpf(10) ** -12 * max(1, abs(a)):
+            previous = pieces[index - 1]
+            left = value_at(previous[2], a - previous[0])
+        return right, left
+
+    wanted = []          # (label, time, expected value)
+    problems = []
+    final = metrics.final_value
+    if final is not None:
+        last = pieces[-1][2]
+        constant = mpmath.re(mpmath.fsum(c for (p, r), c in last.items() if p == 0 and r == 0))
+        if abs(constant - final) > METRIC_TOLERANCE * abs(final):
+            problems.append(f"final value {final:.10g} but the last piece's constant is "
+                            f"{_show(constant)}")
+        if any(mpmath.re(r) >= 0 for (p, r), c in last.items() if not (p == 0 and r == 0)):
+            problems.append("the last piece keeps a term that does not decay")
+        peak = max(peak, abs(final))
+        if metrics.rise_time is not None:
+            wanted += [("10 % of x_f", metrics.rise_time.start, final / 10),
+                       ("90 % of x_f", metrics.rise_time.end, 9 * final / 10)]
+        settling = metrics.settling_time
+        if settling.value is not None and settling.value > 0:
+            wanted.append(("the 2 % band", settling.value, None))
+        if metrics.overshoot is not None and metrics.overshoot.time is not None:
+            wanted.append(("the overshoot", metrics.overshoot.time,
+                           final * (1 + metrics.overshoot.value / 100)))
+    for crossing in metrics.crossings:
+        wanted += [(f"level {crossing.level:.6g}", time, crossing.level) for time in crossing.times]
+    worst = mpmath.mpf(0)
+    for label, time, expected in wanted:
+        (value, slope), left = sides(time)
+        if expected is None:                                  # |x − x_f| = band
+            expected = final + (0.02 * abs(final) if value > final else -0.02 * abs(final))
+        scale = max(peak, abs(expected))
+        allowed = METRIC_TOLERANCE * scale + abs(slope) * abs(time) * 1e-15
+        if left is not None and min(left, value) - allowed <= expected <= max(left, value) + allowed:
+            continue                                          # across a jump at a breakpoint
+        error = abs(value - expected)
+        worst = max(worst, error / scale)
+        if error > allowed:
+            problems.append(f"{label} at t = {time:.10g} s: x = {_show(value)}, expected "
+                            f"{expected:.10g}")
+    if problems:
+        return Check(name, False, "; ".join(problems[:4]))
+    return Check(name, True, f"{len(wanted)} reported time(s) give the values they state "
+                             f"(largest deviation {float(worst):.1e} of the response's scale, "
+                             f"limit {METRIC_TOLERANCE:g}; the verification's own parse of the "
+                             "pieces); the final value is the constant of the last piece, every "
+                             "other term decaying")

@@ -4,12 +4,13 @@ exponentials between the load's own breakpoints, and the check comparing it with
 from __future__ import annotations
 
 import bisect
-from collections.abc import Callable
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from functools import lru_cache
 from typing import Any
 
 import mpmath
+import sympy
 from mpmath.calculus.quadrature import GaussLegendre
 
 from .base import (
@@ -20,12 +21,13 @@ from .base import (
     STEP_LIMIT,
     TINY,
     Check,
+    T,
     figure,
     guard,
     short,
     to_mpf,
 )
-from .model import SymbolicLoads
+from .model import Equation, Problem, SymbolicLoads, load_on
 
 # ----------------------------------------------------------------------------- integration
 
@@ -94,7 +96,7 @@ def _rates(a: list[mpmath.mpf], rho: mpmath.mpf) -> tuple[mpmath.mpf, mpmath.mpf
     return oscillation, decay
 
 
-def integrate(problem: Any, loads: Any = None) -> Trajectory:
+def integrate(problem: Any, loads: Any = None, output: Sequence | None = None) -> Trajectory:
     """Integrate a_n x⁽ⁿ⁾ + … + a_0 x = b·load(t) at 40 digits (numeric problem only).
 
     Method (chosen to share nothing with the Laplace route of the derivation): the state
@@ -120,6 +122,7 @@ def integrate(problem: Any, loads: Any = None) -> Trajectory:
     need only a few).
 
     ``loads`` gives the load on each interval (default: from the problem's sympy segments).
+    ``output`` (weights c_i) samples Σ c_i x⁽ⁱ⁾ instead of x (inputs with derivatives).
     """
     loads = loads if loads is not None else SymbolicLoads(problem)
     with mpmath.workdps(INTEGRATION_DIGITS):
@@ -147,14 +150,19 @@ def integrate(problem: Any, loads: Any = None) -> Trajectory:
         multiply = _matvec_plain if loads.long_history else _matvec
 
         cache: dict[tuple, Any] = {}
+        weights = None if output is None else [output[i] * rho ** i for i in range(n)]
+
+        def sampled(state):
+            return state[0] if weights is None else mpmath.fsum(w * v for w, v in zip(weights, state))
+
         samples: list[tuple[mpmath.mpf, mpmath.mpf]] = []
-        largest = abs(z[0])
+        largest = abs(sampled(z))
         steps = 0
         capped = False
         for lo, hi in zip(cuts, cuts[1:]):
             for size in loads.kicks_at(lo, until):
                 z[n - 1] += b * size / a[n] / rho ** (n - 1)
-            largest = max(largest, abs(z[0]))
+            largest = max(largest, abs(sampled(z)))
             length = hi - lo
             load = loads.on(lo, hi)
             divisions = max(2, int(mpmath.ceil(SAMPLES * length / until)) + 1)
@@ -211,11 +219,68 @@ def integrate(problem: Any, loads: Any = None) -> Trajectory:
                         for i in range(n):
                             state[i] += vector[i] * value
                 steps += 1
-                largest = max(largest, abs(state[0]))
+                largest = max(largest, abs(sampled(state)))
                 if k < count and k % per_division == 0:
-                    samples.append((lo + k * h, state[0]))
+                    samples.append((lo + k * h, sampled(state)))
             z = state[:n]
         return Trajectory(samples, largest, steps, capped)
+
+
+# ----------------------------------------------------------------------------- inputs with derivatives
+#
+# Where derivatives of the input act, a_n x⁽ⁿ⁾ + … + a_0 x = b_m f⁽ᵐ⁾ + … + b_0 f, the
+# integration uses the classical realisation through an auxiliary w with
+# a_n w⁽ⁿ⁾ + … + a_0 w = f (the same companion system as for a plain load, b = 1) and
+# x = b_m w⁽ᵐ⁾ + … + b_0 w: it needs no derivative of f, and shares nothing with the
+# transform B(s)F(s)/P(s) of the derivation.
+
+
+def integrate_with_inputs(problem: Any) -> Trajectory:
+    """The independent integration of x = Σ b_j w⁽ʲ⁾ through w (see above); w starts from the
+    state that gives the case's x(0⁻) … x⁽ⁿ⁻¹⁾(0⁻) with the load at rest before t = 0."""
+    equation = problem.equation
+    n = equation.order
+    b = list(reversed(equation.inputs))          # b_0 … b_m
+    m = len(b) - 1
+    with mpmath.workdps(INTEGRATION_DIGITS):
+        a = [to_mpf(equation.a(i), None, INTEGRATION_DIGITS) for i in range(n + 1)]
+        bs = [to_mpf(value, None, INTEGRATION_DIGITS) for value in b]
+        # w⁽ⁱ⁾ as a combination of (w, …, w⁽ⁿ⁻¹⁾) while f = 0 (before t = 0)
+        rows = [[mpmath.mpf(1 if i == j else 0) for j in range(n)] for i in range(n)]
+        for i in range(n, 2 * n + m):
+            rows.append([-mpmath.fsum(a[lo] * rows[lo + i - n][j] for lo in range(n)) / a[n]
+                         for j in range(n)])
+        matrix = mpmath.matrix([[mpmath.fsum(bs[j] * rows[j + k][c] for j in range(m + 1))
+                                 for c in range(n)] for k in range(n)])
+        x0 = [to_mpf(v, None, INTEGRATION_DIGITS) for v in problem.initial]
+        if all(v == 0 for v in x0):
+            w0 = [mpmath.mpf(0)] * n
+        else:
+            try:
+                w0 = list(mpmath.lu_solve(matrix, mpmath.matrix(x0)))
+            except ZeroDivisionError:
+                raise ValueError("B(s) shares a root with P(s): the initial values cannot be "
+                                 "carried by the auxiliary w of this check") from None
+        # x = Σ_{j<n} b_j w⁽ʲ⁾ (+ b_n w⁽ⁿ⁾ = b_n (f − Σ a_l w⁽ˡ⁾)/a_n when m = n)
+        output = [bs[j] if j <= m else mpmath.mpf(0) for j in range(n)]
+        lead_input = bs[n] / a[n] if m == n else mpmath.mpf(0)
+        if m == n:
+            output = [output[j] - lead_input * a[j] for j in range(n)]
+        auxiliary = Problem(Equation(equation.coefficients, sympy.S.One), problem.segments,
+                            problem.impulses, tuple(sympy.Float(mpmath.nstr(v, INTEGRATION_DIGITS),
+                                                                INTEGRATION_DIGITS) for v in w0),
+                            problem.until, problem.pieces)
+        trajectory = integrate(auxiliary, auxiliary.integration_loads(), output)
+        if m == n:
+            samples = []
+            for time, value in trajectory.samples:
+                load = load_on(problem, time, time, {})
+                samples.append((time, value + lead_input * (to_mpf(load.subs(T, sympy.Float(
+                    mpmath.nstr(time, INTEGRATION_DIGITS), INTEGRATION_DIGITS)), None,
+                    INTEGRATION_DIGITS) if load != 0 else 0)))
+            largest = max([abs(v) for _t, v in samples] + [trajectory.largest])
+            trajectory = Trajectory(samples, largest, trajectory.steps, trajectory.capped)
+        return trajectory
 
 
 def _quadrature_vectors(A: list[list[mpmath.mpf]], beta: mpmath.mpf, h: mpmath.mpf,
@@ -282,7 +347,10 @@ def integration_check(problem: Any, label: str = "", peak: Any = None) -> Check:
 
 def _integration_check(problem: Any, name: str, peak: Any) -> Check:
     def run() -> tuple[bool, str]:
-        trajectory = integrate(problem, problem.integration_loads())
+        if getattr(problem.equation, "inputs", ()):
+            trajectory = integrate_with_inputs(problem)
+        else:
+            trajectory = integrate(problem, problem.integration_loads())
         samples = _spread(trajectory.samples, problem.sample_cap)
         starts = problem.piece_starts(INTEGRATION_DIGITS)
         functions: dict[int, Callable] = {}

@@ -20,14 +20,24 @@ from .compiler import compile_function
 
 @dataclass(frozen=True)
 class Equation:
-    """a_n x⁽ⁿ⁾ + … + a_0 x = b · load(t), rebuilt from the model's parameters."""
+    """a_n x⁽ⁿ⁾ + … + a_0 x = b · load(t), rebuilt from the model's parameters (or
+    b_m load⁽ᵐ⁾ + … + b_0 load where derivatives of the input act)."""
 
     coefficients: tuple[sympy.Expr, ...]    # a_n … a_0
     scale: sympy.Expr                       # b
+    inputs: tuple[sympy.Expr, ...] = ()     # b_m … b_0 where the input's derivatives act
 
     @property
     def order(self) -> int:
         return len(self.coefficients) - 1
+
+    def right_side(self, load: sympy.Expr) -> sympy.Expr:
+        """b·load, or b_m load⁽ᵐ⁾ + … + b_0 load (load smooth on the span it is taken on)."""
+        if not self.inputs:
+            return self.scale * load
+        m = len(self.inputs) - 1
+        return sympy.Add(*[b * sympy.diff(load, T, m - i) for i, b in enumerate(self.inputs)
+                           if b != 0])
 
     def a(self, i: int) -> sympy.Expr:
         """The coefficient of x⁽ⁱ⁾."""
@@ -39,7 +49,8 @@ class Equation:
 
     def subs(self, values: Mapping) -> Equation:
         return Equation(tuple(substitute(a, values) for a in self.coefficients),
-                         substitute(self.scale, values))
+                        substitute(self.scale, values),
+                        tuple(substitute(b, values) for b in self.inputs))
 
 
 def equation_of(system: SystemSpec) -> Equation:
@@ -52,6 +63,9 @@ def equation_of(system: SystemSpec) -> Equation:
         else:
             c = p.get("damping", 0)
         b = one if system.model == "spring-mass-damper" else -m
+        if system.model == "base-excitation" and system.input == "support-displacement":
+            # u = x − y relative to a support displaced by y: m u″ + c u′ + k u = −m y″
+            return Equation((m, sympy.sympify(c), k), one, (-m, sympy.S.Zero, sympy.S.Zero))
         return Equation((m, sympy.sympify(c), k), b)
     if system.model == "first-order":
         return Equation((sympy.sympify(p["time_constant"]), one),
@@ -63,8 +77,10 @@ def equation_of(system: SystemSpec) -> Equation:
     if system.model == "ode":
         indices = [int(key[1:]) for key in p if key[:1] == "a" and key[1:].isdigit()]
         order = max(indices)
+        inputs = [int(key[1:]) for key in p if key[:1] == "b" and key[1:].isdigit()]
         return Equation(tuple(sympy.sympify(p.get(f"a{i}", 0)) for i in range(order, -1, -1)),
-                         one)
+                        one, tuple(sympy.sympify(p.get(f"b{i}", 0))
+                                   for i in range(max(inputs), -1, -1)) if inputs else ())
     raise ValueError(f"unknown model {system.model!r}")
 
 
@@ -272,6 +288,14 @@ def load_on(problem: Problem, lo: mpmath.mpf, hi: mpmath.mpf, values: Mapping) -
         if start <= mid < end:
             total += segment.value
     return total
+
+
+def load_between(case: Case, lo: Any, hi: Any, values: Mapping) -> sympy.Expr:
+    """The load acting on (lo, hi), as a sympy expression in ``T``, from each load's own
+    definition (the checks' load evaluator, never the engine's singularity terms)."""
+    segments, _impulses = load_model(case.loads)
+    problem = Problem(equation_of(case.system), segments, (), (), sympy.S.One, ())
+    return substitute(load_on(problem, lo, hi, values), values)
 
 
 def load_spans(problem: Problem, lo_expr: sympy.Expr, hi_expr: sympy.Expr,

@@ -18,7 +18,7 @@ from typing import Any
 
 from .base import Check
 from .energy import energy_checks
-from .extremes import extreme_checks
+from .extremes import extreme_checks, metric_checks
 from .verification import verify
 
 DERIVE = "derive"      # the checks of a derivation (``closedform derive``, ``derive()``)
@@ -48,6 +48,7 @@ FAMILIES: tuple[CheckFamily, ...] = (
     CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks),
     CheckFamily("re-reading the printed equations", frozenset({DERIVE}), _printed_equations),
     CheckFamily("extremes", frozenset({DERIVE}), extreme_checks),
+    CheckFamily("response metrics", frozenset({DERIVE}), metric_checks),
 )
 
 

@@ -80,6 +80,25 @@ class ModelDefinition:
     damping_ratio_poles: bool = False
     #: warn when the window ends as the last load does (no residual vibration reported)
     residual_warning: bool = True
+    #: b_m … b_0 of a right-hand side b_m f⁽ᵐ⁾ + … + b_0 f where derivatives of the input act
+    #: (empty: none act, the right-hand side is b·load); then ``input_equation`` is printed,
+    #: the load is named ``input_load_name`` (if given) and measured in ``input_load_prefer``,
+    #: and ``input_assumptions`` (if given) replace ``assumptions``
+    inputs: Callable[[SystemSpec], tuple[sympy.Expr, ...]] | None = None
+    input_equation: str = ""
+    input_load_name: str = ""
+    input_load_prefer: tuple[str, ...] = ()
+    input_assumptions: tuple[str, ...] = ()
+
+    def input_coefficients(self, system: SystemSpec) -> tuple[sympy.Expr, ...]:
+        """b_m … b_0 of the system where derivatives of its input act, else ()."""
+        return () if self.inputs is None else tuple(sympy.sympify(b) for b in self.inputs(system))
+
+    def assumptions_of(self, system: SystemSpec) -> tuple[str, ...]:
+        """The assumptions printed for this system (its input may change them)."""
+        if self.input_assumptions and self.input_coefficients(system):
+            return self.input_assumptions
+        return self.assumptions
 
 
 _REGISTRY: dict[str, ModelDefinition] = {}

@@ -23,13 +23,16 @@ NAME = "series-rlc"
 
 
 def read(reader: ValueReader, data: Mapping[str, Any]) -> SystemSpec:
-    """L > 0, R ≥ 0 (0 unless given), C > 0."""
+    """L > 0, R ≥ 0 (0 unless given), C > 0; the inductor's initial_current if given."""
     parameters: dict[str, sympy.Expr] = {}
     parameters["inductance"] = required(reader, data, NAME, "inductance", "inductance")
     parameters["resistance"] = reader.non_negative(
         reader.quantity(data.get("resistance", 0), "resistance", "system.resistance"),
         "system.resistance", "resistance")
     parameters["capacitance"] = required(reader, data, NAME, "capacitance", "capacitance")
+    if "initial_current" in data:      # i(0) = C·v′(0): folded into the initial values
+        parameters["initial_current"] = reader.quantity(data["initial_current"], "current",
+                                                        "system.initial_current")
     d = quantities.dimension
     return SystemSpec(NAME, MappingProxyType(parameters), data.get("regime"), d("voltage"),
                       d("voltage"))
@@ -53,7 +56,7 @@ def derived(context: QuantityContext) -> list[QuantityDefinition]:
 
 DEFINITION = register(ModelDefinition(
     name=NAME,
-    keys=("model", "inductance", "resistance", "capacitance", "regime"),
+    keys=("model", "inductance", "resistance", "capacitance", "regime", "initial_current"),
     read=read,
     equation_of=equation_of,
     order=second_order,

@@ -28,7 +28,7 @@ from .results import results_context
 from .status import status_context
 from .transform import transform_context
 from .typesetting import REPORT_DIGITS, NumberStyle, number_style
-from .units import LOAD_PREFER, Units
+from .units import Units, load_prefer
 
 
 @dataclass(frozen=True)
@@ -74,7 +74,7 @@ class Sheet:
     @property
     def load_prefer(self) -> tuple[str, ...]:
         """The ``[report] units`` keys the load is shown in."""
-        return LOAD_PREFER.get(self.case.system.model, ())
+        return load_prefer(self.case.system)
 
     @property
     def coefficient_file(self) -> str:

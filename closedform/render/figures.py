@@ -10,7 +10,7 @@ from .. import plots, quantities
 from .escaping import Math
 from .layout import figure_name
 from .typesetting import unit_text
-from .units import LOAD_PREFER, Units
+from .units import Units, load_prefer
 
 if TYPE_CHECKING:
     from .context import Sheet
@@ -36,7 +36,7 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
         f"{variable} [{unit_text(response_unit.text) if response_unit else quantities.si_unit_text(response_dimension)}]",
         1 / float(sympy.N(response_unit.factor, 30)) if response_unit else 1.0)
     load_dimension = case.system.load_dimension
-    load_unit = units.unit_for(load_dimension, LOAD_PREFER.get(case.system.model, ()))
+    load_unit = units.unit_for(load_dimension, load_prefer(case.system))
     load_axis = plots.Axis(
         f"{derivation.model.load_name} [{unit_text(load_unit.text) if load_unit else quantities.si_unit_text(load_dimension)}]",
         1 / float(sympy.N(load_unit.factor, 30)) if load_unit else 1.0)

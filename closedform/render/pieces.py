@@ -3,6 +3,7 @@ time per interval, in SI and, where the case asks for it, in the report units)."
 
 from __future__ import annotations
 
+from types import SimpleNamespace
 from typing import TYPE_CHECKING, Any
 
 import sympy
@@ -37,6 +38,19 @@ def rounded_number(value: sympy.Expr, units: Units) -> sympy.Expr:
     return sympy.S.Zero if number_ == 0 else decimal_float(number_, current_style().digits)
 
 
+def current_display(sheet: Sheet, number: int, piece, end, local):
+    """i(t̂) = C·v′(t̂) on one interval of a series-rlc case, registered for re-reading."""
+    case = sheet.case
+    if case.system.model != "series-rlc" or getattr(piece, "numeric", None) is not None:
+        return None
+    current = piece.local.derivative().scaled(case.system.parameters["capacitance"])
+    shown = SimpleNamespace(numeric=None, local=current, start=piece.start)
+    return sheet.check.piece(number, shown, end, display(
+        "i(t)", grouped_terms(polynomial_rows(current), local, available_width("i(t)"))),
+        tolerance=1e-9 if any(sympy.sympify(c).has(sympy.Float)
+                              for c in current.terms.values()) else 1e-15, what="current")
+
+
 def pieces_context(sheet: Sheet) -> dict[str, Any]:
     derivation, case, units, check = sheet.derivation, sheet.case, sheet.units, sheet.check
     escape, variable = sheet.escape, sheet.variable
@@ -68,6 +82,7 @@ def pieces_context(sheet: Sheet) -> dict[str, Any]:
                 tolerance=1e-9 if any(sympy.sympify(c).has(sympy.Float)
                                       for c in piece.local.terms.values()) else 1e-15),
             "shown": None,
+            "current": current_display(sheet, i, piece, end, local),
         }
         if converted:
             rf = 1 / (response_unit.factor if response_unit else sympy.S.One)

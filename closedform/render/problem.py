@@ -23,11 +23,11 @@ COMMON_ASSUMPTIONS = ["parameters constant in time; loads exactly as given in th
 DERIVATIVE_MARKS = {0: "{v}", 1: r"\dot{{{v}}}", 2: r"\ddot{{{v}}}"}
 PARAMETER_SYMBOLS = {"mass": "m", "stiffness": "k", "damping": "c", "damping_ratio": r"\zeta",
                      "time_constant": r"\tau", "gain": "K", "inductance": "L",
-                     "resistance": "R", "capacitance": "C"}
+                     "resistance": "R", "capacitance": "C", "initial_current": "i(0)"}
 PARAMETER_DIMENSIONS = {"mass": "mass", "stiffness": "stiffness", "damping": "damping",
                         "damping_ratio": "dimensionless", "time_constant": "time",
                         "inductance": "inductance", "resistance": "resistance",
-                        "capacitance": "capacitance"}
+                        "capacitance": "capacitance", "initial_current": "current"}
 
 
 def variable_mark(variable: str, order: int) -> str:
@@ -49,6 +49,15 @@ def equation_with_values(model) -> Math:
     scale = model.input_scale
     load = rf"{model.load_name}(t)"
     right = load if scale == 1 else (rf"-{load}" if scale == -1 else rf"{as_factor(scale)}\,{load}")
+    if getattr(model, "input_coefficients", ()):       # b_m f⁽ᵐ⁾ + … + b_0 f
+        m = len(model.input_coefficients) - 1
+        parts = []
+        for i, b in enumerate(model.input_coefficients):
+            if b == 0:
+                continue
+            mark = variable_mark(model.load_name, m - i) + ("(t)" if m - i == 0 else "")
+            parts.append(mark if b == 1 else (f"-{mark}" if b == -1 else rf"{as_factor(b)}\,{mark}"))
+        right = " + ".join(parts).replace("+ -", "- ")
     return Math(" + ".join(left).replace("+ -", "- ") + " = " + right)
 
 
@@ -64,7 +73,7 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         else:
             dimension = quantities.dimension("dimensionless")
         si, shown = units.show(value, dimension, exact=True)
-        symbol = PARAMETER_SYMBOLS.get(name) or re.sub(r"^a(\d)$", r"a_{\1}", name)
+        symbol = PARAMETER_SYMBOLS.get(name) or re.sub(r"^([ab])(\d)$", r"\1_{\2}", name)
         parameters.append({"name": name.replace("_", " "), "symbol": inline(symbol),
                            "si": si, "shown": shown})
     symbols = [{"name": inline(typeset(d.symbol)),
@@ -94,6 +103,6 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         "symbols": symbols,
         "symbolic": case.is_symbolic,
         "initial": initial,
-        "assumptions": list(models.get(case.system.model).assumptions) + COMMON_ASSUMPTIONS,
+        "assumptions": list(models.get(case.system.model).assumptions_of(case.system)) + COMMON_ASSUMPTIONS,
         "caution": CAUTION,
     }

@@ -10,6 +10,7 @@ import sympy
 
 from .. import quantities
 from ..errors import ClosedformError
+from ..metrics import metric_notes, metric_rows
 from .escaping import Math
 from .typesetting import as_factor, inline, number, typeset
 from .units import RESPONSE_PREFER, Units
@@ -64,6 +65,9 @@ def results_context(sheet: Sheet) -> dict[str, Any]:
         "window": units.show(derivation.window.until, time_dimension, ("time",), exact=True),
         "window_note": derivation.window.note,
         "results": rows,
+        "metrics": metric_rows(getattr(derivation, "metrics", None), units.show,
+                               response_dimension, RESPONSE_PREFER),
+        "metrics_notes": metric_notes(getattr(derivation, "metrics", None)),
         "results_available": peak is not None,
         "static_gain": static_gain(model.input_scale, model.coefficients[-1]),
         "peak_label": peak_label,

@@ -5,6 +5,8 @@ from __future__ import annotations
 
 from typing import TYPE_CHECKING, Any
 
+import sympy
+
 from .escaping import Math
 from .typesetting import Display, available_width, display, inline, ordered_terms, typeset, visible_width
 
@@ -40,5 +42,18 @@ def transform_context(sheet: Sheet) -> dict[str, Any]:
             + (f", multiplicity {p.multiplicity}" if p.multiplicity > 1 else "")))
             for p in model.poles],
     }
-    return {"transform": transform, "load_transform": Math(load_transform_name),
+    inputs = None
+    if getattr(model, "input_coefficients", ()):       # derivatives of the input act
+        from ..inputs import singular_parts
+        polynomial = model.input_polynomial()
+        time_symbol = sympy.Symbol("t")
+        inputs = {
+            "polynomial": check.of_s("B(s)", polynomial, display(
+                "B(s)", [typeset(t) for t in ordered_terms(sympy.expand(polynomial))])),
+            "load": Math(model.load_name),
+            "singular": [{"at": inline(typeset(part.at)),
+                          "part": inline(typeset(part.expression(time_symbol)))}
+                         for part in singular_parts(model, history)],
+        }
+    return {"transform": transform, "inputs": inputs, "load_transform": Math(load_transform_name),
             "time_shift_source": time_shift_source()}

@@ -8,7 +8,7 @@ from typing import Any
 
 import sympy
 
-from .. import quantities
+from .. import models, quantities
 from .escaping import Math
 from .typesetting import current_style, inline, is_short, number, typeset, with_unit
 
@@ -17,6 +17,15 @@ RESPONSE_PREFER = ("response", "displacement", "voltage", "current", "temperatur
 #: The ``[report] units`` key of each model's load.
 LOAD_PREFER = {"spring-mass-damper": ("force",), "base-excitation": ("acceleration",),
                "series-rlc": ("voltage",)}
+
+
+def load_prefer(system) -> tuple[str, ...]:
+    """The ``[report] units`` keys the load of ``system`` is shown in (a support
+    displacement is a displacement, not an acceleration)."""
+    definition = models.get(system.model)
+    if definition.input_load_prefer and definition.input_coefficients(system):
+        return definition.input_load_prefer
+    return LOAD_PREFER.get(system.model, ())
 
 
 @dataclass(frozen=True)
