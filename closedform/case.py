@@ -38,6 +38,7 @@ import sympy
 from . import quantities
 from .errors import CaseError, ExpressionError
 from .expressions import parse_expression, parse_number, quote
+from .resistance import SPRING_MODELS, read_resistance
 
 MODELS = ("spring-mass-damper", "base-excitation", "first-order", "series-rlc", "ode")
 SHAPES = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half-sine",
@@ -49,8 +50,10 @@ TAU = sympy.Symbol("tau", real=True)
 
 _TOP_KEYS = ("title", "reference", "system", "initial", "load", "report", "symbols", "claims")
 _SYSTEM_KEYS = {
-    "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
-    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime"),
+    "spring-mass-damper": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime",
+                           "resistance"),
+    "base-excitation": ("model", "mass", "stiffness", "damping", "damping_ratio", "regime",
+                        "resistance"),
     "first-order": ("model", "time_constant", "gain", "input_unit"),
     "series-rlc": ("model", "inductance", "resistance", "capacitance", "regime"),
     "ode": ("model", "coefficients", "regime"),
@@ -142,6 +145,7 @@ class SystemSpec:
     regime: str | None
     load_dimension: Any
     response_dimension: Any
+    resistance: Any = None          # resistance.Resistance of a yielding spring, or None
 
     def get(self, name: str) -> sympy.Expr | None:
         return self.parameters.get(name)
@@ -565,6 +569,8 @@ class _Reader:
             hint = f"; did you mean '{close[0]}'?" if close else ""
             raise self.error("system.model", f"unknown model {_shown(model)} (expected one of: "
                                              f"{', '.join(MODELS)}){hint}")
+        if isinstance(data.get("resistance"), Mapping) and model not in SPRING_MODELS:
+            read_resistance(data["resistance"], model, None, self.quantity, self.error, self.table)
         self.check_keys(data, _SYSTEM_KEYS[model], "system")
         parameters: dict[str, sympy.Expr] = {}
         regime = data.get("regime")
@@ -596,6 +602,14 @@ class _Reader:
                                                                 * parameters["mass"])
             else:
                 parameters["damping"] = sympy.S.Zero
+            if "resistance" in data:
+                resistance = read_resistance(data["resistance"], model, parameters["stiffness"],
+                                             self.quantity, self.error, self.table)
+                dimensions = ((quantities.dimension("force"), quantities.dimension("length"))
+                              if model == "spring-mass-damper" else
+                              (quantities.dimension("acceleration"), quantities.dimension("length")))
+                return SystemSpec(model, MappingProxyType(parameters), regime, *dimensions,
+                                  resistance)
         elif model == "first-order":
             parameters["time_constant"] = required("time_constant", "time")
             input_unit = data.get("input_unit", "1")
