@@ -397,6 +397,11 @@ class _Reader:
                 table_line = found[int(match.group(2)) - 1]
         else:
             pattern = re.compile(rf"\s*\[\[?\s*{re.escape(parts[0])}\s*\]")
+            if len(parts) > 1:      # a sub-table of its own: [system.resistance]
+                sub = re.compile(rf"\s*\[\s*{re.escape(parts[0])}\s*\.\s*"
+                                 rf"{re.escape(parts[1])}\s*\]")
+                if any(sub.match(line) for line in lines):
+                    pattern, parts = sub, parts[1:]
             table_line = next((i for i, line in enumerate(lines) if pattern.match(line)), None)
         if table_line is not None:
             parts = parts[1:]
