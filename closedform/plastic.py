@@ -45,7 +45,15 @@ from .case import Case, SystemSpec
 from .errors import CaseError, DerivationError
 from .loads import STEP, LoadHistory, Rewrite, SingularityTerm, rewrite_loads
 from .resistance import Resistance
-from .response import DIGITS, EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
+from .response import (
+    DIGITS,
+    EXACT_BREAKPOINT_LIMIT,
+    Piece,
+    Solution,
+    load_pieces,
+    order_times,
+    solve,
+)
 from .results import (
     Extreme,
     Interval,
@@ -422,8 +430,11 @@ def _results(case, model, history, pieces, owners, phases, events, until):
     k = float_number(case.system.parameters["stiffness"])
     intervals = numeric_intervals(piece_functions(pieces), [p.start for p in pieces], until)
     peak = extreme_magnitude(intervals)
-    load_intervals = numeric_intervals(_load_locals(history, pieces), [p.start for p in pieces],
-                                       until)
+    breakpoints = order_times({sympy.S.Zero} | {term.at for term in history.terms}
+                              | {impulse.at for impulse in history.impulses})
+    breakpoints = [b for b in breakpoints if sympy.N(b - until, 30) < 0]
+    load_intervals = numeric_intervals(load_pieces(history, breakpoints, exact=False),
+                                       breakpoints, until)
     largest = extreme_magnitude(load_intervals)
     gain = model.static_gain()
     static = None
@@ -501,13 +512,6 @@ def _results(case, model, history, pieces, owners, phases, events, until):
                                tuple(intervals), ductility, float(x_y_mp), permanent, rebound,
                                rebound_force, work, (x_end, v_end, r_end))
     return numbers, response
-
-
-def _load_locals(history: LoadHistory, pieces):
-    """The load on each piece in local time (for the largest load), 30 digits."""
-    from .response import load_pieces
-    starts = [p.start for p in pieces]
-    return load_pieces(history, starts, exact=False)
 
 
 # ----------------------------------------------------------------------------- derivation

@@ -1261,7 +1261,7 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
     plotted = plots.plottable(derivation)
     figure_suffix = "pdf" if target == "tex" else "svg"
 
-    return {
+    context = {
         "target": target,
         "prefix": f"{section}." if section else "",
         "title_number": f"{section}. " if section else "",
@@ -1324,7 +1324,18 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "warnings": [w.removeprefix(f"{case.source}: ") for w in derivation.warnings],
         "paper": case.report.paper,
         "printed": check.records,
+        "plastic": None,
     }
+    if getattr(derivation, "plastic", None) is not None:     # a yielding spring (issue 15)
+        from . import plastic_sheet
+        context["plastic"] = plastic_sheet.section(
+            derivation, units, escape, inline,
+            Math(figure_name(stem, "resistance", figure_suffix)) if plotted else None)
+        linear = context["equation"]         # the linear form is replaced by R(x)
+        check.records[:] = [r for r in check.records if r.display is not linear]
+        context["equation"] = check.form(Math(plastic_sheet.EQUATIONS[case.system.model]))
+        context["assumptions"] = plastic_sheet.assumptions(derivation, context["assumptions"])
+    return context
 
 
 def excerpt(rows: list, gap: Callable[[int], Any]) -> list:
@@ -1669,12 +1680,20 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
     impulse_unit = quantities.si_unit_text(load_dimension * quantities.dimension("time"))
     impulses = [(units.float(i.at), f"J = {units.float(i.impulse):.4g} {impulse_unit}")
                 for i in derivation.history.impulses]
-    return {
+    figures = {
         figure_name(stem, "load", fmt): plots.load_figure(derivation, fmt, time_axis, load_axis,
                                                           impulses),
         figure_name(stem, "response", fmt): plots.response_figure(derivation, fmt, time_axis, value_axis,
                                                         peak_label),
     }
+    if getattr(derivation, "plastic", None) is not None:     # spring force against displacement
+        from .plastic_sheet import resistance_figure
+        force_unit = units.unit_for(quantities.dimension("force"), ("force",))
+        force_axis = plots.Axis(f"R [{unit_text(force_unit.text) if force_unit else 'N'}]",
+                                1 / float(sympy.N(force_unit.factor, 30)) if force_unit else 1.0)
+        figures[figure_name(stem, "resistance", fmt)] = resistance_figure(
+            derivation, fmt, value_axis, force_axis)
+    return figures
 
 
 def render_csv(derivation, points: int = CSV_POINTS) -> str:

@@ -330,3 +330,16 @@ def test_worked_case_derives_verified():
     d = closedform.derive(closedform.load_case(path))
     assert d.status == "verified", [c for c in d.checks if not c.passed]
     assert d.to_dict()["ductility"]["value"] > 1
+
+
+def test_sheet_shows_resistance_phases_and_caution():
+    from closedform.render import figure_files, render_markdown
+    d = closedform.derive(case(OSCILLATOR, [{"shape": "impulse", "impulse": "2 N*s"}]))
+    text = render_markdown(d, stem="post")
+    assert r"m\,\ddot{x} + c\,\dot{x} + R(x) = F(t)" in text
+    assert "| 2 | plastic, upper yield line |" in text
+    assert "| 2 | unload |" in text
+    assert "come from the applicable codes" in text
+    assert "elastic-perfectly-plastic spring" in text and "linear elastic spring" not in text
+    assert "post-resistance.svg" in text
+    assert "post-resistance.svg" in figure_files(d, "post", "svg")
