@@ -517,9 +517,10 @@ def _results(case, model, history, pieces, owners, phases, events, until):
 # ----------------------------------------------------------------------------- derivation
 
 
-def derive_plastic(case: Case, *, time_budget: float | None = None):
+def derive_plastic(case: Case, *, time_budget: float | None = None, sheet_check: bool = True):
     """``derive`` for a case with a [system.resistance]: the phase chain, its results and
-    its independent checks (plastic_check), as a PlasticDerivation."""
+    its independent checks (plastic_check), as a PlasticDerivation. ``sheet_check`` False
+    leaves out re-reading the printed sheet (for spectra, where no sheet is printed)."""
     from .budget import time_budget as budget_for
     from .derivation import analysis_window, finite_check, window_warnings
 
@@ -550,9 +551,10 @@ def derive_plastic(case: Case, *, time_budget: float | None = None):
         with budget.stage("verification"):
             from .plastic_check import plastic_checks
             checks = tuple(plastic_checks(partial))
-        with budget.stage("re-reading the printed equations"):
-            from .render import printed_equation_check
-            checks += (printed_equation_check(partial),)
+        if sheet_check:
+            with budget.stage("re-reading the printed equations"):
+                from .render import printed_equation_check
+                checks += (printed_equation_check(partial),)
         checks += (finite_check(numbers),)
     return PlasticDerivation(case, model, history, window, solution, numbers, checks,
                              window_warnings(case, window, numbers), plastic=response)

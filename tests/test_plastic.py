@@ -343,3 +343,45 @@ def test_sheet_shows_resistance_phases_and_caution():
     assert "elastic-perfectly-plastic spring" in text and "linear elastic spring" not in text
     assert "post-resistance.svg" in text
     assert "post-resistance.svg" in figure_files(d, "post", "svg")
+
+
+# ----------------------------------------------------------------------------- spectrum
+
+
+def test_ductility_spectrum_long_rectangle_is_the_step_relation(capsys):
+    """A rectangle much longer than T_n acts as a step while x rises to its maximum:
+    μ = 1/(2(1 − F₁/R_m)) (energy balance, exact; Biggs 1964 ch. 2, from memory)."""
+    code = main(["spectrum", "--shape", "rectangle", "--strength-ratios", "1.25,1.5",
+                 "--ratios", "5", "--json", "-"])
+    result = json.loads(capsys.readouterr().out)
+    assert code == 0 and result["status"] == "verified" and result["kind"] == "ductility"
+    mu = {p["strength_ratio"]: p["ductility"] for p in result["points"]}
+    assert mu[1.25] == pytest.approx(1 / (2 * (1 - 1 / 1.25)), rel=1e-12)
+    assert mu[1.5] == pytest.approx(1 / (2 * (1 - 1 / 1.5)), rel=1e-12)
+
+
+def test_ductility_spectrum_csv_and_files(tmp_path, capsys):
+    assert main(["spectrum", "--shape", "decay", "--strength-ratios", "1.1",
+                 "--ratios", "0.5,1"]) == 0
+    rows = [line for line in capsys.readouterr().out.splitlines() if not line.startswith("#")]
+    assert rows[0] == "R_m/F_1 [1],t_d/T_n [1],mu [1],t_m/t_d [1],x_p/x_y [1],status"
+    assert len(rows) == 3 and all(row.endswith(",verified") for row in rows[1:])
+    mu = [float(row.split(",")[2]) for row in rows[1:]]
+    assert 1 < mu[0] < mu[1]          # a longer pulse of the same peak drives further
+    assert main(["spectrum", "--shape", "decay", "--strength-ratios", "1.1", "--ratios", "1",
+                 "-o", str(tmp_path)]) == 0
+    assert sorted(p.name for p in tmp_path.iterdir()) == [
+        "ductility-decay.csv", "ductility-decay.json", "ductility-decay.png",
+        "ductility-decay.svg"]
+
+
+@pytest.mark.parametrize(("value", "expected"), [
+    ("1.25,-1", "--strength-ratios: strength ratios must be positive, got -1"),
+    ("1.25,x", "--strength-ratios: 'x' is not a number (expected a positive R_m/F_1)"),
+    ("", "--strength-ratios: expected comma-separated positive numbers, got ''"),
+])
+def test_bad_strength_ratios(capsys, value, expected):
+    assert main(["spectrum", "--shape", "rectangle", "--strength-ratios", value,
+                 "--ratios", "5"]) == 2
+    captured = capsys.readouterr()
+    assert captured.out == "" and captured.err.splitlines() == [expected]
