@@ -166,6 +166,7 @@ class _Basis:
     """The three responses of one phase equation, in 30-digit terms per breakpoint."""
 
     starts: list            # breakpoints of the load response (mpf)
+    exact: list             # the same breakpoints as the engine gives them (exact)
     load: list              # terms (dict Mode → mpf) on each, local time
     unit: dict              # unit force from rest at t = 0
     free_x: dict            # free response from x = 1, x′ = 0 at u = 0
@@ -197,6 +198,7 @@ class _Solver:
             c = self.carrier
             self.bases[stiffness] = (model, _Basis(
                 [float_number(p.start) for p in loaded.pieces],
+                [p.start for p in loaded.pieces],
                 [c.numeric_terms(p.local) for p in loaded.pieces],
                 c.numeric_terms(unit.pieces[0].local),
                 c.numeric_terms(free_x.pieces[0].local),
@@ -204,8 +206,9 @@ class _Solver:
         return self.bases[stiffness]
 
     def phase_pieces(self, stiffness: sympy.Expr, force, start, x0, v0
-                     ) -> tuple[LinearModel, list[tuple[Any, dict]]]:
-        """(start, terms) of each piece of the phase from ``start`` on: load response +
+                     ) -> tuple[LinearModel, list[tuple[Any, dict, Any]]]:
+        """(start, terms, exact start or None) of each piece of the phase from ``start`` on
+        (a load breakpoint keeps its exact value, an event time is a number): load response +
         force × unit response + the free response matching (x0, v0) at ``start``."""
         model, basis = self.basis(stiffness)
         c = self.carrier
@@ -225,7 +228,7 @@ class _Solver:
                               c.shifted(basis.unit, s), force)
                 terms = c.add(terms, c.shifted(basis.free_x, s - start), dx)
                 terms = c.add(terms, c.shifted(basis.free_v, s - start), dv)
-                pieces.append((s, terms))
+                pieces.append((s, terms, None if i == index else basis.exact[i]))
         return model, pieces
 
 
@@ -343,13 +346,14 @@ def _chain(case: Case, model: LinearModel, history: LoadHistory, first: Solution
                 break
         stop = len(current) if found is None else found[0] + 1
         for i in range(stop):
-            s, function, exact_piece = current[i]
+            s, function, source = current[i]
             end = current[i + 1][0] if i + 1 < len(current) else None
+            following = _exact_start(current[i + 1][2]) if i + 1 < len(current) else None
             if found is not None and i == found[0]:
-                end = s + found[3]
+                end, following = s + found[3], None
                 if found[3] == 0:
                     break
-            pieces.append(_piece(s, end, function, exact_piece, solver.carrier))
+            pieces.append(_piece(s, end, function, source, solver.carrier, following))
             owners.append(len(phases))
         phase_end = until_mp if found is None else found[1] + found[3]
         slope = k if kind == "elastic" else k2
@@ -379,18 +383,31 @@ def _chain(case: Case, model: LinearModel, history: LoadHistory, first: Solution
         force_constant = k_mp * offset if kind == "elastic" else \
             -float_number(resistance.line_intercept(direction))
         phase_model_now, numbered = solver.phase_pieces(stiffness, force_constant, time, x, v)
-        current = [(s, solver.carrier.numeric_polynomial(terms), terms) for s, terms in numbered]
+        current = [(s, solver.carrier.numeric_polynomial(terms), (terms, exact))
+                   for s, terms, exact in numbered]
     return pieces, owners, phases, events
 
 
-def _piece(start, end, function, source, carrier: NumericCarrier) -> Piece:
-    """A Piece from the engine's own (first phase) or from carried 30-digit terms."""
+def _exact_start(source):
+    """The exact start of a piece still to come (None: an event time)."""
+    return source.start if isinstance(source, Piece) else source[1]
+
+
+def _piece(start, end, function, source, carrier: NumericCarrier, following=None) -> Piece:
+    """A Piece from the engine's own (first phase) or from carried 30-digit terms; a start
+    or end at a load breakpoint keeps its exact value (``following``: the next piece's
+    exact start), an event time is a 40-digit number."""
     if isinstance(source, Piece):
         if end is None or source.end is not None and float_number(source.end) == end:
             return source
         return replace(source, end=time_value(end))
-    return Piece(time_value(start), None if end is None else time_value(end),
-                 carrier.exponential_polynomial(source), function)
+    terms, exact = source
+    if end is None:
+        finish = None
+    else:
+        finish = following if following is not None else time_value(end)
+    return Piece(exact if exact is not None else time_value(start), finish,
+                 carrier.exponential_polynomial(terms), function)
 
 
 # ----------------------------------------------------------------------------- results

@@ -385,3 +385,14 @@ def test_bad_strength_ratios(capsys, value, expected):
                  "--ratios", "5"]) == 2
     captured = capsys.readouterr()
     assert captured.out == "" and captured.err.splitlines() == [expected]
+
+
+def test_python_use_of_a_yielding_case():
+    d = closedform.derive(case(OSCILLATOR, [{"shape": "rectangle", "duration": "0.3 s",
+                                             "amplitude": "15 N"}]))
+    assert "1/3" not in [str(p.start) for p in d.pieces]
+    assert any(str(p.start) == "3/10" for p in d.pieces)      # the load breakpoint stays exact
+    assert d.evaluate([0.1, 0.5], response="load").tolist() == pytest.approx([15.0, 0.0], abs=1e-20)
+    assert "spring_force" not in d.response_names()           # R(x) is per phase
+    with pytest.raises(ValueError):
+        d.evaluate([0.1], response="spring_force")
