@@ -162,6 +162,11 @@ def summary_cells(derivation, target: str) -> SummaryCells:
                                          ("time",))
         peak = f"{value_shown or value_si} {escape('at')} {time_shown or time_si}"
     dlf = render.inline(render.number(results.dlf, 4)) if results.dlf is not None else None
+    plastic = getattr(derivation, "plastic", None)
+    if peak is not None and plastic is not None and plastic.ductility is not None:
+        # a yielding spring: the ductility ratio beside the peak it comes from
+        peak += escape("; ductility ") + render.inline(
+            r"\mu = " + render.number(plastic.ductility.value, 4))
     return SummaryCells(peak, dlf)
 
 

@@ -396,3 +396,16 @@ def test_python_use_of_a_yielding_case():
     assert "spring_force" not in d.response_names()           # R(x) is per phase
     with pytest.raises(ValueError):
         d.evaluate([0.1], response="spring_force")
+
+
+def test_console_and_appendix_summary_show_the_ductility(tmp_path, capsys):
+    folder = tmp_path / "cases"
+    folder.mkdir()
+    (folder / "post.toml").write_text(BASE + '[report]\nuntil = "2 s"\n', encoding="utf-8")
+    assert main(["derive", str(folder / "post.toml"), "-o", str(tmp_path / "sheet"),
+                 "--format", "md"]) == 0
+    assert capsys.readouterr().out.strip().endswith("peak 0.25 m at t = 0.225565 s; ductility 2.5")
+    assert main(["appendix", str(folder), "-o", str(tmp_path / "out"), "--format", "md"]) == 0
+    capsys.readouterr()
+    text = (tmp_path / "out" / "appendix.md").read_text(encoding="utf-8")
+    assert r"; ductility $\mu = 2.5$ |" in text
