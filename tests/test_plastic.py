@@ -409,3 +409,16 @@ def test_console_and_appendix_summary_show_the_ductility(tmp_path, capsys):
     capsys.readouterr()
     text = (tmp_path / "out" / "appendix.md").read_text(encoding="utf-8")
     assert r"; ductility $\mu = 2.5$ |" in text
+
+
+def test_claimed_formula_is_refused_for_a_yielding_spring(tmp_path, capsys):
+    path = tmp_path / "case.toml"
+    path.write_text(BASE + '[report]\nuntil = "2 s"\n[claims]\n'
+                    'response = [{ from = "0 s", to = "10 ms", expr = "0" }]\n'
+                    'at = [{ time = "0.5 s", value = "150 mm" }]\n', encoding="utf-8")
+    assert main(["check", str(path)]) == 2
+    err = capsys.readouterr().err
+    assert err.splitlines()[0].endswith(
+        "claims.response: a claimed formula cannot be audited for a yielding spring (its "
+        "equation changes at every event); claim values instead: at = [...], ductility, "
+        "peak, …")
