@@ -422,3 +422,24 @@ def test_claimed_formula_is_refused_for_a_yielding_spring(tmp_path, capsys):
         "claims.response: a claimed formula cannot be audited for a yielding spring (its "
         "equation changes at every event); claim values instead: at = [...], ductility, "
         "peak, …")
+
+
+@pytest.mark.parametrize(("ratio", "strength"), [(0.05, 0.1), (0.1, 0.25)])
+def test_ductility_spectrum_short_decay_pulse_by_energy(ratio, strength):
+    """A decaying pulse short enough that the spring is still elastic when it ends: the
+    state at t_d from the elastic response x = F₁(1 − cos t) − F₁(t − sin t)/t_d (m = k = 1,
+    Duhamel's integral), then the energy balance E = R_m·x_y/2 + R_m(x_m − x_y) gives
+    μ = E/R_m² + 1/2 exactly."""
+    import sympy
+
+    from closedform.ductility_spectrum import ductility_point
+    from closedform.shock import Pulse
+    td = 2 * math.pi * ratio
+    x = 1 - math.cos(td) - (td - math.sin(td)) / td
+    v = math.sin(td) - (1 - math.cos(td)) / td
+    assert abs(x) < strength                       # no yield during the pulse
+    energy = (x**2 + v**2) / 2
+    point = ductility_point(Pulse("decay"), sympy.S.Zero, sympy.nsimplify(strength),
+                            sympy.nsimplify(ratio))
+    assert point.status == "verified"
+    assert point.ductility == pytest.approx(energy / strength**2 + 0.5, rel=1e-12)
