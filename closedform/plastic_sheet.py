@@ -235,3 +235,21 @@ def resistance_figure(derivation, fmt: str, displacement_axis, force_axis) -> by
 
 EQUATIONS = {"spring-mass-damper": r"m\,\ddot{x} + c\,\dot{x} + R(x) = F(t)",
              "base-excitation": r"m\,\ddot{u} + c\,\dot{u} + R(u) = -m\,a_g(t)"}
+
+
+def equation_with_values(derivation):
+    """m x'' + c x' + R(x) = b·load with the case's m, c and b (R is the resistance
+    function, its lines are in the phase table)."""
+    from .render import Math, typeset
+
+    model = derivation.model
+    m, c, _k = model.coefficients
+    v = model.variable
+    left = [rf"{typeset(m)}\,\ddot{{{v}}}"]
+    if c != 0:
+        left.append(rf"{typeset(c)}\,\dot{{{v}}}")
+    left.append(f"R({v})")
+    load = rf"{model.load_name}(t)"
+    scale = model.input_scale
+    right = load if scale == 1 else rf"-{typeset(-scale)}\,{load}"
+    return Math(" + ".join(left) + " = " + right)

@@ -1334,9 +1334,10 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         context["plastic"] = plastic_sheet.section(
             derivation, units, escape, inline,
             Math(figure_name(stem, "resistance", figure_suffix)) if plotted else None)
-        linear = context["equation"]         # the linear form is replaced by R(x)
-        check.records[:] = [r for r in check.records if r.display is not linear]
+        linear = (context["equation"], context["equation_values"])   # k·x becomes R(x)
+        check.records[:] = [r for r in check.records if r.display not in linear]
         context["equation"] = check.form(Math(plastic_sheet.EQUATIONS[case.system.model]))
+        context["equation_values"] = check.form(plastic_sheet.equation_with_values(derivation))
         context["assumptions"] = plastic_sheet.assumptions(derivation, context["assumptions"])
     return context
 
