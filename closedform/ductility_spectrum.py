@@ -197,12 +197,16 @@ def ductility_figure(spectrum: DuctilitySpectrum, fmt: str) -> bytes:
                    and p.ductility is not None]
             axes.plot([float(p.ratio) for p in row], [p.ductility for p in row],
                       marker="o", markersize=2.5, label=f"R_m/F_1 = {float(strength):g}")
+        from matplotlib.ticker import StrMethodFormatter
+
         ratios = [float(p.ratio) for p in spectrum.points]
         if ratios and max(ratios) / min(ratios) >= 20:
             axes.set_xscale("log")
+            axes.xaxis.set_major_formatter(StrMethodFormatter("{x:g}"))
         values = [p.ductility for p in spectrum.points if p.ductility]
         if values and max(values) / min(values) >= 20:
             axes.set_yscale("log")
+            axes.yaxis.set_major_formatter(StrMethodFormatter("{x:g}"))
         axes.set_xlabel("t_d / T_n  (pulse duration / natural period)")
         axes.set_ylabel("ductility ratio  x_m / x_y")
         axes.set_title(f"elastic-plastic, {spectrum.pulse.describe()}, damping ratio "
