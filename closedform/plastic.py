@@ -42,6 +42,7 @@ import sympy
 
 from .basis import COS, NumericCarrier, NumericExponentialPolynomial
 from .case import Case, SystemSpec
+from .derivation import Derivation, result_dictionary
 from .errors import CaseError, DerivationError
 from .loads import STEP, LoadHistory, Rewrite, SingularityTerm, rewrite_loads
 from .resistance import Resistance
@@ -587,24 +588,19 @@ def _refuse_initial_beyond_yield(case: Case) -> None:
                         "inside its elastic range)", key="initial", file=case.source)
 
 
-def _derivation_class():
-    from .derivation import Derivation
+@dataclass(frozen=True)
+class PlasticDerivation(Derivation):
+    """A Derivation whose spring yields: ``plastic`` holds the phases, events and yield
+    results; the JSON adds them and a ``phase`` on every piece."""
 
-    @dataclass(frozen=True)
-    class PlasticDerivation(Derivation):
-        """A Derivation whose spring yields: ``plastic`` holds the phases and events."""
+    plastic: PlasticResponse | None = None
 
-        plastic: PlasticResponse | None = None
-
-        def to_dict(self) -> dict[str, Any]:
-            from .derivation import result_dictionary
-            result = result_dictionary(self)
-            for entry, owner in zip(result["pieces"], self.plastic.piece_phases):
-                entry["phase"] = self.plastic.phases[owner].kind
-            result.update(plastic_fields(self.plastic))
-            return result
-
-    return PlasticDerivation
+    def to_dict(self) -> dict[str, Any]:
+        result = result_dictionary(self)
+        for entry, owner in zip(result["pieces"], self.plastic.piece_phases):
+            entry["phase"] = self.plastic.phases[owner].kind
+        result.update(plastic_fields(self.plastic))
+        return result
 
 
 def plastic_fields(response: PlasticResponse) -> dict[str, Any]:
@@ -637,5 +633,3 @@ def plastic_fields(response: PlasticResponse) -> dict[str, Any]:
                     "force_constant": number(p.constant)} for p in response.phases],
     }
 
-
-PlasticDerivation = _derivation_class()

@@ -443,3 +443,10 @@ def test_ductility_spectrum_short_decay_pulse_by_energy(ratio, strength):
                             sympy.nsimplify(ratio))
     assert point.status == "verified"
     assert point.ductility == pytest.approx(energy / strength**2 + 0.5, rel=1e-12)
+
+
+def test_yielding_cases_in_worker_processes():
+    """derive_many sends each Derivation back from its worker pickled."""
+    text = BASE + '[report]\nuntil = "2 s"\n'
+    results = closedform.derive_many([text, text], jobs=2, progress=False)
+    assert [r.to_dict()["ductility"]["value"] for r in results] == pytest.approx([2.5, 2.5])
