@@ -233,14 +233,17 @@ class _Solver:
         return model, pieces
 
 
-def _crossing(function: NumericExponentialPolynomial, length, level, upward: bool, noise):
+def _crossing(function: NumericExponentialPolynomial, length, level, upward: bool, noise,
+              turns=None):
     """The earliest u in (0, length] where the function crosses ``level`` upward (or
     downward): stationary points split the piece into monotone stretches; a stretch whose
     ends straddle the level holds exactly one crossing, refined by findroot. A stationary
     point within ``noise`` of the level is a touch (the spring reaches yield at rest and
     turns back), not a crossing."""
     with mpmath.workdps(WORK):
-        points = [mpmath.mpf(0)] + stationary_points(function, length) + [mpmath.mpf(length)]
+        if turns is None:
+            turns = stationary_points(function, length)
+        points = [mpmath.mpf(0)] + list(turns) + [mpmath.mpf(length)]
         sign = 1 if upward else -1
         values = [sign * (function(u) - level) for u in points]
         for (a, fa), (b, fb) in zip(zip(points, values), zip(points[1:], values[1:])):
@@ -330,9 +333,11 @@ def _chain(case: Case, model: LinearModel, history: LoadHistory, first: Solution
             end = current[i + 1][0] if i + 1 < len(current) else until_mp
             length = end - s
             if kind == "elastic":
+                with mpmath.workdps(WORK):     # one complete search serves both lines
+                    turns = stationary_points(function, length)
                 hits = [(u, d) for d in (1, -1)
                         if (u := _crossing(function, length, threshold(offset, d), d > 0,
-                                           noise)) is not None]
+                                           noise, turns)) is not None]
                 if hits:
                     u, d = min(hits, key=lambda hit: hit[0])
                     found = (i, s, function, u, "reverse-yield" if last_yield and d != last_yield
