@@ -450,3 +450,19 @@ def test_yielding_cases_in_worker_processes():
     text = BASE + '[report]\nuntil = "2 s"\n'
     results = closedform.derive_many([text, text], jobs=2, progress=False)
     assert [r.to_dict()["ductility"]["value"] for r in results] == pytest.approx([2.5, 2.5])
+
+
+@pytest.mark.parametrize(("extra", "expected"), [
+    ('[symbols]\nm0 = { unit = "kg", value = "1 kg" }\n',
+     "case.toml:6: system.resistance: a resistance function needs numbers; the case declares "
+     "symbols (events are found numerically from the closed forms)"),
+    ('[initial]\ndisplacement = "0.2 m"\n',
+     "case.toml:12: initial: the initial displacement 0.2 m is at or beyond the yield "
+     "displacement 0.1 m (a yielding spring starts inside its elastic range)"),
+])
+def test_symbols_and_initial_beyond_yield_are_refused(tmp_path, capsys, extra, expected):
+    path = tmp_path / "case.toml"
+    path.write_text(BASE + extra, encoding="utf-8")
+    assert main(["derive", str(path), "--json", "-"]) == 2
+    captured = capsys.readouterr()
+    assert captured.out == "" and captured.err.splitlines() == [f"{tmp_path}{os.sep}{expected}"]
