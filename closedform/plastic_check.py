@@ -448,7 +448,9 @@ def energy_check(derivation) -> Check:
         for t, j in impulses:
             if t >= ends[-1][1]:
                 continue
-            after = next(i for i, (a, b) in enumerate(ends) if a <= t < b)
+            # the piece that starts at the impulse (times compared to a relative 1e-20: the
+            # same instant read at different precisions)
+            after = max(i for i, (a, _b) in enumerate(ends) if a <= t + CONTINUITY * (1 + t))
             v_after = _piece_function(derivation.pieces[after])(t)[1]
             v_before = v_after - law.b * j / law.m
             work_in += law.b * j * (v_before + v_after) / 2

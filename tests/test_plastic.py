@@ -466,3 +466,16 @@ def test_symbols_and_initial_beyond_yield_are_refused(tmp_path, capsys, extra, e
     assert main(["derive", str(path), "--json", "-"]) == 2
     captured = capsys.readouterr()
     assert captured.out == "" and captured.err.splitlines() == [f"{tmp_path}{os.sep}{expected}"]
+
+
+def test_impulse_unloading_a_yielding_spring():
+    """An impulse against the motion while the spring yields unloads it at once; the state
+    then follows from the jump (regression: the energy balance took the velocity before
+    the impulse for the one after it when the two times differed in the last digit)."""
+    d = closedform.derive(case(OSCILLATOR, [{"shape": "step", "amplitude": "12 N"},
+                                            {"shape": "impulse", "at": "0.15 s",
+                                             "impulse": "-1.5 N*s"}], until="1 s"))
+    assert d.status == "verified", [c.detail for c in d.checks if not c.passed]
+    events = d.to_dict()["events"]
+    assert [e["kind"] for e in events] == ["yield", "unload", "yield"]
+    assert events[1]["time"] == 0.15 and events[1]["velocity"] < 0
