@@ -479,3 +479,21 @@ def test_impulse_unloading_a_yielding_spring():
     events = d.to_dict()["events"]
     assert [e["kind"] for e in events] == ["yield", "unload", "yield"]
     assert events[1]["time"] == 0.15 and events[1]["velocity"] < 0
+
+
+def test_half_sine_from_rest_yields_during_the_pulse_against_scipy():
+    """x′ = x″ = 0 at the start (a half-sine from rest): the complete stationary-point
+    search must still find the hump inside the pulse where the spring yields (regression:
+    the mpmath route of the search stopped early when asked for every stationary point)."""
+    system = {"model": "spring-mass-damper", "mass": "1.1 kg", "stiffness": "431.3 N/m"}
+    d = closedform.derive(case(system, [{"shape": "half-sine", "duration": "0.408 s",
+                                         "amplitude": "13.83 N"}], until="2.17 s",
+                               resistance={"kind": "elastic-plastic", "yield": "6.59 N"}))
+    assert d.status == "verified", [c.detail for c in d.checks if not c.passed]
+    largest, kinds = reference(1.1, 0, 431.3, 0, 6.59,
+                               lambda t: 13.83 * math.sin(math.pi * t / 0.408) if t < 0.408
+                               else 0.0, 2.17, [0.408])
+    result = d.to_dict()
+    assert [e["kind"] for e in result["events"]] == kinds
+    assert result["events"][0]["time"] < 0.408           # yields while the pulse acts
+    assert result["ductility"]["value"] == pytest.approx(largest / (6.59 / 431.3), rel=1e-7)
