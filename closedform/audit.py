@@ -219,6 +219,10 @@ def audit(derivation: Derivation) -> Audit:
         ours = _compiled(derivation.pieces, values)
         verdicts.extend(_value_verdict(case, item, ours, values, tolerances.numbers)
                         for item in claimed_values)
+    if "response" in claims and getattr(derivation, "plastic", None) is not None:
+        raise error("claims.response", "a claimed formula cannot be audited for a yielding "
+                                       "spring (its equation changes at every event); claim "
+                                       "values instead: at = [...], ductility, peak, …")
     if "response" in claims:
         pieces = read_response_claims(case, reader, claims["response"], until, t, error)
         verdicts.extend(_response_verdict(derivation, piece, tolerances.expressions)

@@ -236,6 +236,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
     """
     from .budget import time_budget as budget_for
 
+    if getattr(case.system, "resistance", None) is not None:
+        from .plastic import derive_plastic  # a yielding spring: a chain of linear phases
+        return derive_plastic(case, time_budget=time_budget)
     with budget_for(time_budget, case.source) as budget:
         with budget.stage("model and poles"):
             model = build_model(case.system, case.symbol_values())

@@ -37,7 +37,8 @@ until = "250 ms"
 
 def test_the_families_and_where_they_run():
     assert [f.name for f in registry.FAMILIES] == [
-        "verification", "energy balance", "re-reading the printed equations", "extremes"]
+        "verification", "energy balance", "yielding spring", "re-reading the printed equations",
+        "extremes"]
     assert [f.name for f in registry.families(registry.DERIVE)] == \
         [f.name for f in registry.FAMILIES]
     assert [f.name for f in registry.families(registry.CLAIM)] == ["verification",
