@@ -224,11 +224,11 @@ def integrate(case: Case, until) -> tuple[list, list, Callable]:
     points [(time, x)], x(t) for any t) — own method throughout (see the module text)."""
     law = _Law(case)
     branches, impulses = load_model(case)
-    times = {mpmath.mpf(0), until}
+    marks = {mpmath.mpf(0), until}
     for b in branches:
-        times |= {b.start} | ({b.end} if b.end is not None else set())
-    times |= {t for t, _ in impulses}
-    times = sorted(t for t in times if 0 <= t <= until)
+        marks |= {b.start} | ({b.end} if b.end is not None else set())
+    marks |= {t for t, _ in impulses}
+    times = sorted(t for t in marks if 0 <= t <= until)
     stiffest = max(law.k, law.k2)
     period = 2 * mpmath.pi / mpmath.sqrt(stiffest / law.m)
     if law.c:
@@ -313,8 +313,8 @@ def integration_check(derivation) -> Check:
         until = _mp(derivation.window.until)
         try:
             events, turning, displacement = integrate(derivation.case, until)
-        except (ValueError, ZeroDivisionError) as error:
-            return Check(name, False, f"the integration could not be completed: {error}")
+        except (ValueError, ZeroDivisionError) as failure:
+            return Check(name, False, f"the integration could not be completed: {failure}")
         law = _Law(derivation.case)
         period = 2 * mpmath.pi / mpmath.sqrt(max(law.k, law.k2) / law.m)
         scale = max([abs(x) for _, x in turning] + [law.ry / law.k])
