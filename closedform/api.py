@@ -42,6 +42,11 @@ def response_transforms(derivation: Derivation) -> dict[str, Callable | None]:
     for name, _text, _unit, transform in quantity_definitions(derivation.case, derivation.model):
         transforms[name.removeprefix("peak_")] = transform
     transforms[LOAD] = _identity
+    if getattr(derivation, "plastic", None) is not None:
+        # a yielding spring's force is R(x) of each phase, not one transform of x: these
+        # are reported as peaks (JSON) but not offered here
+        for name in ("spring_force", "support_reaction", "absolute_acceleration"):
+            transforms.pop(name, None)
     return transforms
 
 

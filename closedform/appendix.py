@@ -205,6 +205,11 @@ def summary_cells(derivation: Derivation | ChainDerivation, target: str) -> Summ
         peak = f"{value_shown or value_si} {escape('at')} {time_shown or time_si}"
     shown = render.number(results.dlf, 4)
     dlf = None if shown is None else render.inline(shown)
+    plastic = getattr(derivation, "plastic", None)
+    if peak is not None and plastic is not None and plastic.ductility is not None:
+        # a yielding spring: the ductility ratio beside the peak it comes from
+        peak += escape("; ductility ") + render.inline(
+            r"\mu = " + (render.number(plastic.ductility.value, 4) or ""))
     return SummaryCells(peak, dlf)
 
 

@@ -224,6 +224,10 @@ def audit(derivation: Derivation | ChainDerivation) -> Audit:
         ours = _compiled(derivation.pieces, values)
         verdicts.extend(_value_verdict(case, item, ours, values, tolerances.numbers)
                         for item in claimed_values)
+    if "response" in claims and getattr(derivation, "plastic", None) is not None:
+        raise error("claims.response", "a claimed formula cannot be audited for a yielding "
+                                       "spring (its equation changes at every event); claim "
+                                       "values instead: at = [...], ductility, peak, …")
     if "response" in claims:
         if not isinstance(derivation, Derivation):    # several masses: refused above
             raise error("claims.response", "claimed formulas are not supported for several "

@@ -40,6 +40,7 @@ from .messages import plain as _plain
 from .messages import shown as _shown
 from .messages import shown_value as _shown_value
 from .messages import toml_type as _toml_type
+from .resistance import SPRING_MODELS, read_resistance
 from .specs import (
     REGIMES,
     TAU,
@@ -233,6 +234,11 @@ class _Reader:
                 table_line = found[int(match.group(2)) - 1]
         else:
             pattern = re.compile(rf"\s*\[\[?\s*{re.escape(parts[0])}\s*\]")
+            if len(parts) > 1:      # a sub-table of its own: [system.resistance]
+                sub = re.compile(rf"\s*\[\s*{re.escape(parts[0])}\s*\.\s*"
+                                 rf"{re.escape(parts[1])}\s*\]")
+                if any(sub.match(line) for line in lines):
+                    pattern, parts = sub, parts[1:]
             table_line = next((i for i, line in enumerate(lines) if pattern.match(line)), None)
         if table_line is not None:
             parts = parts[1:]
@@ -423,6 +429,9 @@ class _Reader:
             raise self.error("system.model", f"unknown model {_shown(model)} (expected one of: "
                                              f"{', '.join(models.names())}){hint}")
         definition = models.get(model)
+        if isinstance(data.get("resistance"), Mapping) and model not in SPRING_MODELS:
+            # a [system.resistance] table on a model without a spring: refused, located
+            read_resistance(data["resistance"], model, None, self.quantity, self.error, self.table)
         self.check_keys(data, definition.keys, "system")
         regime = data.get("regime")
         if regime is not None and regime not in REGIMES:

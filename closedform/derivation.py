@@ -245,6 +245,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation | Chai
     if case.chain is not None:          # several masses: the modal route (closedform.chain)
         from .chain import derive_chain
         return derive_chain(case, time_budget=time_budget)
+    if getattr(case.system, "resistance", None) is not None:
+        from .plastic import derive_plastic  # a yielding spring: a chain of linear phases
+        return derive_plastic(case, time_budget=time_budget)
     with budget_for(time_budget, case.source) as budget:
         with budget.stage("model and poles"):
             model = build_model(case.system, case.symbol_values())

@@ -199,7 +199,8 @@ def search_precise(evaluator, groups_all: list, length, best, tolerance, digits:
                 ahead = mpmath.fsum(mpmath.exp(max(rate * cell * width, rate * length))
                                     * mpmath.fsum(a * length ** k for k, a in enumerate(amps))
                                     for rate, amps in size)
-                if best > 0 and ahead <= best * (1 + mpmath.mpf(tolerance) / 4):
+                # (a tolerance of 1 or more asks for every stationary point: no pruning)
+                if 0 < tolerance < 1 and best > 0 and ahead <= best * (1 + mpmath.mpf(tolerance) / 4):
                     break
                 stack.append(((cell + mpmath.mpf(1) / 2) * width, width / 2, 0))
                 cell += 1

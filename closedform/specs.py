@@ -43,6 +43,8 @@ class ValueReader(Protocol):
 
     def unit_dimension(self, unit: str, key: str) -> Any: ...
 
+    def table(self, value: Any, key: str) -> Mapping[str, Any]: ...
+
 
 @dataclass(frozen=True)
 class SymbolDeclaration:
@@ -65,6 +67,7 @@ class SystemSpec:
     load_dimension: Any
     response_dimension: Any
     input: str | None = None      # base-excitation: support-acceleration | support-displacement
+    resistance: Any = None          # resistance.Resistance of a yielding spring, or None
 
     def get(self, name: str) -> sympy.Expr | None:
         return self.parameters.get(name)

@@ -56,6 +56,9 @@ def register(commands) -> None:
     parser.add_argument("--ratios", metavar="A,B,…", help="t_d/T_n values, comma-separated")
     parser.add_argument("--range", dest="ratio_range", metavar="LO:HI:N",
                         help="N evenly spaced t_d/T_n values from LO to HI")
+    parser.add_argument("--strength-ratios", metavar="A,B,…",
+                        help="ductility spectrum of an elastic-plastic oscillator instead: one "
+                             "curve per yield resistance over peak load R_m/F_1")
     parser.add_argument("--json", dest="json_target", metavar="-",
                         help="print the JSON result on standard output ('-')")
     parser.add_argument("-o", "--output", type=Path, metavar="DIR",
@@ -190,6 +193,9 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
         usable_output_folder(arguments.output)
     if arguments.time_budget is not None and not 0 < arguments.time_budget < math.inf:
         raise CaseError("must be a positive number of seconds", file="--time-budget")
+    if getattr(arguments, "strength_ratios", None) is not None:
+        from .ductility_spectrum import run_ductility_spectrum  # a yielding oscillator
+        return run_ductility_spectrum(arguments, pulse, zeta, ratios)
     with time_budget(arguments.time_budget, "spectrum") as budget:
         spectrum = response_spectrum(pulse, zeta, ratios, budget)
     if arguments.json_target == "-":

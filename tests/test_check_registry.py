@@ -37,8 +37,8 @@ until = "250 ms"
 
 def test_the_families_and_where_they_run():
     assert [f.name for f in registry.FAMILIES] == [
-        "verification", "energy balance", "re-reading the printed equations", "extremes",
-        "response metrics"]
+        "verification", "energy balance", "yielding spring", "re-reading the printed equations",
+        "extremes", "response metrics"]
     assert [f.name for f in registry.families(registry.DERIVE)] == \
         [f.name for f in registry.FAMILIES]
     assert [f.name for f in registry.families(registry.CLAIM)] == ["verification",
@@ -102,3 +102,38 @@ def test_a_failing_family_makes_the_derivation_fail(monkeypatch):
     derivation = derive_text(CASE)
     assert derivation.status == "failed"
     assert [c.name for c in derivation.checks if not c.passed] == ["always wrong"]
+
+
+def test_each_family_fits_either_one_linear_equation_or_a_yielding_spring():
+    """A yielding spring (a case with [system.resistance], issue 15) changes its equation at
+    every event: the checks of one linear equation do not fit it, its own family does."""
+    import types
+
+    def response(resistance):
+        return types.SimpleNamespace(case=types.SimpleNamespace(
+            system=types.SimpleNamespace(resistance=resistance)))
+
+    fitting = {name: [f.name for f in registry.FAMILIES if f.fits(response(name))]
+               for name in (None, "a resistance")}
+    assert fitting[None] == ["verification", "energy balance",
+                             "re-reading the printed equations", "extremes",
+                             "response metrics"]
+    assert fitting["a resistance"] == ["yielding spring", "re-reading the printed equations"]
+    assert not registry.yielding("a response without a case")
+
+
+def test_a_yielding_spring_is_checked_through_the_registry(monkeypatch):
+    """derive_plastic runs its checks through the registry: the yielding family replaced by a
+    failing one makes the yielding worked case FAILED, its linear families never run."""
+    import closedform
+
+    from .conftest import WORKED, replace_check_run
+
+    ran = []
+    replace_check_run(monkeypatch, "yielding spring",
+                      lambda derivation: [Check("wrong on purpose", False, "found wrong")])
+    replace_check_run(monkeypatch, "energy balance", lambda derivation: ran.append(1) or [])
+    derivation = closedform.derive(closedform.load_case(WORKED / "blast-wall-yielding.toml"))
+    assert derivation.status == "failed"
+    assert [c.name for c in derivation.checks if not c.passed] == ["wrong on purpose"]
+    assert ran == []

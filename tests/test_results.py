@@ -403,6 +403,10 @@ def test_energy_balance_closes_on_every_worked_case(name):
     section 3.8, from memory). Models that are not second order have no energy: no checks
     (decided from the case alone, so those cases are not derived here)."""
     case = closedform.load_case(WORKED / f"{name}.toml")
+    if case.system.resistance is not None:      # a yielding spring: its balance has plastic work
+        checks = [c for c in worked(name).checks if c.name == "energy balance with plastic work"]
+        assert len(checks) == 1 and checks[0].passed, checks
+        return
     model = build_model(case.system, case.symbol_values())
     if model.order != 2:
         assert energy_checks(types.SimpleNamespace(case=case, pieces=())) == []

@@ -6,12 +6,14 @@ pieces up to a claimed formula, see ``audit.ClaimedResponse``). Each family retu
 checks as a list; the order of the families here is the order of the checks in the JSON
 result and on the sheets.
 
-A new family is one module in this package and one entry in ``FAMILIES``.
+A new family is one module in this package and one entry in ``FAMILIES``. A family's ``fits``
+says which responses it checks: the checks of one linear equation (verification, energy
+balance, extremes) leave out a yielding spring, whose own family (``plastic``) checks it.
 """
 
 from __future__ import annotations
 
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Collection, Iterator, Sequence
 from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass
 from typing import Any
@@ -19,6 +21,7 @@ from typing import Any
 from .base import Check
 from .energy import energy_checks
 from .extremes import extreme_checks, metric_checks
+from .plastic import plastic_checks
 from .verification import verify
 
 DERIVE = "derive"      # the checks of a derivation (``closedform derive``, ``derive()``)
@@ -33,6 +36,20 @@ class CheckFamily:
     name: str
     applies: frozenset[str]
     run: Callable[[Any], Sequence[Check]]
+    fits: Callable[[Any], bool] = lambda response: True    # the responses it checks
+
+
+def yielding(response: Any) -> bool:
+    """Whether the response is that of a yielding spring (a case with [system.resistance]):
+    its equation changes at every event, so the checks of one linear equation do not apply
+    to it and the checks of the yielding spring do."""
+    system = getattr(getattr(response, "case", None), "system", None)
+    return getattr(system, "resistance", None) is not None
+
+
+def linear(response: Any) -> bool:
+    """Whether the response is that of one linear equation (every case but a yielding one)."""
+    return not yielding(response)
 
 
 def _printed_equations(derivation: Any) -> Sequence[Check]:
@@ -44,11 +61,12 @@ def _printed_equations(derivation: Any) -> Sequence[Check]:
 
 
 FAMILIES: tuple[CheckFamily, ...] = (
-    CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify),
-    CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks),
+    CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify, linear),
+    CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks, linear),
+    CheckFamily("yielding spring", frozenset({DERIVE}), plastic_checks, yielding),
     CheckFamily("re-reading the printed equations", frozenset({DERIVE}), _printed_equations),
-    CheckFamily("extremes", frozenset({DERIVE}), extreme_checks),
-    CheckFamily("response metrics", frozenset({DERIVE}), metric_checks),
+    CheckFamily("extremes", frozenset({DERIVE}), extreme_checks, linear),
+    CheckFamily("response metrics", frozenset({DERIVE}), metric_checks, linear),
 )
 
 
@@ -60,12 +78,17 @@ def families(run: str) -> Iterator[CheckFamily]:
 
 
 def run_checks(response: Any, run: str,
-               stage: Callable[[str], AbstractContextManager] | None = None) -> tuple[Check, ...]:
-    """The checks of every family that applies to ``run``, in the registry's order.
+               stage: Callable[[str], AbstractContextManager] | None = None, *,
+               without: Collection[str] = ()) -> tuple[Check, ...]:
+    """The checks of every family that applies to ``run`` and fits the response, in the
+    registry's order; the families named in ``without`` are left out (a ductility spectrum
+    prints no sheet, so it has no printed equations to re-read).
 
     ``stage`` (the time budget's ``stage``) is entered around each family with its name."""
     checks: list[Check] = []
     for family in families(run):
+        if family.name in without or not family.fits(response):
+            continue
         with stage(family.name) if stage is not None else nullcontext():
             checks += family.run(response)
     return tuple(checks)

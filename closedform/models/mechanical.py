@@ -10,16 +10,18 @@ from typing import Any
 import sympy
 
 from .. import quantities
+from ..resistance import read_resistance
 from ..specs import SystemSpec, ValueReader
 from . import QuantityContext, QuantityDefinition, required
 
-KEYS = ("model", "mass", "stiffness", "damping", "damping_ratio", "regime")
+KEYS = ("model", "mass", "stiffness", "damping", "damping_ratio", "regime", "resistance")
 ASSUMPTIONS = ("linear elastic spring, lumped mass, small displacements",)
 
 
 def read(reader: ValueReader, data: Mapping[str, Any], model: str, regime: str | None,
          load: str) -> SystemSpec:
-    """m, k and c (c = 2ζ√(km) where the damping ratio ζ is given instead; 0 if neither)."""
+    """m, k and c (c = 2ζ√(km) where the damping ratio ζ is given instead; 0 if neither),
+    and the resistance function of a yielding spring where [system.resistance] is given."""
     parameters: dict[str, sympy.Expr] = {}
     parameters["mass"] = required(reader, data, model, "mass", "mass")
     parameters["stiffness"] = required(reader, data, model, "stiffness", "stiffness")
@@ -39,7 +41,12 @@ def read(reader: ValueReader, data: Mapping[str, Any], model: str, regime: str |
     else:
         parameters["damping"] = sympy.S.Zero
     d = quantities.dimension
-    return SystemSpec(model, MappingProxyType(parameters), regime, d(load), d("length"))
+    resistance = None
+    if "resistance" in data:        # a yielding spring: [system.resistance] (issue 15)
+        resistance = read_resistance(data["resistance"], model, parameters["stiffness"],
+                                     reader.quantity, reader.error, reader.table)
+    return SystemSpec(model, MappingProxyType(parameters), regime, d(load), d("length"),
+                      resistance=resistance)
 
 
 def derived(context: QuantityContext, *, relative: bool) -> list[QuantityDefinition]:

@@ -37,5 +37,8 @@ def summary_figures(derivation) -> list[str]:
             f"t = {shown(peak.time, quantities.dimension('time'), ('time',))}")
     if results.dlf is not None:
         figures.append(f"DLF {plain_number(results.dlf, digits)}")
+    plastic = getattr(derivation, "plastic", None)
+    if plastic is not None and plastic.ductility is not None:     # a yielding spring
+        figures.append(f"ductility {plain_number(plastic.ductility.value, digits)}")
     return figures
 

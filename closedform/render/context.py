@@ -4,7 +4,7 @@
 :class:`Sheet` and merges what each section builder of :data:`SECTIONS` returns. A section
 builder is a function ``Sheet -> dict`` in the module of its section (:mod:`.status`,
 :mod:`.problem`, :mod:`.loads`, :mod:`.transform`, :mod:`.fractions`, :mod:`.pieces`,
-:mod:`.results`, :mod:`.figures`); a new section is one builder and its template lines.
+:mod:`.results`, :mod:`.figures`, :mod:`.yielding`); a new section is one builder and its template lines.
 """
 
 from __future__ import annotations
@@ -29,6 +29,7 @@ from .status import status_context
 from .transform import transform_context
 from .typesetting import REPORT_DIGITS, NumberStyle, number_style
 from .units import Units, load_prefer
+from .yielding import yielding_context
 
 
 @dataclass(frozen=True)
@@ -84,7 +85,7 @@ class Sheet:
 #: The section builders, in the order their displayed equations are recorded.
 SECTIONS: tuple[Callable[[Sheet], dict[str, Any]], ...] = (
     status_context, loads_context, transform_context, fractions_context, pieces_context,
-    results_context, problem_context, figures_context)
+    results_context, problem_context, figures_context, yielding_context)
 
 
 def sheet_context(derivation, target: str = "md", *, stem: str | None = None,

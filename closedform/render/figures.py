@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any
 import sympy
 
 from .. import plots, quantities
+from . import yielding
 from .escaping import Math
 from .layout import figure_name
 from .typesetting import unit_text
@@ -17,7 +18,8 @@ if TYPE_CHECKING:
 
 
 def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
-    """The load and response plots of one sheet as ``fmt`` ("svg" or "pdf") files."""
+    """The load and response plots of one sheet as ``fmt`` ("svg" or "pdf") files (and the
+    resistance function with the path followed, for a yielding spring)."""
     if getattr(derivation, "chain", None) is not None:     # several masses: their own plot
         from ..chain_sheet import figure_files as chain_figures
         return chain_figures(derivation, stem, fmt)
@@ -49,12 +51,19 @@ def figure_files(derivation, stem: str, fmt: str) -> dict[str, bytes]:
     impulse_unit = quantities.si_unit_text(load_dimension * quantities.dimension("time"))
     impulses = [(units.float(i.at), f"J = {units.float(i.impulse):.4g} {impulse_unit}")
                 for i in derivation.history.impulses]
-    return {
+    figures = {
         figure_name(stem, "load", fmt): plots.load_figure(derivation, fmt, time_axis, load_axis,
                                                           impulses),
         figure_name(stem, "response", fmt): plots.response_figure(derivation, fmt, time_axis, value_axis,
                                                         peak_label),
     }
+    if yielding.is_yielding(derivation):        # spring force against displacement
+        force_unit = units.unit_for(quantities.dimension("force"), ("force",))
+        force_axis = plots.Axis(f"R [{unit_text(force_unit.text) if force_unit else 'N'}]",
+                                1 / float(sympy.N(force_unit.factor, 30)) if force_unit else 1.0)
+        figures[figure_name(stem, "resistance", fmt)] = yielding.resistance_figure(
+            derivation, fmt, value_axis, force_axis)
+    return figures
 
 
 def figures_context(sheet: Sheet) -> dict[str, Any]:

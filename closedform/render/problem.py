@@ -7,6 +7,7 @@ import re
 from typing import TYPE_CHECKING, Any
 
 from .. import models, quantities
+from . import yielding
 from .escaping import Math
 from .typesetting import as_factor, inline, typeset, unit_latex
 from .units import RESPONSE_PREFER
@@ -90,10 +91,18 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
                                    exact=True)
             initial.append({"name": inline(variable_mark(model.variable, i) + "(0)"), "si": si,
                             "shown": shown})
+    assumptions = list(models.get(case.system.model).assumptions_of(case.system)) \
+        + COMMON_ASSUMPTIONS
+    if yielding.is_yielding(sheet.derivation):      # k·x becomes the resistance function R(x)
+        equation = Math(yielding.EQUATIONS[case.system.model])
+        values = yielding.equation_with_values(sheet.derivation)
+        assumptions = yielding.assumptions(sheet.derivation, assumptions)
+    else:
+        equation, values = Math(model.equation), equation_with_values(model)
     return {
         "model": case.system.model,
-        "equation": sheet.check.form(Math(model.equation)),
-        "equation_values": sheet.check.form(equation_with_values(model)),
+        "equation": sheet.check.form(equation),
+        "equation_values": sheet.check.form(values),
         "variable": inline(model.variable),
         "variable_name": Math(model.variable),
         "load_name": inline(rf"{model.load_name}(t)"),
@@ -103,6 +112,6 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         "symbols": symbols,
         "symbolic": case.is_symbolic,
         "initial": initial,
-        "assumptions": list(models.get(case.system.model).assumptions_of(case.system)) + COMMON_ASSUMPTIONS,
+        "assumptions": assumptions,
         "caution": CAUTION,
     }
