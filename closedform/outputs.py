@@ -21,6 +21,7 @@ import os
 import shutil
 import signal
 import tempfile
+import threading
 import time
 import unicodedata
 from collections.abc import Iterator, Mapping
@@ -61,15 +62,31 @@ def _unsafe(character: str) -> bool:
 
 @contextlib.contextmanager
 def held_signals() -> Iterator[None]:
-    """SIGINT, SIGTERM and SIGHUP wait until the block ends (then act as usual)."""
-    if not hasattr(signal, "pthread_sigmask"):
-        yield
-        return
-    previous = signal.pthread_sigmask(signal.SIG_BLOCK, HELD_SIGNALS)
+    """SIGINT, SIGTERM and SIGHUP wait until the block ends (then act as usual).
+
+    Blocking them in this thread is not enough: a signal sent to the process is delivered
+    to any thread that does not block it (numpy's and other libraries' native threads), and
+    Python then runs its handler in the main thread at once. So, in the main thread, each
+    handler is also replaced for the block by one that only notes the signal, and every
+    noted signal is raised again, to its own handler, when the block ends."""
+    main = threading.current_thread() is threading.main_thread()
+    noted: list[int] = []
+    handlers = {}
+    if main:
+        for number in HELD_SIGNALS:
+            handlers[number] = signal.getsignal(number)
+            signal.signal(number, lambda signum, _frame: noted.append(signum))
+    masked = hasattr(signal, "pthread_sigmask")
+    previous: set = signal.pthread_sigmask(signal.SIG_BLOCK, HELD_SIGNALS) if masked else set()
     try:
         yield
     finally:
-        signal.pthread_sigmask(signal.SIG_SETMASK, previous)
+        if masked:
+            signal.pthread_sigmask(signal.SIG_SETMASK, previous)
+        for number, handler in handlers.items():
+            signal.signal(number, handler if handler is not None else signal.SIG_DFL)
+        for noted_signal in dict.fromkeys(noted):
+            signal.raise_signal(noted_signal)
 
 
 @contextlib.contextmanager
