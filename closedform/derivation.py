@@ -347,6 +347,7 @@ def _extreme(extreme: Extreme | None) -> dict[str, float] | None:
 def result_dictionary(derivation: Derivation) -> dict[str, Any]:
     """The JSON result contract (schema 1) of the design brief."""
     from . import quantities
+    from .member_results import member_fields
 
     case = derivation.case
     values = case.symbol_values()
@@ -357,7 +358,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "reference": case.reference,
         "tool_version": __version__,
         "status": derivation.status,
-        "model": case.system.model,
+        "model": "member" if case.system.member is not None else case.system.model,
         "variable": {"name": derivation.model.variable,
                      "unit": quantities.si_unit_text(case.system.response_dimension)},
         "regime": derivation.model.regime,
@@ -368,6 +369,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "static": results.static,
         "dlf": results.dlf,
         **result_fields(results),
+        **(member_fields(derivation) if case.system.member is not None else {}),
         "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],

@@ -426,7 +426,7 @@ def equivalent_member(support: str, distribution: str, span, rigidity, mass_per_
                             plastic_moment, damping_ratio, factors_of(support, distribution))
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def factors_of(support: str, distribution: str) -> MemberFactors:
     """derive_factors, remembered per (support, distribution): the result is immutable."""
     return derive_factors(support, distribution)
