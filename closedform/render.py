@@ -1328,7 +1328,12 @@ def _sheet_context(derivation, target: str, *, stem: str | None,
         "paper": case.report.paper,
         "printed": check.records,
         "plastic": None,
+        "member": None,
     }
+    if case.system.member is not None:       # a member as its equivalent oscillator (issue 16)
+        from . import member_sheet
+        context["member"] = member_sheet.section(derivation, units, escape, inline)
+        context["assumptions"] = [*member_sheet.ASSUMPTIONS, *context["assumptions"]]
     if getattr(derivation, "plastic", None) is not None:     # a yielding spring (issue 15)
         from . import plastic_sheet
         context["plastic"] = plastic_sheet.section(
