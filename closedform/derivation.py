@@ -232,6 +232,9 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation:
         with budget.stage("extremes"):
             checks += tuple(extreme_checks(partial))
         checks += (finite_check(results),)
+        if case.system.member is not None:
+            from .member_check import member_checks
+            checks += member_checks(case.system.member)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results))
 

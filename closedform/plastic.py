@@ -573,6 +573,9 @@ def derive_plastic(case: Case, *, time_budget: float | None = None, sheet_check:
                 from .render import printed_equation_check
                 checks += (printed_equation_check(partial),)
         checks += (finite_check(numbers),)
+        if case.system.member is not None:      # a member's yielding oscillator (issue 16)
+            from .member_check import member_checks
+            checks += member_checks(case.system.member)
     return PlasticDerivation(case, model, history, window, solution, numbers, checks,
                              window_warnings(case, window, numbers), plastic=response)
 

@@ -198,7 +198,7 @@ def test_yielding_member(tmp_path, capsys):
 def test_member_results_are_claimable(tmp_path, capsys):
     text = CASE + '[claims]\nequivalent_elastic_load_factor = 0.64\n' \
                   'equivalent_elastic_stiffness = "746.6667 kN/m"\n' \
-                  'peak_support_reaction = "24.31 kN"\n'
+                  'peak_support_reaction = "42.885 kN"\n'
     code, out, _err = run(tmp_path, capsys, text, "check")
     assert code == 0, out
     audit = json.loads(out)
@@ -222,3 +222,21 @@ def test_bad_member_input(tmp_path, capsys, old, new, message):
     code, out, err = run(tmp_path, capsys, CASE.replace(old, new, 1))
     assert code == 2 and out == ""
     assert err.strip().endswith(message) and len(err.strip().splitlines()) == 1
+
+
+def test_a_wrong_factor_fails_loudly():
+    from dataclasses import replace
+
+    from closedform.member import equivalent_member
+    from closedform.member_check import member_checks
+    good = equivalent_member("fixed-fixed", "uniform", 6, 2, 30, 28, 0)
+    assert all(c.passed for c in member_checks(good))
+    ranges = list(good.factors.ranges)
+    ranges[0] = replace(ranges[0], stiffness=ranges[0].stiffness * sympy.Rational(101, 100),
+                        mass_factor=ranges[0].mass_factor + sympy.Rational(1, 1000))
+    wrong = replace(good, factors=replace(good.factors, ranges=tuple(ranges),
+                                          collapse_by_statics=15))
+    failed = {c.name for c in member_checks(wrong) if not c.passed}
+    assert failed == {"member factors by quadrature",
+                      "member static shape (strain energy = work of the load)",
+                      "member collapse load (virtual work = statics)"}
