@@ -21,7 +21,8 @@ ASSUMPTIONS = [
     "with a plastic moment: one load-mass factor for the whole response, the mean of the "
     "elastic and plastic values; where the fixed ends yield first the resistance is the "
     "elastic-perfectly-plastic line of equal area up to R_m (equivalent stiffness k_E); plastic "
-    "hinges with a rigid-perfectly-plastic moment M_p, the same at supports and in the span",
+    "hinges with a rigid-perfectly-plastic moment M_p, the same at supports and in the span; "
+    "the ductility ratio is taken against the yield deflection R_m/k_E of that line",
     "dynamic support reactions from the equilibrium of the member under the load, the "
     "inertia forces of the assumed shape and the bending moments of the resistance at the "
     "supports and the critical section; damping forces are not included in them",
@@ -75,7 +76,7 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
                          "value": inline(rf"V = {_decimal(a)}\,R {_signed(b)}\,F"
                                          rf" \quad ({sympy.latex(a)},\ {sympy.latex(b)})")})
         ranges.append({"name": _NAMES[item.name], "note": item.shape_note, "rows": rows})
-    load = "uniform, p per length, F = p·L" if not point else (
+    load = "uniform, p per length; the oscillator carries the total load F = p·L" if not point else (
         "point load F at the tip" if member.support == "cantilever" else
         "point load F at midspan")
     given = [
@@ -99,6 +100,13 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
                                                   member.plastic_moment is not None else ""),
          "value": _shown(units, member.equivalent_stiffness, _dimension("stiffness"))},
     ]
+    from .member_results import peak_support_reaction
+    peak = peak_support_reaction(derivation)
+    if peak is not None:
+        oscillator.append({"name": f"largest dynamic support reaction |V| ({peak['support']} "
+                                   "support), V = a·R + b·F of the range R is in",
+                           "value": Math(_shown(units, peak["value"], force) + escape(" at t = ")
+                                         + _shown(units, peak["time"], _dimension("time")))})
     if f.collapse_by_statics is not None and member.plastic_moment is not None:
         oscillator.append({"name": "collapse load by statics (moments nowhere above M_p)",
                            "value": inline(rf"{sympy.latex(f.collapse_by_statics)}\,M_p/L")})

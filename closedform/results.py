@@ -662,6 +662,11 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable]]:
             ("peak_support_reaction", f"support reaction k·x + c·x′ ({where})", force,
              combination(k, c) if k is not None else None),
         ]
+        if case.system.member is not None:   # a member's reactions come from its shape
+            definitions = [(name, "resistance R = k·y (the total load the member carries "
+                                  "statically at the deflection y)" if name == "peak_spring_force"
+                            else text, unit, value) for name, text, unit, value in definitions
+                           if name != "peak_support_reaction"]
         return definitions
     if model_name == "series-rlc":
         capacitance = number(case.system.parameters["capacitance"])
