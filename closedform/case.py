@@ -702,13 +702,14 @@ class _Reader:
             chosen["support"], chosen["load_distribution"], values["span"],
             values["flexural_rigidity"], values["mass_per_length"],
             values.get("plastic_moment"), ratio)
-        mass = equivalent.load_mass_factor * equivalent.mass
-        stiffness = equivalent.equivalent_stiffness
+        mass = member.oscillator_number(equivalent.load_mass_factor * equivalent.mass)
+        stiffness = member.oscillator_number(equivalent.equivalent_stiffness)
         parameters = {"mass": mass, "stiffness": stiffness, "damping_ratio": ratio,
                       "damping": 2 * ratio * sympy.sqrt(stiffness * mass)}
         resistance = None
         if equivalent.plastic_moment is not None:
-            resistance = Resistance("elastic-plastic", equivalent.resistance("plastic"),
+            resistance = Resistance("elastic-plastic",
+                                    member.oscillator_number(equivalent.resistance("plastic")),
                                     stiffness, sympy.S.Zero, "yield")
         load_dimension = d("force") / d("length") if chosen["load_distribution"] == "uniform" \
             else d("force")

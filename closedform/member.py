@@ -420,6 +420,15 @@ class EquivalentMember:
         return f"x = {sympy.sstr(xi)}·L ≈ {float(xi):.4f}·L from the fixed end"
 
 
+def oscillator_number(value: sympy.Expr) -> sympy.Expr:
+    """``value`` for the oscillator: itself when rational, else its 30-significant-digit
+    rational (irrational factors such as √33 would make every later stage symbolic in them)."""
+    value = sympy.nsimplify(value) if value.is_Float else value
+    if value.is_Rational:
+        return value
+    return sympy.Rational(str(sympy.N(value, 30)))
+
+
 def equivalent_member(support: str, distribution: str, span, rigidity, mass_per_length,
                       plastic_moment, damping_ratio) -> EquivalentMember:
     return EquivalentMember(support, distribution, span, rigidity, mass_per_length,

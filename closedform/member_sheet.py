@@ -107,6 +107,13 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
                                    "support), V = a·R + b·F of the range R is in",
                            "value": Math(_shown(units, peak["value"], force) + escape(" at t = ")
                                          + _shown(units, peak["time"], _dimension("time")))})
+    exact = [value for value in (member.load_mass_factor * member.mass,
+                                 member.equivalent_stiffness, member.resistance("plastic"))
+             if value is not None and not sympy.nsimplify(value).is_Rational]
+    if exact:
+        oscillator.append({"name": "irrational values in the oscillator",
+                           "value": "carried as 30-significant-digit rationals of the exact "
+                                    "values above"})
     if f.collapse_by_statics is not None and member.plastic_moment is not None:
         oscillator.append({"name": "collapse load by statics (moments nowhere above M_p)",
                            "value": inline(rf"{sympy.latex(f.collapse_by_statics)}\,M_p/L")})
