@@ -63,7 +63,7 @@ class Shape:
         raise ValueError(f"ξ = {xi} outside the span")
 
     def scaled(self, factor: sympy.Expr) -> Shape:
-        return Shape(tuple((a, b, sympy.expand(p * factor)) for a, b, p in self.pieces))
+        return Shape(tuple((a, b, _tidy(p * factor)) for a, b, p in self.pieces))
 
     def integral(self, weight: sympy.Expr = sympy.S.One, power: int = 1,
                  start: sympy.Expr = sympy.S.Zero, end: sympy.Expr = sympy.S.One) -> sympy.Expr:
@@ -79,6 +79,12 @@ class Shape:
         """The shape as one sympy Piecewise (for the sheet)."""
         return sympy.Piecewise(*[(p, XI <= b) for a, b, p in self.pieces[:-1]],
                                (self.pieces[-1][2], True))
+
+
+def _tidy(poly: sympy.Expr) -> sympy.Expr:
+    """A polynomial in ξ with each coefficient's radicals out of the denominator."""
+    terms = sympy.Poly(sympy.expand(poly), XI).all_coeffs()[::-1]
+    return sympy.Add(*[sympy.radsimp(sympy.expand(c)) * XI**i for i, c in enumerate(terms)])
 
 
 @dataclass(frozen=True)
@@ -417,7 +423,7 @@ class EquivalentMember:
             return "midspan"
         if xi == 1:
             return "the tip"
-        return f"x = {sympy.sstr(xi)}·L ≈ {float(xi):.4f}·L from the fixed end"
+        return f"x = ({sympy.sstr(xi)})·L ≈ {float(xi):.4f}·L from the fixed end"
 
 
 def oscillator_number(value: sympy.Expr) -> sympy.Expr:

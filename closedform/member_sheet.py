@@ -59,7 +59,7 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
         if item.stiffness is not None:
             rows.append({"name": "stiffness k = F / y (total load per deflection at the "
                                  "reference point)",
-                         "value": Math(inline(rf"k = {sympy.latex(item.stiffness)}\,EI/L^3")
+                         "value": Math(inline(rf"k = {_factor(item.stiffness)}\,EI/L^3")
                                        + escape(" = ") + _shown(units, member.stiffness(item.name),
                                                                 _dimension("stiffness")))})
         resistance = member.resistance(item.name)
@@ -69,7 +69,7 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
                     if item.name == "elastic" else "collapse load R_m (virtual work of the "
                     "mechanism)")
             rows.append({"name": what,
-                         "value": Math(inline(rf"{sympy.latex(sympy.radsimp(number))}\,M_p/L")
+                         "value": Math(inline(rf"{_factor(number)}\,M_p/L")
                                        + escape(" = ") + _shown(units, resistance, force))})
         for side, a, b in item.reaction:
             rows.append({"name": f"dynamic reaction, {side} support",
@@ -116,13 +116,20 @@ def section(derivation, units, escape, inline) -> dict[str, Any]:
                                     "values above"})
     if f.collapse_by_statics is not None and member.plastic_moment is not None:
         oscillator.append({"name": "collapse load by statics (moments nowhere above M_p)",
-                           "value": inline(rf"{sympy.latex(f.collapse_by_statics)}\,M_p/L")})
+                           "value": inline(rf"{_factor(f.collapse_by_statics)}\,M_p/L")})
     return {"given": given, "ranges": ranges, "oscillator": oscillator,
             "equation": inline(r"K_{LM} M\,\ddot{y} + c\,\dot{y} + R(y) = F(t),\quad "
                                r"K_L = \frac{\int p\,\varphi\,dx}{F},\ "
                                r"K_M = \frac{\int m\,\varphi^2\,dx}{M}"),
             "caution": "The equivalent system is an approximation valid for the first mode: "
                        "the member is assumed to keep the shapes above."}
+
+
+def _factor(value) -> str:
+    """LaTeX of a number that multiplies a unit group, in parentheses when it is a sum."""
+    value = sympy.radsimp(value)
+    text = sympy.latex(value)
+    return rf"\left({text}\right)" if value.is_Add else text
 
 
 def _dimension(name):
