@@ -87,7 +87,7 @@ def peak_support_reaction(derivation) -> dict[str, Any] | None:
 
     member = derivation.case.system.member
     pieces = derivation.pieces
-    if not pieces:
+    if not pieces or not derivation.case.is_fully_valued:   # symbols without values
         return None
     edges = sorted({float(p.start) for p in pieces} | {float(derivation.window.until)})
     times = numpy.unique(numpy.concatenate([numpy.linspace(a, b, GRID)
