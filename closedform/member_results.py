@@ -11,6 +11,7 @@ when it yields) and F(t) the total load; the largest value is searched on a grid
 
 from __future__ import annotations
 
+import math
 from typing import Any
 
 import numpy
@@ -82,7 +83,19 @@ def reaction_history(derivation, times: numpy.ndarray) -> numpy.ndarray:
 
 
 def peak_support_reaction(derivation) -> dict[str, Any] | None:
-    """{value, time, support, unit} of the largest dynamic support reaction."""
+    """{value, time, support, unit} of the largest dynamic support reaction (None where the
+    response leaves the float range: overflowing values are not reported as numbers)."""
+    try:
+        with numpy.errstate(all="ignore"):
+            found = _peak_support_reaction(derivation)
+    except (ValueError, ArithmeticError):
+        return None
+    if found is None or not (math.isfinite(found["value"]) and math.isfinite(found["time"])):
+        return None
+    return found
+
+
+def _peak_support_reaction(derivation) -> dict[str, Any] | None:
     from scipy.optimize import minimize_scalar
 
     member = derivation.case.system.member
@@ -90,6 +103,8 @@ def peak_support_reaction(derivation) -> dict[str, Any] | None:
     if not pieces or not derivation.case.is_fully_valued:   # symbols without values
         return None
     edges = sorted({float(p.start) for p in pieces} | {float(derivation.window.until)})
+    if not all(math.isfinite(edge) for edge in edges):
+        return None
     times = numpy.unique(numpy.concatenate([numpy.linspace(a, b, GRID)
                                             for a, b in zip(edges, edges[1:])]))
     history = reaction_history(derivation, times)
