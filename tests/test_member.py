@@ -240,3 +240,19 @@ def test_a_wrong_factor_fails_loudly():
     assert failed == {"member factors by quadrature",
                       "member static shape (strain energy = work of the load)",
                       "member collapse load (virtual work = statics)"}
+
+
+def test_sheet_shows_each_integral_and_the_caution(tmp_path, capsys):
+    path = tmp_path / "purlin.toml"
+    path.write_text(CASE.replace('load_distribution = "uniform"',
+                                 'load_distribution = "uniform"\nplastic_moment = "20 kN*m"'),
+                    encoding="utf-8")
+    assert main(["derive", str(path), "-o", str(tmp_path / "out"), "--format", "md"]) == 0
+    capsys.readouterr()
+    sheet = (tmp_path / "out" / "purlin.md").read_text(encoding="utf-8")
+    assert r"K_L = \int_0^1 \varphi\,d\xi = \frac{16}{25}" in sheet
+    assert r"K_M = \int_0^1 \varphi^2\,d\xi = \frac{3968}{7875}" in sheet
+    assert r"K_M = \int_0^1 \varphi^2\,d\xi = \frac{1}{3}" in sheet          # mechanism
+    assert r"k = \frac{384}{5}\,EI/L^3" in sheet and r"8\,M_p/L" in sheet
+    assert "approximation valid for the first mode" in sheet
+    assert "does not replace, review by a qualified engineer" in sheet
