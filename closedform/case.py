@@ -24,6 +24,7 @@ import re
 import tomllib
 import unicodedata
 from collections.abc import Mapping
+from dataclasses import replace
 from pathlib import Path
 from types import MappingProxyType
 from typing import Any
@@ -325,6 +326,11 @@ class _Reader:
                                      f"{len(loads_data)})")
         loads = tuple(self.load(self.table(item, f"load[{i}]"), i, system.load_dimension)
                       for i, item in enumerate(loads_data, start=1))
+        if system.member is not None:    # the oscillator carries the total load on the span
+            from .member import scale_load
+            if system.member.distribution == "uniform":
+                loads = tuple(scale_load(load, system.member.span) for load in loads)
+            system = replace(system, load_dimension=quantities.dimension("force"))
         self.breakpoint_limit(loads)
         if system.input == "support-displacement":
             for load in loads:
@@ -423,6 +429,8 @@ class _Reader:
         if model is None:
             raise self.error("system.model", f"missing (expected one of: "
                                              f"{', '.join(models.names())})")
+        if model == "member":           # a beam as its equivalent oscillator (issue 16)
+            return self.member(data)
         if not models.known(model):
             close = models.close_match(model)
             hint = f"; did you mean '{close}'?" if close else ""
@@ -438,6 +446,56 @@ class _Reader:
             raise self.error("system.regime", f"unknown regime {_shown(regime)} (expected one of: "
                                               f"{', '.join(REGIMES)})")
         return definition.read(self, data)
+
+    def member(self, data: Mapping[str, Any]) -> SystemSpec:
+        """[system] of a member: read, validated, and mapped to its equivalent oscillator."""
+        from . import member
+        from .resistance import Resistance
+        self.check_keys(data, member.MEMBER_KEYS, "system")
+        choices = {"support": member.SUPPORTS, "load_distribution": member.LOAD_DISTRIBUTIONS}
+        chosen = {}
+        for name, allowed in choices.items():
+            value = data.get(name)
+            if value not in allowed:
+                got = "nothing" if value is None else _shown(value)
+                raise self.error(f"system.{name}", f"expected one of: {', '.join(allowed)} "
+                                                   f"(got {got})")
+            chosen[name] = value
+        d = quantities.dimension
+        dimensions = {"span": d("length"),
+                      "flexural_rigidity": d("force") * d("length") * d("length"),
+                      "mass_per_length": d("mass") / d("length"), "plastic_moment": d("energy")}
+        values = {}
+        for name, dimension in dimensions.items():
+            if name not in data:
+                if name == "plastic_moment":
+                    continue
+                raise self.error(f"system.{name}", f"missing (a member needs {name})")
+            value = self.quantity(data[name], dimension, f"system.{name}")
+            if value.free_symbols:
+                raise self.error(f"system.{name}", "must be a number, not a symbol (the "
+                                                   "member's factors are derived for numbers)")
+            values[name] = self.positive(value, f"system.{name}", dimension=dimension)
+        ratio = self.non_negative(self.quantity(data.get("damping_ratio", 0), "dimensionless",
+                                                "system.damping_ratio"), "system.damping_ratio")
+        equivalent = member.equivalent_member(
+            chosen["support"], chosen["load_distribution"], values["span"],
+            values["flexural_rigidity"], values["mass_per_length"],
+            values.get("plastic_moment"), ratio)
+        mass = member.oscillator_number(equivalent.load_mass_factor * equivalent.mass)
+        stiffness = member.oscillator_number(equivalent.equivalent_stiffness)
+        parameters = {"mass": mass, "stiffness": stiffness, "damping_ratio": ratio,
+                      "damping": 2 * ratio * sympy.sqrt(stiffness * mass)}
+        resistance = None
+        if equivalent.plastic_moment is not None:
+            resistance = Resistance("elastic-plastic",
+                                    member.oscillator_number(equivalent.resistance("plastic")),
+                                    stiffness, sympy.S.Zero, "yield")
+        load_dimension = d("force") / d("length") if chosen["load_distribution"] == "uniform" \
+            else d("force")
+        return SystemSpec("spring-mass-damper", MappingProxyType(parameters), None,
+                          load_dimension, d("length"), resistance=resistance,
+                          member=equivalent)
 
     def unit_dimension(self, unit: str, key: str) -> Any:
         """The dimension of a unit string given in the case ("1" or "" for none)."""

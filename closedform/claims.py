@@ -43,6 +43,12 @@ NOT_RESULTS = frozenset({"schema", "title", "reference", "tool_version", "status
                          "claims"})
 _PERCENT_RE = re.compile(r"[ \t]*([+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)[ \t]*%[ \t]*")
 _TIME_FIELDS = ("time", "after", "start", "end")
+#: Dimensions of the numbers of a nested result table (``equivalent`` of a member, whose
+#: ranges are tables of factors): claimed as ``name_table_field``, ``-`` read as ``_``.
+_FIELD_DIMENSIONS = {"load_factor": "dimensionless", "mass_factor": "dimensionless",
+                     "load_mass_factor": "dimensionless", "stiffness": "stiffness",
+                     "resistance": "force", "mass": "mass", "beam_mass": "mass",
+                     "reference_point": "length"}
 
 Error = Callable[[str, str], CaseError]
 
@@ -159,6 +165,9 @@ def claimable_results(result: Mapping[str, Any], response_dimension) -> dict[str
             main = "value" if "value" in value else "amplitude" if "amplitude" in value else None
             extreme = main == "value" and "time" in value
             for part, number in value.items():
+                if isinstance(number, Mapping):
+                    _nested(found, f"{name}_{part}".replace("-", "_"), number)
+                    continue
                 if not (number is None or _is_number(number)):
                     continue
                 if part == main:
@@ -166,11 +175,21 @@ def claimable_results(result: Mapping[str, Any], response_dimension) -> dict[str
                 else:
                     field = f"{name}_{part}"
                     dimension = time if part in _TIME_FIELDS else dimension_for(field, None)
+                    if part in _FIELD_DIMENSIONS and main is None:
+                        dimension = quantities.dimension(_FIELD_DIMENSIONS[part])
                 found[field] = Claimable(
                     field, None if number is None else float(number), dimension,
                     magnitude=extreme and part == main,
                     note="magnitude of the peak" if extreme and part == main else "")
     return found
+
+
+def _nested(found: dict[str, Claimable], prefix: str, table: Mapping[str, Any]) -> None:
+    for part, number in table.items():
+        if part in _FIELD_DIMENSIONS and (number is None or _is_number(number)):
+            found[f"{prefix}_{part}"] = Claimable(
+                f"{prefix}_{part}", None if number is None else float(number),
+                quantities.dimension(_FIELD_DIMENSIONS[part]))
 
 
 def check_claim_names(claims: Mapping[str, Any], claimable: Mapping[str, Claimable],

@@ -411,6 +411,7 @@ def current_fields(derivation) -> dict[str, Any]:
 def result_dictionary(derivation: Derivation) -> dict[str, Any]:
     """The JSON result contract (schema 1) of the design brief."""
     from . import quantities
+    from .member_results import member_fields
 
     case = derivation.case
     values = case.symbol_values()
@@ -421,7 +422,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         "reference": case.reference,
         "tool_version": __version__,
         "status": derivation.status,
-        "model": case.system.model,
+        "model": "member" if case.system.member is not None else case.system.model,
         "variable": {"name": derivation.model.variable,
                      "unit": quantities.si_unit_text(case.system.response_dimension)},
         "regime": derivation.model.regime,
@@ -434,6 +435,7 @@ def result_dictionary(derivation: Derivation) -> dict[str, Any]:
         **result_fields(results),
         **metric_fields(derivation.metrics),
         **current_fields(derivation),
+        **(member_fields(derivation) if case.system.member is not None else {}),
         "warnings": list(derivation.warnings),
         "checks": [{"name": c.name, "passed": c.passed, "outcome": c.outcome, "detail": c.detail}
                    for c in derivation.checks],

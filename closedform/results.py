@@ -657,9 +657,15 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable | No
 
     definition = models.get(model_name)
     if definition.quantities is not None:
-        return definition.quantities(models.QuantityContext(
+        found = definition.quantities(models.QuantityContext(
             case.system.parameters, tuple(model.coefficients), model.order, response, time,
             number, _unit, derivative, combination))
+        if case.system.member is not None:   # a member's reactions come from its shape
+            found = [(name, "resistance R = k·y (the total load the member carries "
+                            "statically at the deflection y)" if name == "peak_spring_force"
+                      else text, unit, value) for name, text, unit, value in found
+                     if name != "peak_support_reaction"]
+        return found
     first, second = derivative(1), derivative(2)
     definitions: list[tuple[str, str, str, Callable | None]] = [
         ("peak_derivative", "first derivative x′", _unit(response / time), first)]

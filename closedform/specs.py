@@ -68,6 +68,7 @@ class SystemSpec:
     response_dimension: Any
     input: str | None = None      # base-excitation: support-acceleration | support-displacement
     resistance: Any = None          # resistance.Resistance of a yielding spring, or None
+    member: Any = None              # member.EquivalentMember when the case gives a member
 
     def get(self, name: str) -> sympy.Expr | None:
         return self.parameters.get(name)

@@ -38,7 +38,7 @@ until = "250 ms"
 def test_the_families_and_where_they_run():
     assert [f.name for f in registry.FAMILIES] == [
         "verification", "energy balance", "yielding spring", "re-reading the printed equations",
-        "extremes", "response metrics"]
+        "extremes", "response metrics", "member"]
     assert [f.name for f in registry.families(registry.DERIVE)] == \
         [f.name for f in registry.FAMILIES]
     assert [f.name for f in registry.families(registry.CLAIM)] == ["verification",

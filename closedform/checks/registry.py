@@ -8,7 +8,8 @@ result and on the sheets.
 
 A new family is one module in this package and one entry in ``FAMILIES``. A family's ``fits``
 says which responses it checks: the checks of one linear equation (verification, energy
-balance, extremes) leave out a yielding spring, whose own family (``plastic``) checks it.
+balance, extremes) leave out a yielding spring, whose own family (``plastic``) checks it; a member's equivalent oscillator (issue 16) is
+checked by these and by its own family (``member``: factors, shape, collapse, reactions).
 """
 
 from __future__ import annotations
@@ -21,6 +22,7 @@ from typing import Any
 from .base import Check
 from .energy import energy_checks
 from .extremes import extreme_checks, metric_checks
+from .member import is_member, member_family
 from .plastic import plastic_checks
 from .verification import verify
 
@@ -67,6 +69,7 @@ FAMILIES: tuple[CheckFamily, ...] = (
     CheckFamily("re-reading the printed equations", frozenset({DERIVE}), _printed_equations),
     CheckFamily("extremes", frozenset({DERIVE}), extreme_checks, linear),
     CheckFamily("response metrics", frozenset({DERIVE}), metric_checks, linear),
+    CheckFamily("member", frozenset({DERIVE}), member_family, is_member),
 )
 
 

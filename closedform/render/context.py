@@ -4,7 +4,7 @@
 :class:`Sheet` and merges what each section builder of :data:`SECTIONS` returns. A section
 builder is a function ``Sheet -> dict`` in the module of its section (:mod:`.status`,
 :mod:`.problem`, :mod:`.loads`, :mod:`.transform`, :mod:`.fractions`, :mod:`.pieces`,
-:mod:`.results`, :mod:`.figures`, :mod:`.yielding`); a new section is one builder and its template lines.
+:mod:`.results`, :mod:`.figures`, :mod:`.yielding`, :mod:`.member`); a new section is one builder and its template lines.
 """
 
 from __future__ import annotations
@@ -21,6 +21,7 @@ from .flavours import Flavour, flavour
 from .fractions import fractions_context
 from .layout import coefficient_file_name
 from .loads import loads_context
+from .member import member_context
 from .pieces import pieces_context
 from .problem import problem_context
 from .recorder import EquationRecorder
@@ -85,7 +86,7 @@ class Sheet:
 #: The section builders, in the order their displayed equations are recorded.
 SECTIONS: tuple[Callable[[Sheet], dict[str, Any]], ...] = (
     status_context, loads_context, transform_context, fractions_context, pieces_context,
-    results_context, problem_context, figures_context, yielding_context)
+    results_context, problem_context, figures_context, yielding_context, member_context)
 
 
 def sheet_context(derivation, target: str = "md", *, stem: str | None = None,

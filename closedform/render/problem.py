@@ -7,7 +7,7 @@ import re
 from typing import TYPE_CHECKING, Any
 
 from .. import models, quantities
-from . import yielding
+from . import member, yielding
 from .escaping import Math
 from .typesetting import as_factor, inline, typeset, unit_latex
 from .units import RESPONSE_PREFER
@@ -93,6 +93,8 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
                             "shown": shown})
     assumptions = list(models.get(case.system.model).assumptions_of(case.system)) \
         + COMMON_ASSUMPTIONS
+    if member.is_member(sheet.derivation):      # a member as its equivalent oscillator
+        assumptions = [*member.ASSUMPTIONS, *assumptions]
     if yielding.is_yielding(sheet.derivation):      # k·x becomes the resistance function R(x)
         equation = Math(yielding.EQUATIONS[case.system.model])
         values = yielding.equation_with_values(sheet.derivation)
