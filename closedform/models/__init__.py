@@ -14,15 +14,13 @@ definition may also be registered from outside the package (a test does so).
 
 from __future__ import annotations
 
-import difflib
-import pkgutil
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from importlib import import_module
 from typing import Any
 
 import sympy
 
+from ..catalogue import Catalogue
 from ..specs import SystemSpec, ValueReader
 
 #: A reported quantity: (JSON name, description, SI unit, transform of the response on one
@@ -101,41 +99,15 @@ class ModelDefinition:
         return self.assumptions
 
 
-_REGISTRY: dict[str, ModelDefinition] = {}
 BUILT_IN = ("spring_mass_damper", "base_excitation", "first_order", "series_rlc", "ode")
 
-
-def register(definition: ModelDefinition) -> ModelDefinition:
-    """Add a model to the registry (a name may be registered once)."""
-    if definition.name in _REGISTRY:
-        raise ValueError(f"model {definition.name!r} is registered already")
-    _REGISTRY[definition.name] = definition
-    return definition
-
-
-def unregister(name: str) -> None:
-    """Remove a model that was registered from outside the package (tests)."""
-    if name in _PACKAGED:
-        raise ValueError(f"model {name!r} is built in")
-    _REGISTRY.pop(name, None)
-
-
-def names() -> tuple[str, ...]:
-    """Every registered model, in registration order (built-in models first)."""
-    return tuple(_REGISTRY)
-
-
-def get(name: str) -> ModelDefinition:
-    return _REGISTRY[name]
-
-
-def known(name: Any) -> bool:
-    return isinstance(name, str) and name in _REGISTRY
-
-
-def close_match(name: Any) -> str | None:
-    close = difflib.get_close_matches(str(name), names(), n=1)
-    return close[0] if close else None
+CATALOGUE: Catalogue[ModelDefinition] = Catalogue("model", BUILT_IN)
+register = CATALOGUE.register        # a definition module ends in register(ModelDefinition(…))
+unregister = CATALOGUE.unregister    # (tests) remove a model registered from outside
+names = CATALOGUE.names              # every registered model, built-in ones first
+get = CATALOGUE.get
+known = CATALOGUE.known
+close_match = CATALOGUE.close_match
 
 
 def required(reader: ValueReader, data: Mapping[str, Any], model: str, name: str,
@@ -151,15 +123,4 @@ def second_order(system: SystemSpec) -> int:
     return 2
 
 
-def _import_package_modules() -> None:
-    """Every module of this package, those of BUILT_IN first in that order (the order the
-    messages list the models in), then any others by name: a new model is a new file."""
-    others = sorted(info.name for info in pkgutil.iter_modules(__path__)
-                    if info.name not in BUILT_IN)
-    for module in (*BUILT_IN, *others):
-        import_module(f"{__name__}.{module}")
-    _PACKAGED.update(_REGISTRY)
-
-
-_PACKAGED: set[str] = set()
-_import_package_modules()
+CATALOGUE.load(__name__, __path__)

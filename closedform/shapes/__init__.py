@@ -17,16 +17,14 @@ definition may also be registered from outside the package (a test does so).
 
 from __future__ import annotations
 
-import difflib
-import pkgutil
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from importlib import import_module
 from typing import Any
 
 import sympy
 
 from .. import quantities
+from ..catalogue import Catalogue
 from ..specs import LoadSpec, ValueReader
 
 Points = tuple[tuple[sympy.Expr, sympy.Expr], ...]
@@ -123,46 +121,24 @@ class ShapeDefinition:
     spectrum: SpectrumEntry | None = None
 
 
-_REGISTRY: dict[str, ShapeDefinition] = {}
 BUILT_IN = ("step", "ramp", "impulse", "rectangle", "triangle", "decay", "half_sine",
             "trapezoid", "table", "formula")
 #: The keys every [[load]] table may have, whatever its shape.
 COMMON_KEYS = ("shape", "at", "repeat", "label")
 
 
-def register(definition: ShapeDefinition) -> ShapeDefinition:
-    """Add a shape to the registry (a name may be registered once)."""
-    if definition.name in _REGISTRY:
-        raise ValueError(f"shape {definition.name!r} is registered already")
+def _validate(definition: ShapeDefinition) -> None:
     if definition.pulse and definition.area_and_centroid is None:
         raise ValueError(f"pulse shape {definition.name!r} needs its area and centroid")
-    _REGISTRY[definition.name] = definition
-    return definition
 
 
-def unregister(name: str) -> None:
-    """Remove a shape that was registered from outside the package (tests)."""
-    if name in _PACKAGED:
-        raise ValueError(f"shape {name!r} is built in")
-    _REGISTRY.pop(name, None)
-
-
-def names() -> tuple[str, ...]:
-    """Every registered shape, in registration order (built-in shapes first)."""
-    return tuple(_REGISTRY)
-
-
-def get(name: str) -> ShapeDefinition:
-    return _REGISTRY[name]
-
-
-def known(name: Any) -> bool:
-    return isinstance(name, str) and name in _REGISTRY
-
-
-def close_match(name: Any) -> str | None:
-    close = difflib.get_close_matches(str(name), names(), n=1)
-    return close[0] if close else None
+CATALOGUE: Catalogue[ShapeDefinition] = Catalogue("shape", BUILT_IN, _validate)
+register = CATALOGUE.register        # a definition module ends in register(ShapeDefinition(…))
+unregister = CATALOGUE.unregister    # (tests) remove a shape registered from outside
+names = CATALOGUE.names              # every registered shape, built-in ones first
+get = CATALOGUE.get
+known = CATALOGUE.known
+close_match = CATALOGUE.close_match
 
 
 def centroid(area: sympy.Expr, moment: sympy.Expr) -> tuple[sympy.Expr, sympy.Expr]:
@@ -184,15 +160,4 @@ def polyline_area_and_centroid(points: Points, values: Mapping) -> tuple[sympy.E
     return centroid(area, moment)
 
 
-def _import_package_modules() -> None:
-    """Every module of this package, those of BUILT_IN first in that order (the order the
-    messages list the shapes in), then any others by name: a new shape is a new file."""
-    others = sorted(info.name for info in pkgutil.iter_modules(__path__)
-                    if info.name not in BUILT_IN)
-    for module in (*BUILT_IN, *others):
-        import_module(f"{__name__}.{module}")
-    _PACKAGED.update(_REGISTRY)
-
-
-_PACKAGED: set[str] = set()
-_import_package_modules()
+CATALOGUE.load(__name__, __path__)
