@@ -220,28 +220,11 @@ def ductility_figure(spectrum: DuctilitySpectrum, fmt: str) -> bytes:
 
 def run_ductility_spectrum(arguments, pulse, damping_ratio, ratios) -> int:
     """``spectrum --shape … --strength-ratios …``: CSV on stdout, or --json -, or -o DIR."""
-    import sys
 
     from .budget import time_budget
-    from .cli import write_atomically
+    from .spectrum import emit_spectrum
 
     strengths = parse_strength_ratios(arguments.strength_ratios)
     with time_budget(arguments.time_budget, "ductility spectrum") as budget:
         spectrum = ductility_spectrum(pulse, damping_ratio, strengths, ratios, budget)
-    if arguments.json_target == "-":
-        sys.stdout.write(spectrum.to_json() + "\n")
-    if arguments.output is not None:
-        stem = f"ductility-{pulse.shape}"
-        write_atomically(arguments.output, {
-            f"{stem}.csv": spectrum.to_csv(),
-            f"{stem}.json": spectrum.to_json() + "\n",
-            f"{stem}.svg": ductility_figure(spectrum, "svg"),
-            f"{stem}.png": ductility_figure(spectrum, "png"),
-        })
-    if arguments.json_target is None and arguments.output is None:
-        sys.stdout.write(spectrum.to_csv())
-    if spectrum.status != "verified":
-        for line in spectrum.failures():
-            print(f"FAILED: {line}", file=sys.stderr)
-        return 1
-    return 0
+    return emit_spectrum(arguments, spectrum, f"ductility-{pulse.shape}", ductility_figure)

@@ -12,8 +12,10 @@ from __future__ import annotations
 import argparse
 import math
 import sys
+from collections.abc import Callable
 from fractions import Fraction
 from pathlib import Path
+from typing import Any
 
 from .budget import DEFAULT_SECONDS, time_budget
 from .errors import CaseError
@@ -169,7 +171,7 @@ def parse_pulse(arguments: argparse.Namespace):
 
 
 def run_spectrum(arguments: argparse.Namespace) -> int:
-    from .cli import usable_output_folder, write_atomically
+    from .cli import usable_output_folder
     from .shock import response_spectrum, spectrum_figure
 
     if arguments.record is not None:
@@ -198,15 +200,24 @@ def run_spectrum(arguments: argparse.Namespace) -> int:
         return run_ductility_spectrum(arguments, pulse, zeta, ratios)
     with time_budget(arguments.time_budget, "spectrum") as budget:
         spectrum = response_spectrum(pulse, zeta, ratios, budget)
+    return emit_spectrum(arguments, spectrum, f"spectrum-{pulse.shape}", spectrum_figure)
+
+
+def emit_spectrum(arguments: argparse.Namespace, spectrum: Any, stem: str,
+                  figure: Callable[[Any, str], bytes]) -> int:
+    """A computed spectrum out as the options ask: JSON on standard output (``--json -``),
+    STEM.csv/.json/.svg/.png in ``-o``, else CSV on standard output; exit 1 (each failed
+    point named on standard error) unless every point is verified."""
+    from .cli import write_atomically
+
     if arguments.json_target == "-":
         sys.stdout.write(spectrum.to_json() + "\n")
     if arguments.output is not None:
-        stem = f"spectrum-{pulse.shape}"
         write_atomically(arguments.output, {
             f"{stem}.csv": spectrum.to_csv(),
             f"{stem}.json": spectrum.to_json() + "\n",
-            f"{stem}.svg": spectrum_figure(spectrum, "svg"),
-            f"{stem}.png": spectrum_figure(spectrum, "png"),
+            f"{stem}.svg": figure(spectrum, "svg"),
+            f"{stem}.png": figure(spectrum, "png"),
         })
     if arguments.json_target is None and arguments.output is None:
         sys.stdout.write(spectrum.to_csv())
