@@ -127,8 +127,8 @@ def run_case(task: CaseTask) -> CaseOutcome:
     in the case file like one of loading: FILE:LINE: KEY: message.
     """
     from .budget import time_budget as budget_for
-    from .case import display_name, load_case, locate
-    from .derivation import derive
+    from .casefile import locate, read_case_file
+    from .files import display_name
 
     path = task.path
     shown = display_name(str(path))
@@ -136,7 +136,12 @@ def run_case(task: CaseTask) -> CaseOutcome:
     try:
         with budget_for(task.time_budget, shown) as budget:
             with budget.stage("reading the case file"):
-                case = load_case(path)
+                # an unreadable file or a TOML syntax error is refused before the engine
+                # (sympy, pint) is imported
+                document = read_case_file(path)
+                from .case import load_case
+                from .derivation import derive
+                case = load_case(document)
             title, reference = case.title, case.reference
             derivation = derive(case, time_budget=task.time_budget)
             with budget.stage("rendering the sheets"):

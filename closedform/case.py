@@ -19,9 +19,7 @@ stays one line and cannot drive the terminal.
 from __future__ import annotations
 
 import difflib
-import hashlib
 import re
-import tomllib
 import unicodedata
 from collections.abc import Mapping
 from dataclasses import replace
@@ -32,6 +30,14 @@ from typing import Any
 import sympy
 
 from . import models, quantities, shapes
+from .casefile import (
+    MAX_CASE_BYTES,
+    CaseDocument,
+    line_of,
+    locate,
+    parse_case_text,
+    read_case_file,
+)
 from .csvtable import MAX_CSV_BYTES, MAX_TABLE_POINTS
 from .errors import CaseError
 from .expressions import quote
@@ -88,8 +94,6 @@ _INITIAL_KEYS = ("values", "displacement", "velocity", "voltage")
 _CLAIM_NAME_RE = re.compile(r"[a-z][a-z0-9_]{0,63}")
 
 # Limits that keep a hostile or mistaken case cheap to refuse, each named in its message.
-#: Largest case file read, in bytes.
-MAX_CASE_BYTES = 1_000_000
 #: Most breakpoints (starts, corners and ends of every occurrence of every load) in one case.
 MAX_BREAKPOINTS = 10_000
 #: Longest title, reference or label, in characters.
@@ -120,45 +124,17 @@ _SYMBOL_NAME_RE = re.compile(r"[A-Za-z][A-Za-z0-9_]{0,30}")
 # ----------------------------------------------------------------------------- loading
 
 
-def load_case(source: str | Path | Mapping[str, Any], *, text: str | None = None,
-              name: str | None = None) -> Case:
-    """Read a case from a path, a TOML string (``text=``) or an already parsed mapping."""
+def load_case(source: str | Path | Mapping[str, Any] | CaseDocument, *,
+              text: str | None = None, name: str | None = None) -> Case:
+    """Read a case from a path, a TOML string (``text=``), an already parsed mapping or a
+    document read by ``closedform.casefile``."""
+    if isinstance(source, CaseDocument):
+        return _Reader(source.file, source.text, source.folder, source.digest).case(source.data)
     if isinstance(source, Mapping):
         return _Reader(display_name(name or "<dict>"), "", Path.cwd()).case(source)
     if text is None:
-        path = Path(source)
-        shown = display_name(name or str(path))
-        raw = read_limited(path, MAX_CASE_BYTES, shown, "the case file")
-        try:
-            text = raw.decode("utf-8")
-        except UnicodeDecodeError as error:
-            line = raw[:error.start].count(b"\n") + 1
-            raise CaseError(f"the case file is not UTF-8 text (expected UTF-8, got byte "
-                            f"0x{raw[error.start]:02X})", file=shown, line=line)
-        return _parse(text, shown, path.parent, hashlib.sha256(raw).hexdigest())
-    return _parse(text, display_name(name or "<string>"), Path.cwd(),
-                  hashlib.sha256(text.encode("utf-8", "surrogatepass")).hexdigest())
-
-
-def locate(error: CaseError, path: str | Path) -> CaseError:
-    """``error`` about the case file at ``path``, with the file and (where its key can be
-    found in the file) the line filled in.
-
-    Later stages (the model, the load rewrite, the window) raise CaseErrors that know the
-    key but not the file; the command line shows them located like those of loading. An
-    error about another file (a CSV, an option) is returned as it is.
-    """
-    shown = display_name(str(path))
-    if error.file not in (None, "<case>", shown):
-        return error
-    line = error.line
-    if line is None and error.key:
-        try:
-            text = read_limited(Path(path), MAX_CASE_BYTES, shown, "the case file").decode()
-        except (CaseError, UnicodeDecodeError):
-            text = ""
-        line = _Reader(shown, text, Path(path).parent).line_of(error.key)
-    return CaseError(error.message, file=shown, key=error.key, line=line)
+        return load_case(read_case_file(source, name))
+    return load_case(parse_case_text(text, display_name(name or "<string>"), Path.cwd()))
 
 
 def load_case_text(text: str, name: str = "<string>") -> Case:
@@ -175,32 +151,6 @@ def quantity_reader(case: Case) -> _Reader:
     return reader
 
 
-def _parse(text: str, file: str, folder: Path, digest: str) -> Case:
-    # A UTF-8 byte-order mark at the very start (as some editors write one) is not part of
-    # the TOML document; anywhere else it is refused like any other invisible character.
-    if text.startswith("\ufeff"):
-        text = text[1:]
-    if "\x00" in text:
-        line = text[:text.index("\x00")].count("\n") + 1
-        raise CaseError("the case file contains a NUL byte (expected text)", file=file, line=line)
-    if len(text) > MAX_CASE_BYTES:
-        raise CaseError(f"the case file is too large (at most {MAX_CASE_BYTES} characters, "
-                        f"got {len(text)})", file=file)
-    try:
-        data = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as error:
-        message = str(error)
-        match = re.search(r"\(at line (\d+), column (\d+)\)", message)
-        line = int(match.group(1)) if match else None
-        message = re.sub(r"\s*\(at line \d+, column \d+\)", "", message)
-        # tomllib names a table by its Python tuple, ('load', 'repeat'): show load.repeat
-        message = re.sub(r"\((?:'[^']*'(?:, )?)+,?\)",
-                         lambda m: ".".join(re.findall(r"'([^']*)'", m.group())), message)
-        column = f" (column {match.group(2)})" if match else ""
-        raise CaseError(f"TOML syntax error: {message}{column}", file=file, line=line)
-    except RecursionError:
-        raise CaseError("TOML nesting is too deep", file=file)
-    return _Reader(file, text, folder, digest).case(data)
 
 
 class _Reader:
@@ -220,41 +170,7 @@ class _Reader:
 
     def line_of(self, key: str) -> int | None:
         """Best-effort line of a dotted key such as ``load[2].duration`` in the TOML text."""
-        if not self.text or not key:
-            return None
-        lines = self.text.split("\n")     # TOML's newlines only, as tomllib counts them
-        header = re.compile(r"\s*\[")
-        parts = key.split(".")
-        start, end = 0, len(lines)
-        match = re.fullmatch(r"(\w+)\[(\d+)\]", parts[0])
-        table_line = None
-        if match:
-            pattern = re.compile(rf"\s*\[\[\s*{re.escape(match.group(1))}\s*\]\]")
-            found = [i for i, line in enumerate(lines) if pattern.match(line)]
-            if len(found) >= int(match.group(2)):
-                table_line = found[int(match.group(2)) - 1]
-        else:
-            pattern = re.compile(rf"\s*\[\[?\s*{re.escape(parts[0])}\s*\]")
-            if len(parts) > 1:      # a sub-table of its own: [system.resistance]
-                sub = re.compile(rf"\s*\[\s*{re.escape(parts[0])}\s*\.\s*"
-                                 rf"{re.escape(parts[1])}\s*\]")
-                if any(sub.match(line) for line in lines):
-                    pattern, parts = sub, parts[1:]
-            table_line = next((i for i, line in enumerate(lines) if pattern.match(line)), None)
-        if table_line is not None:
-            parts = parts[1:]
-            start = table_line + 1
-            end = next((i for i in range(start, len(lines)) if header.match(lines[i])), len(lines))
-            if not parts:
-                return table_line + 1
-        else:
-            end = next((i for i, line in enumerate(lines) if header.match(line)), len(lines))
-        leaf = re.sub(r"\[\d+\]$", "", parts[0])
-        pattern = re.compile(rf"\s*{re.escape(leaf)}\s*=")
-        for i in range(start, end):
-            if pattern.match(lines[i]):
-                return i + 1
-        return table_line + 1 if table_line is not None else None
+        return line_of(self.text, key)
 
     def check_keys(self, table: Mapping[str, Any], allowed: tuple[str, ...], prefix: str) -> None:
         for name in table:

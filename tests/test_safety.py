@@ -605,6 +605,21 @@ def test_the_command_line_imports_nothing_heavy_for_help_version_and_option_erro
     assert heavy_after(code) == []
 
 
+@pytest.mark.parametrize("content", [None, "title = 'x'\n[system\n", b"\xff\xfe"])
+def test_an_unreadable_case_file_or_a_toml_syntax_error_is_refused_before_the_engine_loads(
+        tmp_path, content):
+    """Issue 18: an input error of the case file itself costs no engine import (probed in
+    the worker's own code, run in this process: the command line hands cases to workers)."""
+    path = tmp_path / "case.toml"
+    if content is not None:
+        path.write_bytes(content if isinstance(content, bytes) else content.encode())
+    code = ("from closedform.batch import CaseTask, SheetFiles, run_case\n"
+            f"outcome = run_case(CaseTask({str(path)!r}, None, SheetFiles(('md',))))\n"
+            "assert outcome.exit_code == 2, outcome\n"
+            "assert 'case.toml' in outcome.message, outcome")
+    assert heavy_after(code) == []
+
+
 def test_the_listed_help_of_each_command_is_its_own():
     """The command line lists check/appendix/spectrum without importing them; the one-line
     help it shows must be the one each module registers."""
