@@ -122,6 +122,7 @@ class AppendixSection:
     number: int
     stem: str
     formats: tuple[str, ...]
+    prints_sheet = True     # its sheet prints the equations: they are re-read
 
     def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
         from .batch import Finished

@@ -461,6 +461,7 @@ class AuditSheet:
 
     formats: tuple[str, ...]
     as_json: bool
+    prints_sheet = True     # its sheet prints the equations: they are re-read
 
     def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
         from .batch import Finished

@@ -50,7 +50,11 @@ class Finished:
 class Finisher(Protocol):
     """A command's last step for one derived case, run in the worker under the case's time
     budget; a top-level class or function, so that it can be sent to a worker process. A
-    CaseError it raises is reported like any other input error of the case."""
+    CaseError it raises is reported like any other input error of the case. ``prints_sheet``
+    False (a JSON result only) leaves out re-reading the printed equations."""
+
+    @property
+    def prints_sheet(self) -> bool: ...
 
     def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished: ...
 
@@ -143,7 +147,8 @@ def run_case(task: CaseTask) -> CaseOutcome:
                 from .derivation import derive
                 case = load_case(document)
             title, reference = case.title, case.reference
-            derivation = derive(case, time_budget=task.time_budget)
+            derivation = derive(case, time_budget=task.time_budget,
+                                sheet_check=task.finish.prints_sheet)
             with budget.stage("rendering the sheets"):
                 finished = task.finish(derivation, path)
         return CaseOutcome(path, finished.exit_code, finished.message, finished.contents,
@@ -174,6 +179,10 @@ def not_derived(path: str, message: str, title: str = "", reference: str = "") -
                        problem=one_line(problem), title=title, reference=reference)
 
 
+#: The formats that print the derivation's equations (the others hold numbers or plots).
+SHEETS_WITH_EQUATIONS = ("md", "tex", "pdf")
+
+
 @dataclass(frozen=True)
 class SheetFiles:
     """The finisher of ``derive``: the case's sheet files in ``formats`` (none: only the
@@ -182,11 +191,19 @@ class SheetFiles:
     formats: tuple[str, ...]
     renderer: Callable[[Derivation | ChainDerivation, Sequence[str], str], dict[str, str | bytes]] | None = None
 
-    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
-        from .render import render_outputs
+    @property
+    def prints_sheet(self) -> bool:
+        """Whether a sheet with equations is written (not only the JSON result, its CSV or
+        its plots)."""
+        return any(name in SHEETS_WITH_EQUATIONS for name in self.formats)
 
-        contents = (self.renderer or render_outputs)(derivation, self.formats, safe_stem(path)) \
-            if self.formats else {}
+    def __call__(self, derivation: Derivation | ChainDerivation, path: str) -> Finished:
+        contents: dict[str, str | bytes] = {}
+        if self.formats:
+            from .render import render_outputs
+
+            contents = (self.renderer or render_outputs)(derivation, self.formats,
+                                                         safe_stem(path))
         return Finished(summary_line(derivation), 0 if derivation.passed else 1, contents,
                         derivation.to_dict())
 
@@ -237,7 +254,8 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
                      jobs=jobs, progress=TerminalProgress(sys.stderr) if show else None,
                      memory_budget=memory_budget, lost=lost, on_done=on_done,
                      time_budget=longest,
-                     preload=("closedform.derivation", "closedform.render"))
+                     preload=("closedform.derivation", "closedform.render.writers",
+                              "closedform.render.sheet"))
 
 
 def lost_outcome(path: str, reason: Lost, memory_budget: int | None) -> CaseOutcome:

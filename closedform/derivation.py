@@ -17,7 +17,7 @@ import sympy
 from . import __version__, models
 from .case import Case
 from .checks.base import Check
-from .checks.registry import DERIVE, run_checks
+from .checks.registry import DERIVE, PRINTED_EQUATIONS, run_checks
 from .loads import LoadHistory, rewrite_loads
 from .metrics import ResponseMetrics, metric_fields, response_metrics
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
@@ -234,11 +234,14 @@ def analysis_window(case: Case, model: LinearModel) -> Window:
                   "natural period or time constant")
 
 
-def derive(case: Case, *, time_budget: float | None = None) -> Derivation | ChainDerivation:
+def derive(case: Case, *, time_budget: float | None = None, sheet_check: bool = True
+           ) -> Derivation | ChainDerivation:
     """Derive, evaluate and check the response of one case.
 
     ``time_budget`` (seconds) bounds the whole derivation; past it a TimeBudgetExceeded
-    names the stage that was running.
+    names the stage that was running. ``sheet_check`` False leaves out re-reading the
+    printed equations, for a run that prints no sheet (``derive --json -``): there is then
+    nothing printed to re-read, and the JSON result lists only the checks that ran.
     """
     from .budget import time_budget as budget_for
 
@@ -247,7 +250,7 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation | Chai
         return derive_chain(case, time_budget=time_budget)
     if getattr(case.system, "resistance", None) is not None:
         from .plastic import derive_plastic  # a yielding spring: a chain of linear phases
-        return derive_plastic(case, time_budget=time_budget)
+        return derive_plastic(case, time_budget=time_budget, sheet_check=sheet_check)
     with budget_for(time_budget, case.source) as budget:
         with budget.stage("model and poles"):
             model = build_model(case.system, case.symbol_values())
@@ -267,7 +270,8 @@ def derive(case: Case, *, time_budget: float | None = None) -> Derivation | Chai
         with budget.stage("response metrics"):
             metrics = response_metrics(case, model, history, solution, window)
         partial = Derivation(case, model, history, window, solution, results, (), (), metrics)
-        checks = run_checks(partial, DERIVE, stage=budget.stage)
+        checks = run_checks(partial, DERIVE, stage=budget.stage,
+                            without=() if sheet_check else (PRINTED_EQUATIONS,))
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results), metrics)

@@ -41,7 +41,7 @@ import mpmath
 import sympy
 
 from .basis import COS, NumericCarrier, NumericExponentialPolynomial
-from .checks.registry import DERIVE, run_checks
+from .checks.registry import DERIVE, PRINTED_EQUATIONS, run_checks
 from .derivation import Derivation, result_dictionary
 from .errors import CaseError, DerivationError
 from .loads import STEP, LoadHistory, Rewrite, SingularityTerm, rewrite_loads
@@ -575,7 +575,7 @@ def derive_plastic(case: Case, *, time_budget: float | None = None, sheet_check:
         # the registry's families that fit a yielding spring: its own checks (checks/plastic.py)
         # and the printed equations re-read
         checks = run_checks(partial, DERIVE, stage=budget.stage,
-                            without=() if sheet_check else ("re-reading the printed equations",))
+                            without=() if sheet_check else (PRINTED_EQUATIONS,))
         checks += (finite_check(numbers),)
     return PlasticDerivation(case, model, history, window, solution, numbers, checks,
                              window_warnings(case, window, numbers), plastic=response)

@@ -14,9 +14,11 @@ from __future__ import annotations
 
 import functools
 import math
+import os
 import re
 from collections.abc import Mapping
 from fractions import Fraction
+from pathlib import Path
 from types import MappingProxyType
 from typing import Any, cast
 
@@ -235,10 +237,40 @@ def _example(dim: Dimension) -> str:
     return f'"12 {unit}"'
 
 
+#: Environment variable naming the folder for pint's parsed-definitions cache, or "off".
+UNIT_CACHE_VARIABLE = "CLOSEDFORM_UNIT_CACHE"
+
+
+def unit_cache_folder() -> Path | None:
+    """Where pint keeps its parsed unit definitions between runs (its own documented disk
+    cache): ``$CLOSEDFORM_UNIT_CACHE``, else the user's cache folder; None when "off"."""
+    chosen = os.environ.get(UNIT_CACHE_VARIABLE)
+    if chosen is not None:
+        return None if chosen.strip().lower() in ("", "off", "0", "no") else Path(chosen)
+    import platformdirs  # a dependency of pint itself
+
+    return platformdirs.user_cache_path("closedform", appauthor=False) / "units"
+
+
 @functools.cache
 def registry() -> pint.UnitRegistry:
-    """The one pint unit registry, with exact (fraction) conversion factors."""
-    return pint.UnitRegistry(non_int_type=Fraction)
+    """The one pint unit registry, with exact (fraction) conversion factors.
+
+    Parsing pint's definition file and building its tables takes about 0.3 s a run; pint's
+    disk cache keeps the result keyed by the definition file's content. Any trouble with the
+    cache (a folder that cannot be made, a file being written by another run at the same
+    moment, a damaged file) only costs that time: the registry is then built without it.
+    """
+    folder = unit_cache_folder()
+    for cache in ((folder, None) if folder is not None else (None,)):
+        try:
+            if cache is not None:
+                cache.mkdir(parents=True, exist_ok=True)
+            return pint.UnitRegistry(non_int_type=Fraction, cache_folder=cache)
+        except Exception:   # noqa: BLE001 - a cache is never a reason to fail
+            if cache is None:
+                raise
+    raise AssertionError("unreachable: the last attempt builds without a cache")
 
 
 @functools.cache

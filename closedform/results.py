@@ -135,6 +135,40 @@ def _derivatives(groups: dict[tuple, tuple[list, list]], orders: int) -> list[di
     return result
 
 
+class _ByIdentity:
+    """A small cache keyed by the identity of a function's rows (hashing tuples of mpf
+    numbers costs more than the work saved); each entry keeps its rows alive, so an id is
+    never reused while cached."""
+
+    def __init__(self, work: Callable, size: int = 4096) -> None:
+        self.work, self.size = work, size
+        self.entries: dict[tuple, tuple] = {}
+
+    def __call__(self, rows: tuple, *arguments):
+        key = (id(rows), *arguments)
+        entry = self.entries.get(key)
+        if entry is None or entry[0] is not rows:
+            if len(self.entries) >= self.size:
+                self.entries.clear()
+            entry = self.entries[key] = (rows, self.work(rows, *arguments))
+        return entry[1]
+
+
+#: The float groups of f … f^(orders−1) of a function's rows, worked out once: the same
+#: interval is bracketed, searched and evaluated by several evaluators. Shared, so never
+#: changed by its users.
+_float_derivatives = _ByIdentity(
+    lambda rows: tuple(_derivatives(_groups(rows, float), peaksearch.FLOAT_ORDER + 2)))
+
+
+def _float_orders(rows: tuple, orders: int) -> tuple[dict, ...]:
+    known = _float_derivatives(rows)
+    if orders > len(known):
+        return tuple(_derivatives(_groups(rows, float), orders))
+    return known[:orders]
+_exact_group_count = _ByIdentity(lambda rows: len(_groups(rows)))
+
+
 def _horner(coefficients: list, u):
     total = coefficients[-1]
     for c in reversed(coefficients[:-1]):
@@ -148,7 +182,7 @@ class FloatEvaluator:
     e^(σu)·sin ωu are computed once per rate and frequency for every order."""
 
     def __init__(self, function: NumericExponentialPolynomial, orders: int = 3) -> None:
-        self.orders = _derivatives(_groups(function.rows, float), orders)
+        self.orders = _float_orders(function.rows, orders)
         self.scale = fastest_time_scale(self.orders[0])     # from the float (σ, ω) groups
         self.empty = not function.rows
 
@@ -322,7 +356,7 @@ def _route_of(evaluator: FloatEvaluator, length: float) -> float:
 def _float_distinct(evaluator: FloatEvaluator, function: NumericExponentialPolynomial) -> bool:
     """Whether float64 keeps the function's exponents apart (nearly equal poles 5e-17 apart
     are one number in float64, and their huge coefficients would be summed)."""
-    return len(evaluator.orders[0]) == len(_groups(function.rows))
+    return len(evaluator.orders[0]) == _exact_group_count(function.rows)
 
 
 def interval_brackets(interval: Interval, best: float, prune: bool = True):
@@ -337,7 +371,7 @@ def interval_brackets(interval: Interval, best: float, prune: bool = True):
     if not _float_distinct(evaluator, interval.function):
         figure = math.inf     # distinct exponents that are one number in float64
     if figure <= peaksearch.CANCELLATION_LIMIT:
-        groups = _derivatives(_groups(interval.function.rows, float), peaksearch.FLOAT_ORDER + 2)
+        groups = list(_float_orders(interval.function.rows, peaksearch.FLOAT_ORDER + 2))
         try:
             plain = FloatEvaluator(interval.function)
 
@@ -502,6 +536,29 @@ def linear_combination(parts: Sequence[tuple[Any, NumericExponentialPolynomial]]
     return NumericExponentialPolynomial(tuple(rows), digits)
 
 
+@dataclass(frozen=True)
+class Scaled:
+    """The response times a constant factor (the spring force k·x): its largest magnitude
+    is the response's, times |factor|, at the same (earliest) time, so it is not searched
+    for again."""
+
+    factor: Any
+
+    def __call__(self, function: NumericExponentialPolynomial) -> NumericExponentialPolynomial:
+        return linear_combination([(self.factor, function)])
+
+    def extreme(self, peak: Extreme | None) -> Extreme | None:
+        if peak is None:
+            return None
+        with mpmath.workdps(DIGITS + 10):
+            factor = self.factor
+            if isinstance(factor, sympy.Basic):
+                factor = mpmath.mpf(str(sympy.N(factor, DIGITS + 10)))
+            value = peak.value_mp * factor if peak.value_mp is not None else None
+        shown = float(value) if value is not None else peak.value * float(factor)
+        return Extreme(shown, peak.time, value, peak.time_mp)
+
+
 def _mapped(intervals: Sequence[Interval],
             transform: Callable[[NumericExponentialPolynomial], NumericExponentialPolynomial],
             ) -> list[Interval]:
@@ -599,6 +656,7 @@ def evaluate_results(case, model, history, solution, window) -> Results:
         static = abs(float(sympy.N(gain.subs(values), 30))) * abs(largest.value)
     dlf = abs(peak.value) / static if (peak is not None and static) else None
     peaks = tuple(QuantityPeak(name, text, unit, None if transform is None else
+                               transform.extreme(peak) if isinstance(transform, Scaled) else
                                extreme_magnitude(_mapped(intervals, transform)))
                   for name, text, unit, transform in definitions)
     residual = None
@@ -651,6 +709,8 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable | No
         return transform
 
     def combination(x_factor, v_factor) -> Callable:
+        if v_factor == 0 and x_factor is not None and x_factor != 0:
+            return Scaled(x_factor)
         return lambda f: linear_combination([(factor, g) for factor, g in
                                              ((x_factor, f), (v_factor, f.derivative()))
                                              if factor != 0])

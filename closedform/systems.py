@@ -186,7 +186,6 @@ def _poles(coefficients: tuple[sympy.Expr, ...], system: SystemSpec, values: dic
 def _second_order_poles(coefficients, system: SystemSpec, values: dict,
                         key_prefix: str) -> tuple[tuple[Pole, ...], str, bool, str]:
     a2, a1, a0 = coefficients
-    centre = sympy.simplify(-a1 / (2 * a2))
     if a1 == 0:
         if a0 == 0:
             return (Pole(sympy.S.Zero, sympy.S.Zero, 2),), "rigid-body", True, ""
@@ -194,6 +193,7 @@ def _second_order_poles(coefficients, system: SystemSpec, values: dict,
     ratio = system.parameters.get("damping_ratio")
     if ratio is not None and models.get(system.model).damping_ratio_poles:
         return _poles_from_damping_ratio(ratio, sympy.sqrt(a0 / a2), system, values, key_prefix)
+    centre = sympy.simplify(-a1 / (2 * a2))
     discriminant = sympy.factor(sympy.simplify(a1**2 - 4 * a2 * a0))
     regime, note = _decide_regime(discriminant, system, values, key_prefix)
     if regime == "undamped":

@@ -113,11 +113,32 @@ def test_every_worked_case_derives_and_passes_its_checks(stem):
 
 def test_the_command_line_gives_the_json_of_the_derivation(capsys):
     """derive CASE --json - (through the batch worker, in a worker process) prints exactly
-    the JSON result of the same case derived in the Python interface; exit 0."""
+    the JSON result of the same case derived in the Python interface without a sheet, exit
+    0: no sheet is printed, so the printed equations are not re-read, and every other check
+    is the Python interface's own."""
+    from closedform import derive, load_case
+
     code = main(["derive", str(WORKED / "drop-hammer-skid.toml"), "--json", "-"])
     captured = capsys.readouterr()
     assert code == 0, captured.err
-    assert json.loads(captured.out) == json.loads(worked_derivation("drop-hammer-skid").to_json())
+    printed = json.loads(captured.out)
+    alone = derive(load_case(WORKED / "drop-hammer-skid.toml"), sheet_check=False)
+    assert printed == json.loads(alone.to_json())
+    full = json.loads(worked_derivation("drop-hammer-skid").to_json())
+    left_out = [c for c in full["checks"] if c not in printed["checks"]]
+    assert len(left_out) == 1 and left_out[0]["name"].startswith("printed equations"), left_out
+    assert {k: v for k, v in full.items() if k != "checks"} == \
+        {k: v for k, v in printed.items() if k != "checks"}
+
+
+def test_a_sheet_format_re_reads_the_printed_equations(tmp_path):
+    """With a sheet written (md), the JSON beside it lists the printed-equations check."""
+    code = main(["derive", str(WORKED / "drop-hammer-skid.toml"), "-o", str(tmp_path),
+                 "--format", "md,json"])
+    assert code == 0
+    result = json.loads((tmp_path / "drop-hammer-skid.json").read_text())
+    assert any(c["name"].startswith("printed equations") and c["passed"]
+               for c in result["checks"])
 
 
 def test_output_that_is_a_file_is_refused_before_deriving(tmp_path, capsys):

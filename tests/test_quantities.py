@@ -508,3 +508,42 @@ def test_hostile_quantities_are_rejected_harmlessly(tmp_path: Path) -> None:
 def test_source_never_evaluates_strings() -> None:
     source = Path(q.__file__).read_text()
     assert not re.search(r"\b(eval|exec|sympify|parse_expr)\s*\(", source)
+
+
+UNITS_SEEN_IN_CASES = ("mm", "kN", "lbf", "kip/in", "psi", "lb", "ms", "N*s/m", "uF", "mH",
+                       "ohm", "g0", "deg", "rpm", "ft*lbf", "kN*m", "in", "MPa")
+
+
+def _factors_in_a_fresh_process(cache: str) -> list[str]:
+    import json
+    import subprocess
+    import sys
+
+    code = ("import json; from closedform import quantities as q; "
+            f"print(json.dumps([str(q.unit_factor(u, key=None)[0]) for u in "
+            f"{list(UNITS_SEEN_IN_CASES)!r}]))")
+    done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
+                          env={**__import__("os").environ, q.UNIT_CACHE_VARIABLE: cache,
+                               "PYTHONPATH": str(Path(__file__).resolve().parent.parent)},
+                          check=True)
+    return json.loads(done.stdout)
+
+
+def test_the_unit_cache_changes_no_factor_and_a_damaged_cache_only_costs_time(tmp_path):
+    """Issue 18: pint's disk cache of parsed definitions (its own mechanism) must give the
+    very factors of a registry built from the definition file, on the run that writes the
+    cache, the run that reads it, and a run that finds the cache files damaged."""
+    uncached = _factors_in_a_fresh_process("off")
+    folder = tmp_path / "units"
+    assert _factors_in_a_fresh_process(str(folder)) == uncached       # writes the cache
+    assert list(folder.glob("*.pickle")), "pint wrote no cache"
+    assert _factors_in_a_fresh_process(str(folder)) == uncached       # reads it
+    for pickled in folder.glob("*.pickle"):
+        pickled.write_bytes(pickled.read_bytes()[:100])                # a run cut off mid-write
+    assert _factors_in_a_fresh_process(str(folder)) == uncached
+    blocked = tmp_path / "a-file"
+    blocked.write_text("not a folder")
+    assert _factors_in_a_fresh_process(str(blocked / "units")) == uncached
+    # the exact factors themselves (NIST SP 811 (2008), App. B; see the module docstring)
+    assert sympy.Rational(uncached[UNITS_SEEN_IN_CASES.index("lbf")]) == \
+        sympy.Rational("4.4482216152605")

@@ -26,6 +26,7 @@ from .member import is_member, member_family
 from .plastic import plastic_checks
 from .verification import verify
 
+PRINTED_EQUATIONS = "re-reading the printed equations"   # the family a run without a sheet leaves out
 DERIVE = "derive"      # the checks of a derivation (``closedform derive``, ``derive()``)
 CLAIM = "claim"        # the checks of a claimed response (``closedform check``)
 
@@ -66,7 +67,7 @@ FAMILIES: tuple[CheckFamily, ...] = (
     CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify, linear),
     CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks, linear),
     CheckFamily("yielding spring", frozenset({DERIVE}), plastic_checks, yielding),
-    CheckFamily("re-reading the printed equations", frozenset({DERIVE}), _printed_equations),
+    CheckFamily(PRINTED_EQUATIONS, frozenset({DERIVE}), _printed_equations),
     CheckFamily("extremes", frozenset({DERIVE}), extreme_checks, linear),
     CheckFamily("response metrics", frozenset({DERIVE}), metric_checks, linear),
     CheckFamily("member", frozenset({DERIVE}), member_family, is_member),
