@@ -54,9 +54,9 @@ from closedform.shock import Pulse
 CHART_TOLERANCE = 0.10       # relative, see the module docstring
 
 
-# (label, effective mass K_LM·m [lbf·ms²/in], K_E [lbf/in], r_u [lbf], B [lbf], T [ms],
-#  the example's T_N [ms], T/T_N, B/r_u, X_E [in] as printed, the reading X_m/X_E, X_m [in])
-# — each per unit of the member (per inch of beam, per square inch of wall), as in DM-2.08
+# example → (effective mass K_LM·m [lbf·ms²/in], K_E [lbf/in], r_u [lbf], B [lbf], T [ms];
+#  as printed: T_N [ms], T/T_N, B/r_u, X_E [in], the reading X_m/X_E, X_m [in]), each per unit
+#  of the member (per inch of beam, per square inch of wall) as in DM-2.08
 DM208 = {
     "steel roof beam, p. 2.08-112": (
         "140139.72", "8629.70", "1065.85", "1598.40", "60.7",      # K_LM·m = 0.72 × 194,638.5
