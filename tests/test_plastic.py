@@ -14,8 +14,9 @@ Sources beside each check:
 * damped cases, pulse trains and support motion: scipy.integrate.solve_ivp (DOP853, rtol
   1e-12) with its own event functions for the yield/unload switching — a reference library.
 
-Chart readings from Biggs' elastic-plastic response charts for the triangular pulse are not
-given here: no reading that could be trusted to two digits was at hand.
+Chart readings for the triangular pulse with zero rise (a published worked example's reading
+of the elasto-plastic response chart, NAVFAC DM-2.08 with NAVFAC P-397) and the exact
+stage-by-stage solution of that pulse are in test_plastic_charts.py.
 """
 
 from __future__ import annotations
