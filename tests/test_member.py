@@ -256,3 +256,68 @@ def test_sheet_shows_each_integral_and_the_caution(tmp_path, capsys):
     assert r"k = \frac{384}{5}\,EI/L^3" in sheet and r"8\,M_p/L" in sheet
     assert "approximation valid for the first mode" in sheet
     assert "does not replace, review by a qualified engineer" in sheet
+
+
+# ----------------------------------------------------------------------------- from Python
+
+def test_python_support_reaction_is_the_members_and_matches_biggs():
+    """``results.peak_support_reaction`` of a member is its dynamic reaction V = a·R + b·F,
+    the JSON's value, and agrees with Biggs' published reaction of a simply supported beam
+    under a uniform load, V = 0.39·R + 0.11·F (Biggs 1964, ch. 5, Table 5.1, elastic range;
+    two-digit table values, so compared within ±0.005·(|R| + |F|)), evaluated here on a
+    response integrated by scipy's solve_ivp from the case's numbers."""
+    import mpmath
+    import numpy
+    from scipy.integrate import solve_ivp
+
+    from .conftest import worked_derivation
+
+    d = worked_derivation("roof-purlin-blast")
+    field = d.to_dict()["peak_support_reaction"]
+    python = d.results.peak_support_reaction
+    assert python.to("N").magnitude == pytest.approx(field["value"], rel=1e-12)
+    assert python.time.to("s").magnitude == pytest.approx(field["time"], rel=1e-12)
+
+    # the case: simply supported, L = 5.4 m, EI = 1.68 MN·m², m = 42 kg/m, ζ = 0.03,
+    # p(t) = 4.5 kN/m·(1 − t/30 ms) for t < 30 ms
+    span, rigidity, mass, zeta, p0, duration = 5.4, 1.68e6, 42.0, 0.03, 4500.0, 0.030
+    # the static deflected shape of Roark's table, w ∝ ξ − 2ξ³ + ξ⁴, 1 at midspan
+    shape = lambda xi: 16 / 5 * (xi - 2 * xi**3 + xi**4)   # noqa: E731
+    load_factor = float(mpmath.quad(shape, [0, 1]))
+    mass_factor = float(mpmath.quad(lambda xi: shape(xi) ** 2, [0, 1]))
+    k = 384 * rigidity / (5 * span**3)                       # 5wL⁴/384EI (Roark)
+    m_e = mass_factor / load_factor * mass * span
+    c = 2 * zeta * math.sqrt(k * m_e)
+
+    def force(t):
+        return p0 * span * (1 - t / duration) if t < duration else 0.0
+
+    def rate(t, state):
+        y, v = state
+        return [v, (force(t) - c * v - k * y) / m_e]
+
+    times = numpy.linspace(0.0, 0.25, 25001)
+    first = solve_ivp(rate, (0.0, duration), [0.0, 0.0], method="DOP853", rtol=1e-11,
+                      atol=1e-14, dense_output=True)
+    second = solve_ivp(rate, (duration, 0.25), first.y[:, -1], method="DOP853", rtol=1e-11,
+                       atol=1e-14, dense_output=True)
+    y = numpy.where(times < duration, first.sol(numpy.minimum(times, duration))[0],
+                    second.sol(numpy.maximum(times, duration))[0])
+    resistance = k * y
+    load = numpy.array([force(t) for t in times])
+    biggs = numpy.abs(0.39 * resistance + 0.11 * load)
+    at = int(numpy.argmax(biggs))
+    tolerance = 0.005 * (abs(resistance[at]) + abs(load[at]))
+    assert abs(python.to("N").magnitude - biggs[at]) <= tolerance
+    assert python.time.to("s").magnitude == pytest.approx(times[at], abs=1e-3)
+
+
+def test_python_support_reaction_of_a_yielding_member_is_the_json_value():
+    from .conftest import worked_derivation
+
+    d = worked_derivation("wall-girt-blast-yielding")
+    field = d.to_dict()["peak_support_reaction"]
+    assert field is not None and field["unit"] == "N"
+    assert d.results.peak_support_reaction.to("N").magnitude == pytest.approx(field["value"],
+                                                                             rel=1e-12)
+    assert "peak_support_reaction" in d.results.names()
