@@ -88,10 +88,13 @@ def section(derivation, units, escape) -> dict[str, Any]:
             rows.append({"name": what,
                          "value": Math(inline(rf"{_factor(number)}\,M_p/L")
                                        + escape(" = ") + _shown(units, resistance, force))})
-        for side, a, b in item.reaction:
+        for side, a, b, c in item.reaction:
+            moments = "" if c == 0 else (rf" {'+' if c > 0 else '-'} M_p/L" if abs(c) == 1
+                                         else rf" {_signed(c)}\,M_p/L")
+            exact = ",\\ ".join(sympy.latex(v) for v in ((a, b, c) if c != 0 else (a, b)))
             rows.append({"name": f"dynamic reaction, {side} support",
-                         "value": inline(rf"V = {_decimal(a)}\,R {_signed(b)}\,F"
-                                         rf" \quad ({sympy.latex(a)},\ {sympy.latex(b)})")})
+                         "value": inline(rf"V = {_decimal(a)}\,R {_signed(b)}\,F{moments}"
+                                         rf" \quad ({exact})")})
         ranges.append({"name": _NAMES[item.name], "note": item.shape_note, "rows": rows})
     load = "uniform, p per length; the oscillator carries the total load F = p·L" if not point else (
         "point load F at the tip" if member.support == "cantilever" else
