@@ -227,7 +227,7 @@ def derive_factors(support: str, distribution: str) -> MemberFactors:
     # the reference point: under a point load; else where the elastic deflection is largest
     reference = largest_deflection(elastic) if point is None else point
     ranges = [_range("elastic", elastic, reference, uniform, point,
-                     "static deflected shape under the load (EI·w'''' = p)")]
+                     "static deflected shape under the load (EI·w′′′′ = p)")]
     yielding: tuple[str, ...] = ()
     collapse_shape, hinge, collapse = mechanism(support, distribution, point)
     critical = hinge if support != "cantilever" else sympy.S.Zero
