@@ -288,8 +288,9 @@ def test_python_support_reaction_is_the_members_and_matches_biggs():
     """``results.peak_support_reaction`` of a member is its dynamic reaction V = a·R + b·F,
     the JSON's value, and agrees with Biggs' published reaction of a simply supported beam
     under a uniform load, V = 0.39·R + 0.11·F (Biggs 1964, ch. 5, Table 5.1, elastic range;
-    two-digit table values, so compared within ±0.005·(|R| + |F|)), evaluated here on a
-    response integrated by scipy's solve_ivp from the case's numbers."""
+    from memory, the book not at hand, the same value as REACTIONS above; two-digit table
+    values, so compared within ±0.005·(|R| + |F|)), evaluated here on a response integrated
+    by scipy's solve_ivp from the case's numbers."""
     import mpmath
     import numpy
     from scipy.integrate import solve_ivp
