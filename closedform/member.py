@@ -21,7 +21,8 @@ Everything is exact, in the dimensionless coordinate ξ = x/L; the dimensional v
 the factors L, EI/L³, M_p/L. The dynamic support reactions come from the equilibrium of the
 beam under the load, the inertia forces −m·φ·ÿ of the assumed shape and the bending moments
 of the resistance at the supports and at the critical section (where the span hinge forms):
-V = a·R + b·F per support and range.
+V = a·R + b·F + c·M_p/L per support and range (c from the moment M_p at a yielded section;
+zero in the elastic range and wherever the yielded moments balance, as in a symmetric beam).
 """
 
 from __future__ import annotations
@@ -93,7 +94,8 @@ class RangeFactors:
 
     ``stiffness`` is k·L³/EI (total load per deflection at x_r); ``load_integral`` is
     ∫p̂·φ dξ (= K_L), ``mass_integral`` ∫φ² dξ (= K_M); ``reaction`` maps each support
-    ("left", "right") to (a, b) in V = a·R + b·F.
+    ("left", "right") to (a, b, c) in V = a·R + b·F + c·M_p/L (c ≠ 0 only where the moment
+    M_p at a yielded section is not carried by R alone, e.g. the fixed end of a propped beam).
     """
 
     name: str
@@ -101,7 +103,7 @@ class RangeFactors:
     load_factor: sympy.Expr
     mass_factor: sympy.Expr
     stiffness: sympy.Expr | None          # None in the plastic range
-    reaction: tuple[tuple[str, sympy.Expr, sympy.Expr], ...]
+    reaction: tuple[tuple[str, sympy.Expr, sympy.Expr, sympy.Expr], ...]
     shape_note: str
 
     @property
@@ -225,7 +227,7 @@ def derive_factors(support: str, distribution: str) -> MemberFactors:
     # the reference point: under a point load; else where the elastic deflection is largest
     reference = largest_deflection(elastic) if point is None else point
     ranges = [_range("elastic", elastic, reference, uniform, point,
-                     "static deflected shape under the load (EI·w'''' = p)")]
+                     "static deflected shape under the load (EI·w′′′′ = p)")]
     yielding: tuple[str, ...] = ()
     collapse_shape, hinge, collapse = mechanism(support, distribution, point)
     critical = hinge if support != "cantilever" else sympy.S.Zero
@@ -302,7 +304,7 @@ def _moment_diagram(name, ranges, elastic: Shape, first_yield, collapse):
 
 def _with_reactions(item: RangeFactors, support: str, uniform, point, critical, diagram
                     ) -> RangeFactors:
-    """V = a·R + b·F at each support from the equilibrium of the beam's segments."""
+    """V = a·R + b·F + c·M_p/L at each support from the equilibrium of the beam's segments."""
     section_moment, R = diagram
     F, acc, va, vb = sympy.symbols("F acc V_A V_B")
     phi = item.shape
@@ -343,7 +345,10 @@ def _with_reactions(item: RangeFactors, support: str, uniform, point, critical, 
     rows = []
     for side, unknown in reactions:
         value = sympy.expand(solution[unknown])
-        rows.append((side, sympy.radsimp(value.coeff(R)), sympy.radsimp(value.coeff(F))))
+        a, b = value.coeff(R), value.coeff(F)
+        # the part that is neither: from the moments M_p at yielded sections (units M_p/L)
+        constant = sympy.expand(value - a * R - b * F)
+        rows.append((side, sympy.radsimp(a), sympy.radsimp(b), sympy.radsimp(constant)))
     return RangeFactors(item.name, item.shape, item.load_factor, item.mass_factor,
                         item.stiffness, tuple(rows), item.shape_note)
 

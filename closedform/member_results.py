@@ -2,10 +2,11 @@
 
 The JSON gains ``equivalent`` (per range that occurs: load, mass and load-mass factors,
 stiffness and resistance at the end of the range, SI) and ``peak_support_reaction``, the
-largest |V(t)| over the supports, V = a·R(t) + b·F(t) with the coefficients of the range the
+largest |V(t)| over the supports, V = a·R(t) + b·F(t) + c·M_p/L with the coefficients of the range the
 resistance R is in at t (elastic while |R| ≤ R_e, then elastic-plastic, plastic on the yield
 line). R(t) is the spring force of the oscillator (k·y elastic, from the phase's force line
-when it yields) and F(t) the total load; the largest value is searched on a grid of
+when it yields), F(t) the total load and M_p/L taken with the sign of R (the yielded sections
+bend with it); the largest value is searched on a grid of
 ``GRID`` points per piece and refined by a bounded scalar search around the best point.
 """
 
@@ -64,12 +65,15 @@ def reaction_history(derivation, times: numpy.ndarray) -> numpy.ndarray:
             force[chosen] = float(slope) * x[chosen] + float(constant)
             yielding[chosen] = plastic.phases[plastic.piece_phases[int(i)]].kind != "elastic"
     first_yield = member.resistance("elastic")
+    # the yielded sections' moments ±M_p, signed as the resistance that bends the member
+    yielded = numpy.zeros_like(x) if member.plastic_moment is None else \
+        numpy.sign(force) * float(member.plastic_moment / member.span)
     rows = []
     ranges = {r.name: r for r in member.ranges}
     for side_index in range(len(ranges["elastic"].reaction)):
         value = numpy.empty_like(x)
         for name, item in ranges.items():
-            _side, a, b = item.reaction[side_index]
+            _side, a, b, c = item.reaction[side_index]
             if name == "elastic":
                 chosen = ~yielding & (numpy.abs(force) <= (numpy.inf if first_yield is None
                                                            else float(first_yield)))
@@ -77,7 +81,8 @@ def reaction_history(derivation, times: numpy.ndarray) -> numpy.ndarray:
                 chosen = ~yielding & (numpy.abs(force) > float(first_yield))
             else:
                 chosen = yielding
-            value[chosen] = float(a) * force[chosen] + float(b) * load[chosen]
+            value[chosen] = float(a) * force[chosen] + float(b) * load[chosen] \
+                + float(c) * yielded[chosen]
         rows.append(numpy.abs(value))
     return numpy.array(rows)
 

@@ -268,6 +268,12 @@ class ResultQuantities:
         numbers = derivation.numbers
         until = derivation.window.until
         peak = numbers.peak
+        member: dict[str, Any] = {}
+        if getattr(derivation.case.system, "member", None) is not None:
+            # a member's support reaction is V = a·R + b·F of its assumed shape, not the
+            # oscillator's spring force: the JSON result's field, by the function that makes it
+            from .member_results import peak_support_reaction
+            member = {"peak_support_reaction": peak_support_reaction(derivation)}
         return cls({
             "variable": {"unit": quantities.si_unit_text(derivation.case.system.response_dimension)},
             "until": str(until) if until.free_symbols else float(until.evalf(30)),
@@ -276,6 +282,7 @@ class ResultQuantities:
             "dlf": numbers.dlf,
             **result_fields(numbers),
             **metric_fields(getattr(derivation, "metrics", None)),
+            **member,
         })
 
     def names(self) -> tuple[str, ...]:

@@ -183,6 +183,32 @@ def test_latex_escape_of_single_characters():
     assert render.latex_escape("☃") == r"\texttt{[U+2603]}"
 
 
+def test_symbols_with_subscripts_in_plain_labels():
+    from closedform.render.escaping import with_subscripts
+    label = "load-mass factor K_LM = K_M / K_L, R_m/k_E of peak_time & x_integrated"
+    assert with_subscripts(label, render.latex_escape) == (
+        r"load-mass factor $K_{LM}$ = $K_{M}$ / $K_{L}$, $R_{m}$/$k_{E}$ of peak\_time \& "
+        r"x\_integrated")
+    assert with_subscripts(label, render.markdown_escape).startswith(
+        r"load-mass factor $K_{LM}$ = $K_{M}$ / $K_{L}$, $R_{m}$/$k_{E}$ of peak\_time")
+    assert isinstance(with_subscripts("a $ b", render.latex_escape), render.Math)
+    assert with_subscripts("a $ b_c", render.latex_escape) == r"a \$ $b_{c}$"
+
+
+def test_member_sheet_labels_print_subscripts_not_underscores():
+    """On the LaTeX sheet of a member, K_LM, K_L, K_M, R_m, M_p, k_E print as symbols with
+    subscripts: no escaped underscore "\\_" is left in the member's section, its checks and
+    its assumptions (the yielding section's own table is shared with every yielding case)."""
+    tex = sheets("wall-girt-blast-yielding")["tex"]
+    assert r"load-mass factor $K_{LM}$ = $K_{M}$ / $K_{L}$" in tex
+    assert r"collapse load $R_{m}$" in tex and r"oscillator $k_{E}$" in tex
+    member = tex[tex.index("Member as an equivalent oscillator"):tex.index("Model: ")]
+    checks = tex[tex.index("member factors by quadrature"):]
+    assert "\\_" not in member and "\\_" not in checks
+    md = sheets("wall-girt-blast-yielding")["md"]
+    assert r"| plastic moment $M_{p}$ |" in md and "K\\_" not in md
+
+
 def test_markdown_escapes_a_hostile_title():
     md = render.render_markdown(hostile_derivation(), stem="hostile")
     assert md.splitlines()[0] == (r"# Bolts & nuts: 100% of \#3\_a \\ \~x^2 {y} \$5 \<a\|b\> -- µ−≤ Müller")

@@ -7,7 +7,8 @@
   i.e. ∫φ''² dξ = (k·L³/EI)·K_L, the stiffness the derivation read off the deflection;
 - the collapse load: the mechanism's (upper bound, virtual work) equals the static one
   (lower bound, the moments of the partly yielded beam), uniqueness theorem;
-- the reactions: with R = F (static) the support reactions add up to the load.
+- the reactions: with R = F (static) the support reactions add up to the load (the
+  M_p/L terms of V = a·R + b·F + c·M_p/L cancel over the supports).
 """
 
 from __future__ import annotations
@@ -110,9 +111,10 @@ def _collapse_check(member) -> Check:
 
 
 def _reaction_check(member) -> Check:
-    worst = max(abs(float(sum(a + b for _s, a, b in item.reaction)) - 1)
+    worst = max(max(abs(float(sum(a + b for _s, a, b, _c in item.reaction)) - 1),
+                    abs(float(sum(c for *_ab, c in item.reaction))))
                 for item in member.ranges)
     ok = worst < 1e-12
     return Check("member reactions carry the static load", ok,
-                 f"Σ(a + b) over the supports = 1 in every range (R = F); largest difference "
-                 f"{worst:.3g}")
+                 f"Σ(a + b) over the supports = 1 and Σc = 0 in every range (R = F, the "
+                 f"plastic moments are internal forces); largest difference {worst:.3g}")

@@ -7,7 +7,9 @@ from ``sympy.latex`` and this package's own typesetting) pass through unchanged.
 
 from __future__ import annotations
 
+import re
 import unicodedata
+from collections.abc import Callable
 
 
 class Math(str):
@@ -137,3 +139,21 @@ def markdown_escape(text: str) -> str:
             out.append(character)
     return "".join(out)
 
+
+
+#: A symbol with a subscript written in plain text: one Latin letter, "_", then one to three
+#: letters or digits (K_LM, R_m, M_p, k_E), not part of a longer word (peak_time and a name
+#: such as x_integrated stay as they are).
+_SUBSCRIPTED = re.compile(r"(?<![A-Za-z0-9_\\])([A-Za-z])_([A-Za-z0-9]{1,3})(?![A-Za-z0-9_])")
+
+
+def with_subscripts(text: str, escape: Callable[[str], str]) -> Math:
+    """Plain text whose symbols with subscripts (``K_LM``, ``R_m``) become inline math
+    (``$K_{LM}$``), the rest escaped by ``escape`` (the sheet's, LaTeX or Markdown): a label
+    written once in plain words reads K with the subscript LM on either sheet, not "K_LM"."""
+    parts, last = [], 0
+    for found in _SUBSCRIPTED.finditer(text):
+        parts += [escape(text[last:found.start()]), f"${found[1]}_{{{found[2]}}}$"]
+        last = found.end()
+    parts.append(escape(text[last:]))
+    return Math("".join(parts))

@@ -14,7 +14,7 @@ import sympy
 from .. import quantities
 from ..member import SUPPORT_TEXT, XI
 from ..member_results import peak_support_reaction
-from .escaping import Math
+from .escaping import Math, with_subscripts
 from .typesetting import inline
 
 ASSUMPTIONS = [
@@ -49,6 +49,13 @@ def member_context(sheet) -> dict[str, Any]:
     if not is_member(sheet.derivation):
         return {"member": None}
     return {"member": section(sheet.derivation, sheet.units, sheet.escape)}
+
+
+def typeset_symbols(sheet, text: str) -> str:
+    """On a member's sheet, ``text`` with its symbols' subscripts typeset (R_m as R with the
+    subscript m, in the assumptions and the checks' details too); elsewhere ``text`` as it is,
+    to be escaped when printed."""
+    return with_subscripts(text, sheet.escape) if is_member(sheet.derivation) else text
 
 
 def section(derivation, units, escape) -> dict[str, Any]:
@@ -88,10 +95,13 @@ def section(derivation, units, escape) -> dict[str, Any]:
             rows.append({"name": what,
                          "value": Math(inline(rf"{_factor(number)}\,M_p/L")
                                        + escape(" = ") + _shown(units, resistance, force))})
-        for side, a, b in item.reaction:
+        for side, a, b, c in item.reaction:
+            moments = "" if c == 0 else (rf" {'+' if c > 0 else '-'} M_p/L" if abs(c) == 1
+                                         else rf" {_signed(c)}\,M_p/L")
+            exact = ",\\ ".join(sympy.latex(v) for v in ((a, b, c) if c != 0 else (a, b)))
             rows.append({"name": f"dynamic reaction, {side} support",
-                         "value": inline(rf"V = {_decimal(a)}\,R {_signed(b)}\,F"
-                                         rf" \quad ({sympy.latex(a)},\ {sympy.latex(b)})")})
+                         "value": inline(rf"V = {_decimal(a)}\,R {_signed(b)}\,F{moments}"
+                                         rf" \quad ({exact})")})
         ranges.append({"name": _NAMES[item.name], "note": item.shape_note, "rows": rows})
     load = "uniform, p per length; the oscillator carries the total load F = p·L" if not point else (
         "point load F at the tip" if member.support == "cantilever" else
@@ -119,8 +129,10 @@ def section(derivation, units, escape) -> dict[str, Any]:
     ]
     peak = peak_support_reaction(derivation)
     if peak is not None:
+        moments = any(c != 0 for item in member.ranges for *_ab, c in item.reaction)
+        formula = "V = a·R + b·F" + (" + c·M_p/L" if moments else "")
         oscillator.append({"name": f"largest dynamic support reaction |V| ({peak['support']} "
-                                   "support), V = a·R + b·F of the range R is in",
+                                   f"support), {formula} of the range R is in",
                            "value": Math(_shown(units, peak["value"], force) + escape(" at t = ")
                                          + _shown(units, peak["time"], _dimension("time")))})
     exact = [value for value in (member.load_mass_factor * member.mass,
@@ -133,6 +145,8 @@ def section(derivation, units, escape) -> dict[str, Any]:
     if f.collapse_by_statics is not None and member.plastic_moment is not None:
         oscillator.append({"name": "collapse load by statics (moments nowhere above M_p)",
                            "value": inline(rf"{_factor(f.collapse_by_statics)}\,M_p/L")})
+    for row in [*given, *oscillator, *(row for r in ranges for row in r["rows"])]:
+        row["name"] = with_subscripts(row["name"], escape)     # K_LM as K with LM below
     return {"given": given, "ranges": ranges, "oscillator": oscillator,
             "equation": inline(r"K_{LM} M\,\ddot{y} + c\,\dot{y} + R(y) = F(t),\quad "
                                r"K_L = \frac{\int p\,\varphi\,dx}{F},\ "
@@ -166,4 +180,4 @@ def _signed(value) -> str:
     return f"+ {v:.4f}" if v >= 0 else f"- {-v:.4f}"
 
 
-__all__ = ["ASSUMPTIONS", "is_member", "member_context", "section", "XI"]
+__all__ = ["ASSUMPTIONS", "is_member", "member_context", "section", "typeset_symbols", "XI"]

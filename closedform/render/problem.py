@@ -101,6 +101,7 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         assumptions = yielding.assumptions(sheet.derivation, assumptions)
     else:
         equation, values = Math(model.equation), equation_with_values(model)
+    assumptions = [member.typeset_symbols(sheet, a) for a in assumptions]
     return {
         "model": case.system.model,
         "equation": sheet.check.form(equation),

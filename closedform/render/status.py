@@ -7,6 +7,7 @@ from typing import TYPE_CHECKING, Any
 
 from .. import __version__
 from .layout import slug
+from .member import typeset_symbols
 
 if TYPE_CHECKING:
     from .context import Sheet
@@ -28,11 +29,13 @@ def status_context(sheet: Sheet) -> dict[str, Any]:
         "version": __version__,
         "status": derivation.status,
         "passed": derivation.passed,
-        "failed": [{"name": c.name, "detail": c.detail, "outcome": c.outcome} for c in failed],
+        "failed": [{"name": c.name, "detail": typeset_symbols(sheet, c.detail),
+                    "outcome": c.outcome} for c in failed],
         "inconclusive_count": sum(1 for c in failed if c.outcome == "inconclusive"),
         "check_count": len(derivation.checks),
-        "checks": [{"name": c.name, "passed": c.passed, "detail": c.detail,
-                    "outcome": c.outcome} for c in derivation.checks],
+        "checks": [{"name": c.name, "passed": c.passed,
+                    "detail": typeset_symbols(sheet, c.detail), "outcome": c.outcome}
+                   for c in derivation.checks],
         "section": section,
         "label": slug(sheet.stem),
         "warnings": [w.removeprefix(f"{case.source}: ") for w in derivation.warnings],
