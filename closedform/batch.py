@@ -244,18 +244,53 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
     exit 1. ``on_done(index, outcome)`` is called as each case finishes, in the parent.
     """
     show = sys.stderr.isatty() if progress is None else progress
-    budgets = [task.time_budget for task in tasks]
-    longest = None if not budgets or None in budgets else max(b for b in budgets if b is not None)
+    # An unreadable case file or a TOML syntax error is refused here, in the parent, with no
+    # worker started for it: the same outcome run_case gives, at a fraction of the cost.
+    refused = {index: outcome for index, outcome in
+               ((i, refused_unread(task)) for i, task in enumerate(tasks))
+               if outcome is not None}
+    kept = [i for i in range(len(tasks)) if i not in refused]
+    for index, outcome in refused.items():
+        if on_done is not None:
+            on_done(index, outcome)
+    if not kept:
+        return [refused[i] for i in range(len(tasks))]
+    budgets = [tasks[i].time_budget for i in kept]
+    longest = None if None in budgets else max(b for b in budgets if b is not None)
 
     def lost(index: int, reason: Lost) -> CaseOutcome:
-        return lost_outcome(tasks[index].path, reason, memory_budget)
+        return lost_outcome(tasks[kept[index]].path, reason, memory_budget)
 
-    return map_cases(run_case, [(task,) for task in tasks], [Path(t.path).name for t in tasks],
-                     jobs=jobs, progress=TerminalProgress(sys.stderr) if show else None,
-                     memory_budget=memory_budget, lost=lost, on_done=on_done,
-                     time_budget=longest,
-                     preload=("closedform.derivation", "closedform.render.writers",
-                              "closedform.render.sheet"))
+    def done(index: int, outcome: CaseOutcome) -> None:
+        if on_done is not None:
+            on_done(kept[index], outcome)
+
+    derived = map_cases(run_case, [(tasks[i],) for i in kept],
+                        [Path(tasks[i].path).name for i in kept],
+                        jobs=jobs, progress=TerminalProgress(sys.stderr) if show else None,
+                        memory_budget=memory_budget, lost=lost, on_done=done,
+                        time_budget=longest,
+                        preload=("closedform.derivation", "closedform.render.writers",
+                                 "closedform.render.sheet"))
+    outcomes = dict(refused)
+    outcomes.update(zip(kept, derived))
+    return [outcomes[i] for i in range(len(tasks))]
+
+
+def refused_unread(task: CaseTask) -> CaseOutcome | None:
+    """The outcome of a task whose case file cannot be read or is not TOML (as
+    :func:`run_case` gives it), or None where the file reads."""
+    from .casefile import locate, read_case_file
+
+    try:
+        read_case_file(task.path)
+    except CaseError as error:
+        located = locate(error, task.path)
+        return CaseOutcome(task.path, error.exit_code, one_line(located.show()),
+                           stage="unusable", problem=one_line(str(located)))
+    except RecursionError:
+        return None        # run_case words this one
+    return None
 
 
 def lost_outcome(path: str, reason: Lost, memory_budget: int | None) -> CaseOutcome:

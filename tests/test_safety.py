@@ -620,6 +620,42 @@ def test_an_unreadable_case_file_or_a_toml_syntax_error_is_refused_before_the_en
     assert heavy_after(code) == []
 
 
+def test_an_unreadable_case_file_is_refused_in_the_parent_without_a_worker(tmp_path,
+                                                                           monkeypatch):
+    """Issue 18: the input-error target (0.3x the floor) leaves no room for starting a worker
+    process; a batch refuses the unreadable files itself, keeps its order, and hands only
+    the readable cases to workers, with the outcome run_case would give."""
+    from closedform import batch
+
+    good = tmp_path / "good.toml"
+    good.write_text("title = 'x'\n")
+    missing, broken = tmp_path / "missing.toml", tmp_path / "broken.toml"
+    broken.write_text("title = 'x'\n[system\n")
+    handed: list[str] = []
+
+    def fake_map(function, arguments, names, **options):
+        handed.extend(str(a[0].path) for a in arguments)
+        results = [batch.not_derived(str(a[0].path), "stand-in") for a in arguments]
+        for index, result in enumerate(results):
+            options["on_done"](index, result)
+        return results
+
+    monkeypatch.setattr(batch, "map_cases", fake_map)
+    tasks = [batch.CaseTask(str(p), None, batch.SheetFiles(("md",)))
+             for p in (missing, good, broken)]
+    seen: dict[int, object] = {}
+    outcomes = batch.run_cases(tasks, progress=False, on_done=seen.__setitem__)
+    assert handed == [str(good)]
+    assert [o.path for o in outcomes] == [str(missing), str(good), str(broken)]
+    assert sorted(seen) == [0, 1, 2]
+    for index in (0, 2):
+        alone = batch.run_case(tasks[index])
+        assert (outcomes[index].exit_code, outcomes[index].message) == (2, alone.message)
+    monkeypatch.setattr(batch, "map_cases", lambda *a, **k: pytest.fail("a worker was started"))
+    [outcome] = batch.run_cases(tasks[:1], progress=False)
+    assert outcome.exit_code == 2 and "missing.toml" in outcome.message
+
+
 def test_the_listed_help_of_each_command_is_its_own():
     """The command line lists check/appendix/spectrum without importing them; the one-line
     help it shows must be the one each module registers."""
