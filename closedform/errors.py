@@ -64,3 +64,13 @@ class DerivationError(ClosedformError):
 
 class TimeBudgetExceeded(DerivationError):
     """A symbolic stage ran past its time budget."""
+
+
+def quote(text: str, limit: int = 40) -> str:
+    """``text`` as it should appear inside a one-line message: quoted, escaped, shortened."""
+    shown = text if len(text) <= limit else text[:limit]
+    # repr escapes newlines and control characters, so a message always stays on one line.
+    out = repr(shown)
+    if not out.isascii():
+        out = ascii(shown)
+    return out + ("..." if len(text) > limit else "")

@@ -22,7 +22,7 @@ from typing import Any, Protocol, TypeVar
 import mpmath
 import sympy
 
-from closedform.errors import ExpressionError
+from closedform.errors import ExpressionError, quote  # noqa: F401 - quote re-exported
 
 __all__ = [
     "FUNCTIONS",
@@ -81,16 +81,6 @@ _WHITESPACE = " \t"
 _OPERATORS = ("**", "+", "-", "*", "/", "^", "(", ")")
 _LIMIT = 10 ** MAX_MAGNITUDE_EXPONENT
 _UNDEFINED = (sympy.zoo, sympy.oo, -sympy.oo, sympy.nan)
-
-
-def quote(text: str, limit: int = 40) -> str:
-    """``text`` as it should appear inside a one-line message: quoted, escaped, shortened."""
-    shown = text if len(text) <= limit else text[:limit]
-    # repr escapes newlines and control characters, so a message always stays on one line.
-    out = repr(shown)
-    if not out.isascii():
-        out = ascii(shown)
-    return out + ("..." if len(text) > limit else "")
 
 
 def _fail(message: str, key: str | None) -> ExpressionError:

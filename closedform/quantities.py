@@ -14,17 +14,12 @@ from __future__ import annotations
 
 import functools
 import math
-import os
 import re
 from collections.abc import Mapping
 from fractions import Fraction
-from pathlib import Path
-from types import MappingProxyType
-from typing import Any, cast
+from typing import Any
 
-import pint
 import sympy
-from pint.util import UnitsContainer
 
 from closedform.errors import ExpressionError
 from closedform.expressions import (
@@ -33,6 +28,45 @@ from closedform.expressions import (
     parse_number,
     parse_with,
     quote,
+)
+from closedform.units import (  # noqa: F401 - the light half of this module, re-exported
+    ACCELERATION,
+    CAPACITANCE,
+    CHARGE,
+    CURRENT,
+    DAMPING,
+    DIMENSIONLESS,
+    DIMENSIONS,
+    ENERGY,
+    FORCE,
+    FREQUENCY,
+    IMPULSE,
+    INDUCTANCE,
+    LENGTH,
+    MASS,
+    MAX_UNIT_LENGTH,
+    POWER,
+    PRESSURE,
+    RESISTANCE,
+    STIFFNESS,
+    TEMPERATURE,
+    TIME,
+    UNIT_CACHE_VARIABLE,
+    VELOCITY,
+    VOLTAGE,
+    Dimension,
+    UnitProblem,
+    ascii_unit,
+    describe,
+    dimension,
+    divide_dimensions,
+    example_value,
+    multiply_dimensions,
+    power_dimension,
+    registry,
+    si_unit_text,
+    unit_cache_folder,
+    unit_fraction,
 )
 
 __all__ = [
@@ -54,223 +88,6 @@ __all__ = [
     "parse_quantity",
     "MAX_UNIT_LENGTH",
 ]
-
-#: A physical dimension: pint's mapping from base dimension ('[mass]', '[length]', '[time]',
-#: '[current]', …) to its exponent. Never ``str()`` one (pint cannot format exact exponents);
-#: use :func:`describe` or :func:`si_unit_text`.
-Dimension = UnitsContainer
-
-#: Longest unit text accepted, in characters.
-MAX_UNIT_LENGTH = 100
-
-_BASES = ("[mass]", "[length]", "[time]", "[current]", "[temperature]", "[substance]",
-          "[luminosity]")
-_BASE_NAMES = {"[mass]": "mass", "[length]": "length", "[time]": "time",
-               "[current]": "current", "[temperature]": "temperature",
-               "[substance]": "amount", "[luminosity]": "luminosity"}
-_BASE_UNITS = {"[mass]": "kg", "[length]": "m", "[time]": "s", "[current]": "A",
-               "[temperature]": "K", "[substance]": "mol", "[luminosity]": "cd"}
-
-
-def _make(**powers: int) -> Dimension:
-    return UnitsContainer({f"[{base}]": Fraction(power) for base, power in powers.items()},
-                          non_int_type=Fraction)
-
-
-DIMENSIONLESS = _make()
-TIME = _make(time=1)
-MASS = _make(mass=1)
-LENGTH = _make(length=1)
-CURRENT = _make(current=1)
-FORCE = _make(mass=1, length=1, time=-2)
-STIFFNESS = FORCE / LENGTH
-DAMPING = FORCE * TIME / LENGTH
-VELOCITY = LENGTH / TIME
-ACCELERATION = LENGTH / TIME ** 2
-IMPULSE = FORCE * TIME
-VOLTAGE = _make(mass=1, length=2, time=-3, current=-1)
-RESISTANCE = VOLTAGE / CURRENT
-INDUCTANCE = VOLTAGE * TIME / CURRENT
-CAPACITANCE = CURRENT * TIME / VOLTAGE
-FREQUENCY = DIMENSIONLESS / TIME
-CHARGE = CURRENT * TIME
-ENERGY = FORCE * LENGTH
-POWER = ENERGY / TIME
-PRESSURE = FORCE / LENGTH ** 2
-TEMPERATURE = _make(temperature=1)
-
-#: Every named dimension, by the name :func:`dimension` accepts.
-DIMENSIONS: Mapping[str, Dimension] = MappingProxyType({
-    "dimensionless": DIMENSIONLESS, "time": TIME, "mass": MASS, "length": LENGTH,
-    "current": CURRENT, "force": FORCE, "stiffness": STIFFNESS, "damping": DAMPING,
-    "velocity": VELOCITY, "acceleration": ACCELERATION, "impulse": IMPULSE,
-    "voltage": VOLTAGE, "resistance": RESISTANCE, "inductance": INDUCTANCE,
-    "capacitance": CAPACITANCE, "frequency": FREQUENCY, "charge": CHARGE,
-    "energy": ENERGY, "power": POWER, "pressure": PRESSURE, "temperature": TEMPERATURE,
-})
-
-# How each named dimension reads in a message and which SI unit labels it.
-_DESCRIPTIONS = {
-    DIMENSIONLESS: "dimensionless", TIME: "time", MASS: "mass", LENGTH: "length",
-    CURRENT: "current", FORCE: "force", STIFFNESS: "force/length",
-    DAMPING: "force*time/length", VELOCITY: "length/time", ACCELERATION: "length/time^2",
-    IMPULSE: "force*time", VOLTAGE: "voltage", RESISTANCE: "resistance",
-    INDUCTANCE: "inductance", CAPACITANCE: "capacitance", FREQUENCY: "1/time",
-    CHARGE: "charge", ENERGY: "energy", POWER: "power", PRESSURE: "force/length^2",
-    TEMPERATURE: "temperature",
-}
-_SI_UNITS = {
-    DIMENSIONLESS: "1", TIME: "s", MASS: "kg", LENGTH: "m", CURRENT: "A", FORCE: "N",
-    STIFFNESS: "N/m", DAMPING: "N*s/m", VELOCITY: "m/s", ACCELERATION: "m/s^2",
-    IMPULSE: "N*s", VOLTAGE: "V", RESISTANCE: "ohm", INDUCTANCE: "H", CAPACITANCE: "F",
-    FREQUENCY: "1/s", CHARGE: "C", ENERGY: "J", POWER: "W", PRESSURE: "Pa",
-    TEMPERATURE: "K",
-    # rates and other derived forms, as the trades write them
-    PRESSURE / TIME: "Pa/s", PRESSURE * TIME: "Pa*s", FORCE / TIME: "N/s",
-    ACCELERATION / TIME: "m/s^3", VOLTAGE / TIME: "V/s", CURRENT / TIME: "A/s",
-    TEMPERATURE / TIME: "K/s", POWER / TIME: "W/s", ENERGY * TIME: "J*s",
-    VOLTAGE * TIME: "V*s", STIFFNESS / TIME: "N/(m*s)", PRESSURE / LENGTH: "Pa/m",
-    ACCELERATION * TIME: "m/s", TEMPERATURE * TIME: "K*s", CURRENT * TIME ** 2: "C*s",
-}
-
-# Unit characters outside ASCII that the trades write, and the ASCII pint reads.
-_UNIT_CHARACTERS = (("°C", "delta_degC"), ("°F", "delta_degF"), ("°", "deg"), ("Ω", "ohm"),
-                    ("\u2126", "ohm"), ("·", "*"), ("⋅", "*"))
-_MICRO_RE = re.compile(r"[µμ](?=[A-Za-zΩ\u2126])")
-
-
-def ascii_unit(text: str) -> str:
-    """A unit text with µ/μ (micro, before a unit name), Ω (ohm), ° (degree; °C and °F as
-    temperature differences) and the middle dot spelled the way pint reads them."""
-    text = _MICRO_RE.sub("u", text)
-    for character, spelled in _UNIT_CHARACTERS:
-        text = text.replace(character, spelled)
-    return text
-
-
-def dimension(name: str) -> Dimension:
-    """The dimension called ``name`` ("force", "stiffness", …; see :data:`DIMENSIONS`)."""
-    try:
-        return DIMENSIONS[name]
-    except KeyError:
-        raise ValueError(f"unknown dimension name {name!r} "
-                         f"(expected one of {', '.join(DIMENSIONS)})") from None
-
-
-def multiply_dimensions(*dimensions: Dimension) -> Dimension:
-    """The dimension of a product of quantities."""
-    result = DIMENSIONLESS
-    for item in dimensions:
-        result = result * item
-    return result
-
-
-def divide_dimensions(numerator: Dimension, denominator: Dimension) -> Dimension:
-    """The dimension of a quotient of quantities."""
-    return numerator / denominator
-
-
-def power_dimension(base: Dimension, exponent: int | Fraction | sympy.Rational) -> Dimension:
-    """The dimension of a quantity raised to a fixed rational power (``sqrt`` is 1/2)."""
-    if isinstance(exponent, sympy.Rational):
-        exponent = Fraction(int(exponent.p), int(exponent.q))
-    if exponent == 0:
-        return DIMENSIONLESS
-    return base ** Fraction(exponent)
-
-
-def _power_text(name: str, exponent: Any) -> str:
-    exponent = Fraction(exponent)
-    if exponent == 1:
-        return name
-    if exponent.denominator == 1:
-        return f"{name}^{exponent.numerator}"
-    return f"{name}^({exponent.numerator}/{exponent.denominator})"
-
-
-def _product_text(dim: Dimension, labels: Mapping[str, str]) -> str:
-    order = {base: index for index, base in enumerate(_BASES)}
-    # pint types an exponent as any number; a dimension here has rational exponents only
-    items = cast("list[tuple[str, Fraction]]",
-                 sorted(dim.items(), key=lambda item: (order.get(item[0], len(order)), item[0])))
-
-    def label(base: str) -> str:
-        return labels.get(base, base.strip("[]"))
-
-    upper = [_power_text(label(base), power) for base, power in items if power > 0]
-    lower = [_power_text(label(base), -power) for base, power in items if power < 0]
-    top = "*".join(upper) or "1"
-    if not lower:
-        return top
-    bottom = lower[0] if len(lower) == 1 else "(" + "*".join(lower) + ")"
-    return f"{top}/{bottom}"
-
-
-def describe(dim: Dimension) -> str:
-    """A readable name of a dimension for messages: "force/length", "mass",
-    "length/time^2", or a product of base dimensions such as "mass*length^2/time^3"."""
-    named = _DESCRIPTIONS.get(dim)
-    if named is not None:
-        return named
-    return _product_text(dim, _BASE_NAMES)
-
-
-def si_unit_text(dim: Dimension) -> str:
-    """The coherent SI unit that magnitudes of this dimension are expressed in, as plain text:
-    "N/m", "N*s/m", "m/s^2", "ohm", "1" for dimensionless, else base units such as
-    "kg*m^2/s^3"."""
-    named = _SI_UNITS.get(dim)
-    if named is not None:
-        return named
-    return _product_text(dim, _BASE_UNITS)
-
-
-def _example(dim: Dimension) -> str:
-    unit = si_unit_text(dim)
-    if unit == "1":
-        return '"0.5"'
-    if not unit[0].isalpha():
-        # "12 1/s" would not read back as a number and a unit; negative powers do.
-        order = {base: index for index, base in enumerate(_BASES)}
-        unit = "*".join(_power_text(_BASE_UNITS.get(base, base), power) for base, power
-                        in sorted(dim.items(), key=lambda item: order.get(item[0], 99)))
-    return f'"12 {unit}"'
-
-
-#: Environment variable naming the folder for pint's parsed-definitions cache, or "off".
-UNIT_CACHE_VARIABLE = "CLOSEDFORM_UNIT_CACHE"
-
-
-def unit_cache_folder() -> Path | None:
-    """Where pint keeps its parsed unit definitions between runs (its own documented disk
-    cache): ``$CLOSEDFORM_UNIT_CACHE``, else the user's cache folder; None when "off"."""
-    chosen = os.environ.get(UNIT_CACHE_VARIABLE)
-    if chosen is not None:
-        return None if chosen.strip().lower() in ("", "off", "0", "no") else Path(chosen)
-    import platformdirs  # a dependency of pint itself
-
-    return platformdirs.user_cache_path("closedform", appauthor=False) / "units"
-
-
-@functools.cache
-def registry() -> pint.UnitRegistry:
-    """The one pint unit registry, with exact (fraction) conversion factors.
-
-    Parsing pint's definition file and building its tables takes about 0.3 s a run; pint's
-    disk cache keeps the result keyed by the definition file's content. Any trouble with the
-    cache (a folder that cannot be made, a file being written by another run at the same
-    moment, a damaged file) only costs that time: the registry is then built without it.
-    """
-    folder = unit_cache_folder()
-    for cache in ((folder, None) if folder is not None else (None,)):
-        try:
-            if cache is not None:
-                cache.mkdir(parents=True, exist_ok=True)
-            return pint.UnitRegistry(non_int_type=Fraction, cache_folder=cache)
-        except Exception:   # noqa: BLE001 - a cache is never a reason to fail
-            if cache is None:
-                raise
-    raise AssertionError("unreachable: the last attempt builds without a cache")
 
 
 @functools.cache
@@ -306,87 +123,10 @@ def _exact(factor: Fraction) -> sympy.Expr:
     return sympy.Rational(rest.numerator, rest.denominator) * sympy.pi ** power
 
 
-_UNIT_CHARACTERS_RE = re.compile(r"[A-Za-z0-9_*/^. ()\-]*")
-_UNIT_EXPONENT_RE = re.compile(r"\s*(?:-?\d+(?:\.\d+)?|\(\s*-?\d+\s*/\s*\d+\s*\))")
-_DIGITS_RE = re.compile(r"\d+")
-_UNIT_NAME_RE = re.compile(r"[A-Za-z][A-Za-z0-9_]*")
-
-
-class _UnitProblem(Exception):
-    pass
-
-
-def _check_unit_text(text: str) -> None:
-    """Reject any unit text outside the small shape pint needs, before pint reads it."""
-    if not text:
-        raise _UnitProblem("missing unit (expected a unit such as m, kN/m or N*s/m, got nothing)")
-    if len(text) > MAX_UNIT_LENGTH:
-        raise _UnitProblem(f"unit too long (at most {MAX_UNIT_LENGTH} characters, "
-                           f"got {len(text)})")
-    bad = _UNIT_CHARACTERS_RE.match(text)
-    assert bad is not None
-    if bad.end() != len(text):
-        raise _UnitProblem(f"character not allowed in unit {quote(text)} at column "
-                           f"{bad.end() + 1} (expected letters, digits, _ * / ^ ( ) and "
-                           f"spaces, got {quote(text[bad.end()])})")
-    if "__" in text:
-        raise _UnitProblem(f"unexpected '__' in unit {quote(text)}")
-    index = 0
-    while index < len(text):
-        char = text[index]
-        if char == "^" or text.startswith("**", index):
-            index += 1 if char == "^" else 2
-            # Exponents are kept to short plain numbers: pint would otherwise compute
-            # something like m^(9^9^9) in full.
-            match = _UNIT_EXPONENT_RE.match(text, index)
-            if match is None or any(len(digits) > 2
-                                    for digits in _DIGITS_RE.findall(match.group())):
-                raise _UnitProblem(f"unit exponent not allowed in {quote(text)} at column "
-                                   f"{index + 1} (expected a short number such as ^2, ^-1 or "
-                                   f"^(1/2))")
-            index = match.end()
-            continue
-        if char in " */()":
-            index += 1
-            continue
-        match = _UNIT_NAME_RE.match(text, index)
-        if match is not None:
-            index = match.end()
-            continue
-        if char == "1" and not text[index + 1:index + 2].isdigit():
-            index += 1
-            continue
-        raise _UnitProblem(f"unexpected {quote(char)} in unit {quote(text)} at column "
-                           f"{index + 1} (expected a unit name)")
-
-
 @functools.lru_cache(maxsize=1024)
 def _unit_lookup(text: str) -> tuple[sympy.Expr, Dimension]:
-    _check_unit_text(text)
-    units_registry = registry()
-    unknown = _UnitProblem(f"unknown unit {quote(text)} (expected a unit such as m, mm, kg, "
-                           f"lb, N, kN/m, N*s/m, ms, V, ohm, uF)")
-    try:
-        units = units_registry.parse_units(text)
-        dim = units_registry.get_dimensionality(units)
-    except Exception:  # pint signals a bad unit with many exception types
-        raise unknown from None
-    outside = [base for base in dim if base not in _BASE_NAMES]
-    if outside:
-        raise _UnitProblem(f"unit {quote(text)} is not supported (expected SI base dimensions, "
-                           f"got {', '.join(sorted(outside))})")
-    try:
-        zero = units_registry.Quantity(Fraction(0), units).to_base_units().magnitude
-        one = units_registry.Quantity(Fraction(1), units).to_base_units().magnitude
-    except Exception:  # offset and logarithmic units refuse plain multiplication
-        zero, one = None, None
-    if zero != 0 or one is None:
-        raise _UnitProblem(f"offset units are not accepted (got {quote(text)}; use kelvin or "
-                           f"delta_degC for temperatures; logarithmic units are not accepted "
-                           f"either)")
-    if isinstance(one, float) or not one:
-        raise _UnitProblem(f"unit {quote(text)} has no exact conversion factor")
-    return _exact(Fraction(one)), UnitsContainer(dict(dim), non_int_type=Fraction)
+    factor, dim = unit_fraction(text)
+    return _exact(factor), dim
 
 
 def unit_factor(unit_text: str, *, key: str | None) -> tuple[sympy.Expr, Dimension]:
@@ -401,7 +141,7 @@ def unit_factor(unit_text: str, *, key: str | None) -> tuple[sympy.Expr, Dimensi
                               key=key)
     try:
         return _unit_lookup(ascii_unit(unit_text.strip(" \t")))
-    except _UnitProblem as problem:
+    except UnitProblem as problem:
         raise ExpressionError(str(problem), key=key) from None
 
 
@@ -604,7 +344,7 @@ def _mismatch(expected: Dimension, got: Dimension) -> str:
 
 
 def _bare_number(expected: Dimension, shown: str) -> str:
-    return (f"number without a unit (expected {describe(expected)}, e.g. {_example(expected)}, "
+    return (f"number without a unit (expected {describe(expected)}, e.g. {example_value(expected)}, "
             f"got the plain number {shown})")
 
 
@@ -629,7 +369,7 @@ def parse_quantity(value: Any, *, expected: Dimension | str,
     if isinstance(value, bool) or not isinstance(value, (int, float, str)):
         shown = str(value).lower() if isinstance(value, bool) else type(value).__name__
         raise ExpressionError(f"not a quantity (expected a number or a text such as "
-                              f"{_example(expected)}, got {shown})", key=key)
+                              f"{example_value(expected)}, got {shown})", key=key)
     if isinstance(value, int):
         if value.bit_length() > 1100:
             raise ExpressionError("number out of range (expected a magnitude below 1e300, "
@@ -653,7 +393,7 @@ def parse_quantity(value: Any, *, expected: Dimension | str,
                               f"got {len(text)})", key=key)
     if not text.strip(" \t"):
         raise ExpressionError(f"empty value (expected {describe(expected)}, e.g. "
-                              f"{_example(expected)})", key=key)
+                              f"{example_value(expected)})", key=key)
     with_unit = _WITH_UNIT_RE.fullmatch(text)
     if with_unit is not None:
         return _number_with_unit(with_unit.group(1), with_unit.group(2), expected, names,
@@ -681,7 +421,7 @@ def _refuse_bare_unit(text: str, key: str | None) -> None:
         return
     try:
         _unit_lookup(unit)
-    except _UnitProblem:
+    except UnitProblem:
         return
     raise ExpressionError(f"missing number before the unit (expected e.g. \"12 {unit}\", "
                           f"got {quote(unit)})", key=key)
@@ -699,7 +439,7 @@ def _constant_with_unit(text: str, expected: Dimension, key: str | None) -> symp
     try:
         factor, got = _unit_lookup(match.group(2))
         number = parse_with(match.group(1), SympyBuilder({}, key=key), key=key)
-    except (_UnitProblem, ExpressionError):
+    except (UnitProblem, ExpressionError):
         return None
     if not (number.is_real and number.is_finite):
         return None
@@ -717,7 +457,7 @@ def _refuse_formula_with_unit(text: str, names: Mapping[str, sympy.Expr],
     try:
         _unit_lookup(match.group(2))
         parse_with(match.group(1), SympyBuilder(names, key=key), key=key)
-    except (_UnitProblem, ExpressionError):
+    except (UnitProblem, ExpressionError):
         return
     raise ExpressionError(f"a formula cannot carry a unit (expected a number with a unit such "
                           f"as \"12 {match.group(2)}\", or a formula over declared names, got "

@@ -137,7 +137,7 @@ _NUMBER = re.compile(r"[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?")
 def read_record(path: Path) -> Record:
     """A two-column CSV (time, support acceleration); a header row may name the units as in
     ``time [s], acceleration [g0]``; plain numbers are SI; ``#`` starts a comment line."""
-    from .case import read_limited
+    from .files import read_limited
 
     shown = str(path)
     raw = read_limited(path, MAX_RECORD_BYTES, shown, f"'{shown}'", file="--record")
@@ -193,23 +193,23 @@ def read_record(path: Path) -> Record:
 
 
 def _header_units(cells: list[str], shown: str, number: int) -> list[float]:
-    from . import quantities
+    from . import units  # pint alone: the record route imports no sympy
 
     factors = [1.0, 1.0]
-    expected = [quantities.dimension("time"), quantities.dimension("acceleration")]
+    expected = [units.TIME, units.ACCELERATION]
     for i, cell in enumerate(cells):
         match = re.search(r"\[([^\]]+)\]|\(([^)]+)\)", cell)
         if not match:
             continue
         try:
-            factor, dimension = quantities.unit_factor(match.group(1) or match.group(2),
-                                                       key=None)
-        except CaseError as error:
-            raise CaseError(f"column {i + 1}: {error.message}", file=shown, line=number)
+            factor, dimension = units.unit_fraction(
+                units.ascii_unit((match.group(1) or match.group(2)).strip(" \t")))
+        except units.UnitProblem as problem:
+            raise CaseError(f"column {i + 1}: {problem}", file=shown, line=number)
         if dimension != expected[i]:
             raise CaseError(f"column {i + 1}: wrong unit in the header (expected a unit of "
-                            f"{quantities.describe(expected[i])}, got "
-                            f"{quantities.describe(dimension)})", file=shown, line=number)
+                            f"{units.describe(expected[i])}, got "
+                            f"{units.describe(dimension)})", file=shown, line=number)
         factors[i] = float(factor)
     return factors
 

@@ -70,13 +70,17 @@ def register(commands) -> None:
     parser.set_defaults(run=run_spectrum)
 
 
+def _exact_number(text: str, option: str, what: str) -> Fraction:
+    try:
+        return Fraction(text.strip())
+    except (ValueError, ZeroDivisionError):
+        raise CaseError(f"'{text}' is not a number (expected {what})", file=option)
+
+
 def _fraction(text: str, option: str, what: str):
     import sympy
 
-    try:
-        value = Fraction(text.strip())
-    except (ValueError, ZeroDivisionError):
-        raise CaseError(f"'{text}' is not a number (expected {what})", file=option)
+    value = _exact_number(text, option, what)
     return sympy.Rational(value.numerator, value.denominator)
 
 
@@ -171,11 +175,11 @@ def parse_pulse(arguments: argparse.Namespace):
 
 
 def run_spectrum(arguments: argparse.Namespace) -> int:
+    if arguments.record is not None:     # float64 alone: neither sympy nor the pulse route
+        return run_record_spectrum(arguments)
     from .cli import usable_output_folder
     from .shock import response_spectrum, spectrum_figure
 
-    if arguments.record is not None:
-        return run_record_spectrum(arguments)
     if arguments.periods is not None:
         raise CaseError("periods are for a record spectrum (give --record FILE.csv); a pulse "
                         "spectrum takes --ratios or --range", file="--periods")
@@ -242,7 +246,8 @@ def run_record_spectrum(arguments: argparse.Namespace) -> int:
     if arguments.periods is None:
         raise CaseError("missing (a record spectrum needs --periods START:STOP:COUNT or a "
                         "list A,B,…, in seconds)", file="--periods")
-    zeta = _fraction(arguments.damping_ratio, "--damping-ratio", "a damping ratio from 0 to below 1")
+    zeta = _exact_number(arguments.damping_ratio, "--damping-ratio",
+                         "a damping ratio from 0 to below 1")
     if not 0 <= zeta < 1:
         raise CaseError(f"must be at least 0 and below 1 (spectra are for oscillating systems), "
                         f"got {arguments.damping_ratio}", file="--damping-ratio")

@@ -620,6 +620,19 @@ def test_an_unreadable_case_file_or_a_toml_syntax_error_is_refused_before_the_en
     assert heavy_after(code) == []
 
 
+def test_the_record_spectrum_runs_without_sympy(tmp_path):
+    """Issue 18: the record spectrum is float64 throughout (its map's coefficients from the
+    closed form, its checks in numpy), so it must not pay for importing sympy or mpmath."""
+    record = tmp_path / "record.csv"
+    record.write_text("time [s], acceleration [g0]\n" + "".join(
+        f"{i * 0.01:.2f}, {0.1 * ((i * 7) % 5 - 2):.3f}\n" for i in range(50)))
+    code = ("from closedform.cli import main\n"
+            "with contextlib.redirect_stdout(io.StringIO()):\n"
+            f"    assert main(['spectrum', '--record', {str(record)!r}, '--damping-ratio',"
+            " '0.05', '--periods', '0.05:2:20', '--json', '-']) == 0\n")
+    assert set(heavy_after(code)) <= {"numpy", "pint"}
+
+
 def test_an_unreadable_case_file_is_refused_in_the_parent_without_a_worker(tmp_path,
                                                                            monkeypatch):
     """Issue 18: the input-error target (0.3x the floor) leaves no room for starting a worker
