@@ -131,7 +131,7 @@ def run_case(task: CaseTask) -> CaseOutcome:
     in the case file like one of loading: FILE:LINE: KEY: message.
     """
     from .budget import time_budget as budget_for
-    from .casefile import locate, read_case_file
+    from .casefile import read_case_file
     from .files import display_name
 
     path = task.path
@@ -155,9 +155,7 @@ def run_case(task: CaseTask) -> CaseOutcome:
                            finished.result, derivation.warnings, title=title,
                            reference=reference, product=finished.product)
     except CaseError as error:
-        located = locate(error, path)
-        return CaseOutcome(path, error.exit_code, one_line(located.show()), stage="unusable",
-                           problem=one_line(str(located)), title=title, reference=reference)
+        return unusable(path, error, title, reference)
     except ClosedformError as error:
         return CaseOutcome(path, error.exit_code, one_line(error.show()), stage="not derived",
                            problem=one_line(str(error)), title=title, reference=reference)
@@ -170,6 +168,15 @@ def run_case(task: CaseTask) -> CaseOutcome:
                                  "(its worker's address-space limit)", title, reference)
     except Exception as error:  # a defect in closedform itself, reported without a traceback
         return not_derived(path, internal_error(shown, error), title, reference)
+
+
+def unusable(path: str, error: CaseError, title: str = "", reference: str = "") -> CaseOutcome:
+    """A case refused for its input (exit 2), located in its file: FILE:LINE: KEY: message."""
+    from .casefile import locate
+
+    located = locate(error, path)
+    return CaseOutcome(path, error.exit_code, one_line(located.show()), stage="unusable",
+                       problem=one_line(str(located)), title=title, reference=reference)
 
 
 def not_derived(path: str, message: str, title: str = "", reference: str = "") -> CaseOutcome:
@@ -246,13 +253,14 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
     show = sys.stderr.isatty() if progress is None else progress
     # An unreadable case file or a TOML syntax error is refused here, in the parent, with no
     # worker started for it: the same outcome run_case gives, at a fraction of the cost.
-    refused = {index: outcome for index, outcome in
-               ((i, refused_unread(task)) for i, task in enumerate(tasks))
-               if outcome is not None}
+    refused: dict[int, CaseOutcome] = {}
+    for index, task in enumerate(tasks):
+        outcome = refused_unread(task)
+        if outcome is not None:
+            refused[index] = outcome
+            if on_done is not None:
+                on_done(index, outcome)
     kept = [i for i in range(len(tasks)) if i not in refused]
-    for index, outcome in refused.items():
-        if on_done is not None:
-            on_done(index, outcome)
     if not kept:
         return [refused[i] for i in range(len(tasks))]
     budgets = [tasks[i].time_budget for i in kept]
@@ -279,17 +287,16 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
 
 def refused_unread(task: CaseTask) -> CaseOutcome | None:
     """The outcome of a task whose case file cannot be read or is not TOML (as
-    :func:`run_case` gives it), or None where the file reads."""
-    from .casefile import locate, read_case_file
+    :func:`run_case` gives it), or None where the file reads (or nests too deeply to parse
+    here: run_case words that one)."""
+    from .casefile import read_case_file
 
     try:
         read_case_file(task.path)
     except CaseError as error:
-        located = locate(error, task.path)
-        return CaseOutcome(task.path, error.exit_code, one_line(located.show()),
-                           stage="unusable", problem=one_line(str(located)))
+        return unusable(task.path, error)
     except RecursionError:
-        return None        # run_case words this one
+        pass
     return None
 
 

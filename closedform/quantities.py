@@ -62,6 +62,7 @@ from closedform.units import (  # noqa: F401 - the light half of this module, re
     divide_dimensions,
     example_value,
     multiply_dimensions,
+    normal_unit_text,
     power_dimension,
     registry,
     si_unit_text,
@@ -140,7 +141,7 @@ def unit_factor(unit_text: str, *, key: str | None) -> tuple[sympy.Expr, Dimensi
         raise ExpressionError(f"not a unit (expected text, got {type(unit_text).__name__})",
                               key=key)
     try:
-        return _unit_lookup(ascii_unit(unit_text.strip(" \t")))
+        return _unit_lookup(normal_unit_text(unit_text))
     except UnitProblem as problem:
         raise ExpressionError(str(problem), key=key) from None
 

@@ -203,7 +203,7 @@ def _header_units(cells: list[str], shown: str, number: int) -> list[float]:
             continue
         try:
             factor, dimension = units.unit_fraction(
-                units.ascii_unit((match.group(1) or match.group(2)).strip(" \t")))
+                units.normal_unit_text(match.group(1) or match.group(2)))
         except units.UnitProblem as problem:
             raise CaseError(f"column {i + 1}: {problem}", file=shown, line=number)
         if dimension != expected[i]:

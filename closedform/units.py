@@ -294,6 +294,12 @@ def _check_unit_text(text: str) -> None:
                            f"{index + 1} (expected a unit name)")
 
 
+def normal_unit_text(unit_text: str) -> str:
+    """A unit as written (µ, Ω, °, the middle dot; blanks around it) in the ASCII form that
+    :func:`unit_fraction` looks up."""
+    return ascii_unit(unit_text.strip(" \t"))
+
+
 @functools.lru_cache(maxsize=1024)
 def unit_fraction(text: str) -> tuple[Fraction, Dimension]:
     """The exact factor from an ASCII unit text to coherent SI (pint's: angle units carry
