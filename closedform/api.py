@@ -21,6 +21,8 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import TYPE_CHECKING, Any
 
+from .precision import own_precision
+
 if TYPE_CHECKING:
     from .derivation import Derivation
 
@@ -54,6 +56,7 @@ def _identity(function):
     return function
 
 
+@own_precision
 def evaluate(derivation: Derivation, times, derivative: int = 0, response: str | None = None,
              precise: bool | None = None):
     """The response (or one of its derivatives, or another response) at ``times``, SI.

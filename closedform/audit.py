@@ -60,6 +60,7 @@ from .claims import (
 from .derivation import Derivation, Window
 from .errors import CaseError
 from .options import add_budgets, add_formats, add_output
+from .precision import own_precision
 from .response import Piece, t
 from .results import Results, real_number
 
@@ -187,6 +188,7 @@ class _FormulaPiece:
         return str(self.formula)
 
 
+@own_precision
 def audit(derivation: Derivation | ChainDerivation) -> Audit:
     """Verdicts for every claim of the case (raises CaseError for an unusable claim)."""
     from .case import quantity_reader

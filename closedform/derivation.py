@@ -20,6 +20,7 @@ from .checks.base import Check
 from .checks.registry import DERIVE, PRINTED_EQUATIONS, run_checks
 from .loads import LoadHistory, rewrite_loads
 from .metrics import ResponseMetrics, metric_fields, response_metrics
+from .precision import own_precision
 from .response import EXACT_BREAKPOINT_LIMIT, Piece, Solution, solve
 from .results import Extreme, Results, evaluate_results, result_fields
 from .support_motion import with_absolute_displacement
@@ -234,6 +235,7 @@ def analysis_window(case: Case, model: LinearModel) -> Window:
                   "natural period or time constant")
 
 
+@own_precision
 def derive(case: Case, *, time_budget: float | None = None, sheet_check: bool = True
            ) -> Derivation | ChainDerivation:
     """Derive, evaluate and check the response of one case.

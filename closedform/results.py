@@ -749,9 +749,12 @@ def quantity_definitions(case, model) -> list[tuple[str, str, str, Callable | No
 
     definition = models.get(model_name)
     if definition.quantities is not None:
-        found = definition.quantities(models.QuantityContext(
-            case.system.parameters, tuple(model.coefficients), model.order, response, time,
-            number, _unit, derivative, combination))
+        # the models combine the coefficients (−k/m, −c/m): at the working digits, never at
+        # whatever precision the caller's mpmath context happens to hold
+        with mpmath.workdps(DIGITS + 10):
+            found = definition.quantities(models.QuantityContext(
+                case.system.parameters, tuple(model.coefficients), model.order, response,
+                time, number, _unit, derivative, combination))
         if case.system.member is not None:   # a member's reactions come from its shape
             found = [(name, "resistance R = k·y (the total load the member carries "
                             "statically at the deflection y)" if name == "peak_spring_force"

@@ -135,10 +135,10 @@ def test_worked_example_biggs_constant_force():
 # ----------------------------------------------------------------------------- exact stages
 
 
+@mpmath.workdps(30)          # never the global context: other tests run in this process
 def stagewise(strength, ratio):
     """μ and t_m/t_d of the undamped oscillator (m = k = 1, F₁ = 1, R_m = strength,
     t_d = 2π·ratio) under F₁(1 − t/t_d), yielding during the pulse, by hand."""
-    mpmath.mp.dps = 30
     r = mpmath.mpf(strength)
     td = 2 * mpmath.pi * mpmath.mpf(ratio)
 

@@ -372,6 +372,29 @@ def test_notebook_displays_escape_and_put_the_status_first():
 # ----------------------------------------------------------------------------- the package
 
 
+@pytest.mark.parametrize("digits", [8, 40])
+def test_the_callers_mpmath_precision_changes_nothing(digits):
+    """A notebook that has set mpmath.mp.dps gets the sheet the command line gives (found:
+    at 8 digits two worked cases failed their own checks, at 30 a peak time had more digits
+    than at 15). The golden sheets are rendered at mpmath's default; the caller's context is
+    restored afterwards."""
+    import mpmath
+
+    from closedform import render
+
+    stems = ("machine-moving-support", "sensor-ramp-lag")
+    expected = {stem: render.render_markdown(worked_derivation(stem), stem=stem) for stem in stems}
+    before = mpmath.mp.dps
+    try:
+        mpmath.mp.dps = digits
+        for stem in stems:
+            derivation = closedform.derive(load_case(WORKED / f"{stem}.toml"))
+            assert render.render_markdown(derivation, stem=stem) == expected[stem], stem
+            assert mpmath.mp.dps == digits
+    finally:
+        mpmath.mp.dps = before
+
+
 def test_import_closedform_is_light():
     code = ("import sys, closedform\nfrom closedform import __version__\n"
             "heavy = [m for m in ('sympy', 'pint', 'numpy', 'mpmath', 'matplotlib') if m in sys.modules]\n"

@@ -7,6 +7,7 @@ import re
 from typing import TYPE_CHECKING
 
 from ..checks import reread
+from ..precision import own_precision
 from .context import sheet_context
 from .escaping import Math
 from .flavours import LATEX, MARKDOWN, Flavour
@@ -18,6 +19,7 @@ PAPER_OPTIONS = {"a4": "a4paper", "letter": "letterpaper"}
 LATEX_PACKAGES = ("amsmath", "amssymb", "booktabs", "longtable", "array", "graphicx")
 
 
+@own_precision
 def render_sheet(derivation, flavour: Flavour, *, stem: str | None = None,
                  section: int | None = None, level: int = 1, standalone: bool = True) -> str:
     """The sheet in ``flavour``, its figures named after ``stem``. ``section`` and ``level``
