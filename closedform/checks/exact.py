@@ -188,8 +188,7 @@ def _residual(problem: Problem, index: int, end: sympy.Expr, reference: Mapping,
     for span in spans:
         load = load_on(problem, to_mpf(span[0], reference), to_mpf(span[1], reference), reference)
         groups.setdefault(load, []).append(span)
-    derivatives = problem.derivatives(index)
-    floats = has_float(derivatives[0])
+    floats = has_float(piece.x)
     dps, tolerance = (FLOAT_DIGITS, FLOAT_TOLERANCE) if floats else (EXACT_DIGITS, EXACT_TOLERANCE)
     note = ""
     if len(groups) > 1:
@@ -197,10 +196,11 @@ def _residual(problem: Problem, index: int, end: sympy.Expr, reference: Mapping,
             short(to_mpf(span[0], reference)) for span in spans[1:])
     worst, where, exact = mpmath.mpf(0), None, True
     for load, group in groups.items():
-        if not floats and _split_zero(derivatives[0], load, problem.equation, symbolic,
+        if not floats and _split_zero(piece.x, load, problem.equation, symbolic,
                                       fallbacks[0] if symbolic and fallbacks else None):
             continue
         exact = False
+        derivatives = problem.derivatives(index)
         for values in (fallbacks if symbolic else [{}]):
             equation = problem.equation.subs(values)
             numeric = [substitute(d, values) for d in derivatives]
@@ -279,7 +279,7 @@ def initial_check(problem: Problem, reference: Mapping, fallbacks: Sequence[Mapp
         if not problem.pieces:
             return False, "no pieces"
         n = problem.equation.order
-        derivatives = problem.derivatives(0)
+        derivatives = problem.derivatives(0, n - 1)
         kicks = _impulses_at(problem, sympy.S.Zero, reference)
         jumps = _jumps(problem, sympy.S.Zero, reference, kicks)
         pairs = []
@@ -310,8 +310,8 @@ def breakpoint_checks(problem: Problem, reference: Mapping, fallbacks: Sequence[
             kicks = _impulses_at(problem, time, reference)
             jumps = _jumps(problem, time, reference, kicks)
             jump = jumps[-1]
-            left = problem.derivatives(index)
-            right = problem.derivatives(index + 1)
+            left = problem.derivatives(index, n - 1)
+            right = problem.derivatives(index + 1, n - 1)
             pairs = []
             for j in range(n):
                 pairs.append((f"{name_of_derivative(j)} at t = {short(time)}",

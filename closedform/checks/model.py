@@ -214,15 +214,15 @@ class Problem:
     pieces: tuple[Piece, ...]
     _derivatives: dict = field(default_factory=dict, repr=False)
 
-    def derivatives(self, index: int) -> list[sympy.Expr]:
-        """x, x', …, x⁽ⁿ⁾ of one piece (computed once)."""
-        if index not in self._derivatives:
-            x = self.pieces[index].x
-            result = [x]
-            for _ in range(self.equation.order):
-                result.append(sympy.diff(result[-1], T))
-            self._derivatives[index] = result
-        return self._derivatives[index]
+    def derivatives(self, index: int, highest: int | None = None) -> list[sympy.Expr]:
+        """x, x', … up to x⁽ʰⁱᵍʰᵉˢᵗ⁾ (default: the equation's order n) of one piece, each
+        worked out once and only when asked for (the conditions at the breakpoints need up
+        to x⁽ⁿ⁻¹⁾; x⁽ⁿ⁾ only where the residual is not proved zero term by term)."""
+        highest = self.equation.order if highest is None else highest
+        known = self._derivatives.setdefault(index, [self.pieces[index].x])
+        while len(known) <= highest:
+            known.append(sympy.diff(known[-1], T))
+        return known[:highest + 1]
 
     def breakpoints(self) -> list[sympy.Expr]:
         """The load's own breakpoints: branch starts and ends, impulse times."""
