@@ -390,6 +390,10 @@ def test_the_callers_mpmath_precision_changes_nothing(digits):
         for stem in stems:
             derivation = closedform.derive(load_case(WORKED / f"{stem}.toml"))
             assert render.render_markdown(derivation, stem=stem) == expected[stem], stem
+            times = numpy.linspace(0.0, derivation.results.until.to("s").magnitude, 7)
+            for precise in (False, True):
+                assert numpy.array_equal(derivation.evaluate(times, precise=precise),
+                                         worked_derivation(stem).evaluate(times, precise=precise))
             assert mpmath.mp.dps == digits
     finally:
         mpmath.mp.dps = before
