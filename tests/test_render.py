@@ -181,6 +181,8 @@ def test_latex_escape_of_single_characters():
     assert render.latex_escape("é") == r"\'{e}"
     assert render.latex_escape("x⁽ⁿ⁾") == r"x\ensuremath{^{(}}\ensuremath{^{n}}\ensuremath{^{)}}"
     assert render.latex_escape("☃") == r"\texttt{[U+2603]}"
+    # the transform-pair arrow of the shift theorem's statement on the load lines
+    assert render.latex_escape("f(t) ↔ F(s)") == r"f(t) \ensuremath{\leftrightarrow} F(s)"
 
 
 def test_symbols_with_subscripts_in_plain_labels():

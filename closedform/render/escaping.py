@@ -40,7 +40,8 @@ _MATH_CHARACTERS = {
     "±": r"\pm", "×": r"\times", "÷": r"\div", "∫": r"\int", "√": r"\surd", "≡": r"\equiv",
     "≈": r"\approx", "≠": r"\ne", "∞": r"\infty", "°": r"^\circ", "µ": r"\mu", "∑": r"\Sigma",
     "∏": r"\Pi", "∂": r"\partial", "′": r"'", "″": r"''", "∈": r"\in", "∆": r"\Delta",
-    "Ω": r"\Omega",
+    "Ω": r"\Omega", "↔": r"\leftrightarrow", "⇒": r"\Rightarrow", "⇔": r"\Leftrightarrow",
+    "↦": r"\mapsto",
 }
 _TEXT_CHARACTERS = {
     "…": r"\ldots{}", "—": "---", "–": "--", "‘": "`", "’": "'", "“": "``", "”": "''",

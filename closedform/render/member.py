@@ -52,10 +52,14 @@ def member_context(sheet) -> dict[str, Any]:
 
 
 def typeset_symbols(sheet, text: str) -> str:
-    """On a member's sheet, ``text`` with its symbols' subscripts typeset (R_m as R with the
-    subscript m, in the assumptions and the checks' details too); elsewhere ``text`` as it is,
-    to be escaped when printed."""
-    return with_subscripts(text, sheet.escape) if is_member(sheet.derivation) else text
+    """On the sheet of a member or of a yielding spring, ``text`` with its symbols'
+    subscripts typeset (R_m, R_y as R with the subscript m, y, in the assumptions and the
+    checks' details too); elsewhere ``text`` as it is, to be escaped when printed."""
+    from .yielding import is_yielding
+
+    if is_member(sheet.derivation) or is_yielding(sheet.derivation):
+        return with_subscripts(text, sheet.escape)
+    return text
 
 
 def section(derivation, units, escape) -> dict[str, Any]:

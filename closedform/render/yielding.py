@@ -17,7 +17,7 @@ import numpy
 import sympy
 
 from .. import plots, quantities
-from .escaping import Math
+from .escaping import Math, with_subscripts
 from .layout import figure_name
 from .typesetting import inline, typeset
 
@@ -133,7 +133,7 @@ def section(derivation, units, escape, inline, figure: str | None) -> dict[str, 
         text = shown(value, dimension, prefer)
         if at is not None:
             text = Math(text + escape(" at t = ") + shown(at, time, ("time",)))
-        rows.append({"name": name, "value": text})
+        rows.append({"name": with_subscripts(name, escape), "value": text})   # x_y as x, y below
 
     mu = response.ductility
     row("ductility ratio μ = max|x| / x_y", mu.value if mu else None,
