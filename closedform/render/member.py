@@ -51,17 +51,6 @@ def member_context(sheet) -> dict[str, Any]:
     return {"member": section(sheet.derivation, sheet.units, sheet.escape)}
 
 
-def typeset_symbols(sheet, text: str) -> str:
-    """On the sheet of a member or of a yielding spring, ``text`` with its symbols'
-    subscripts typeset (R_m, R_y as R with the subscript m, y, in the assumptions and the
-    checks' details too); elsewhere ``text`` as it is, to be escaped when printed."""
-    from .yielding import is_yielding
-
-    if is_member(sheet.derivation) or is_yielding(sheet.derivation):
-        return with_subscripts(text, sheet.escape)
-    return text
-
-
 def section(derivation, units, escape) -> dict[str, Any]:
     member = derivation.case.system.member
     f = member.factors
@@ -184,4 +173,4 @@ def _signed(value) -> str:
     return f"+ {v:.4f}" if v >= 0 else f"- {-v:.4f}"
 
 
-__all__ = ["ASSUMPTIONS", "is_member", "member_context", "section", "typeset_symbols", "XI"]
+__all__ = ["ASSUMPTIONS", "is_member", "member_context", "section", "XI"]

@@ -8,7 +8,7 @@ from typing import TYPE_CHECKING, Any
 
 from .. import models, quantities
 from . import member, yielding
-from .escaping import Math
+from .escaping import Math, with_subscripts
 from .typesetting import as_factor, inline, typeset, unit_latex
 from .units import RESPONSE_PREFER
 
@@ -101,7 +101,7 @@ def problem_context(sheet: Sheet) -> dict[str, Any]:
         assumptions = yielding.assumptions(sheet.derivation, assumptions)
     else:
         equation, values = Math(model.equation), equation_with_values(model)
-    assumptions = [member.typeset_symbols(sheet, a) for a in assumptions]
+    assumptions = [with_subscripts(a, sheet.escape) for a in assumptions]   # R_y as R, y below
     return {
         "model": case.system.model,
         "equation": sheet.check.form(equation),

@@ -6,8 +6,8 @@ from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from .. import __version__
+from .escaping import with_subscripts
 from .layout import slug
-from .member import typeset_symbols
 
 if TYPE_CHECKING:
     from .context import Sheet
@@ -29,12 +29,12 @@ def status_context(sheet: Sheet) -> dict[str, Any]:
         "version": __version__,
         "status": derivation.status,
         "passed": derivation.passed,
-        "failed": [{"name": c.name, "detail": typeset_symbols(sheet, c.detail),
+        "failed": [{"name": c.name, "detail": with_subscripts(c.detail, sheet.escape),
                     "outcome": c.outcome} for c in failed],
         "inconclusive_count": sum(1 for c in failed if c.outcome == "inconclusive"),
         "check_count": len(derivation.checks),
         "checks": [{"name": c.name, "passed": c.passed,
-                    "detail": typeset_symbols(sheet, c.detail), "outcome": c.outcome}
+                    "detail": with_subscripts(c.detail, sheet.escape), "outcome": c.outcome}
                    for c in derivation.checks],
         "section": section,
         "label": slug(sheet.stem),
