@@ -732,3 +732,36 @@ def test_check_formats_follow_the_same_rules_once_check_writes_files(tmp_path, c
     assert main(["check", str(case), "-o", str(tmp_path / "out"), "--format", "docx"]) == 2
     assert capsys.readouterr().err.splitlines() == [
         "--format: unknown audit format 'docx' (expected some of: md, tex, pdf, json)"]
+
+
+# ----------------------------------------------------------------------------- no text parsed
+
+@pytest.mark.parametrize("stem", ["drop-hammer-skid", "measured-history", "blast-wall-yielding",
+                                  "wall-girt-blast-yielding", "symbolic-rectangle",
+                                  "audit-rack-upright", "several-masses/instrument-rack-slab"])
+def test_no_text_reaches_sympify_on_any_route(monkeypatch, stem):
+    """Every ``sympy.sympify`` call of the engine, the checks, the audit and the sheets gets
+    a sympy or Python number, never text (sympify would parse text as an expression): one
+    worked case of each route (exact, long table from a CSV, yielding spring, member,
+    symbolic, claims, several masses) is derived, audited and rendered with text refused."""
+    import sympy
+
+    from closedform.audit import audit
+
+    original = sympy.sympify
+    seen: list[str] = []
+
+    def numbers_only(value, *arguments, **options):
+        if isinstance(value, str):
+            seen.append(value)
+            raise AssertionError(f"text reached sympify: {value!r}")
+        return original(value, *arguments, **options)
+
+    monkeypatch.setattr(sympy, "sympify", numbers_only)
+    derivation = closedform.derivation.derive(
+        closedform.load_case(ROOT / "worked_cases" / f"{stem}.toml"))
+    assert derivation.status == "verified"
+    render.render_markdown(derivation, stem=Path(stem).name)
+    if derivation.case.claims:
+        audit(derivation)
+    assert seen == []
