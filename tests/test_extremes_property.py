@@ -125,3 +125,54 @@ def test_peak_of_random_exponential_polynomials(case):
 @given(functions())
 def test_peak_of_random_exponential_polynomials_many(case):
     _compare(case)
+
+
+@st.composite
+def short_pieces(draw):
+    """(terms, length) of the pieces of a long history: a constant and a ramp (powers), a
+    damped or growing oscillation (a conjugate pair, combined on a short piece), sometimes
+    a second, nearly equal exponent; lengths from a small to a large part of a period."""
+    with mpmath.workdps(50):
+        omega = mpmath.mpf(draw(st.floats(1.0, 200.0)))
+        sigma = mpmath.mpf(draw(st.floats(-5.0, 2.0)))
+        rate = mpmath.mpc(sigma, omega)
+        amplitude = mpmath.mpc(draw(st.floats(-1, 1)), draw(st.floats(-1, 1)))
+        terms = {(0, rate): amplitude, (0, mpmath.conj(rate)): mpmath.conj(amplitude),
+                 (0, mpmath.mpc(0)): mpmath.mpf(draw(st.floats(-2, 2)))}
+        if draw(st.booleans()):
+            terms[(1, mpmath.mpc(0))] = mpmath.mpf(draw(st.floats(-50, 50)))
+        if draw(st.booleans()):
+            terms[(0, rate * (1 + mpmath.mpf(10) ** -draw(st.integers(3, 12))))] = -amplitude
+        length = mpmath.mpf(draw(st.sampled_from([1e-4, 1e-3, 1e-2, 0.3]))) / omega * 2
+    return terms, length
+
+
+@settings(max_examples=25, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(st.lists(short_pieces(), min_size=1, max_size=12), st.floats(0.2, 3.0))
+def test_pieces_settled_at_once_are_those_the_enclosure_settles_at_first_look(pieces, level):
+    """The batched first look of the check of extremes (all short pieces of a history at
+    once, stacked and padded) decides exactly as enclose_piece does piece by piece: every
+    piece it settles, enclose_piece proves with the same number of cells (0: the envelope,
+    1: the first cell); every one-cell piece it leaves, enclose_piece does not prove with one
+    cell. The reference is the per-piece routine, whose own correctness the dense search of
+    the test above establishes."""
+    from closedform.checks.extremes import _one_cell, settled_at_once
+
+    preps = {index: prepare(terms, length) for index, (terms, length) in enumerate(pieces)}
+    lengths = [float(length) for _terms, length in pieces]
+    with mpmath.workdps(30):
+        peak = max(abs(_piece_value(terms, length * k / 8)) for terms, length in pieces
+                   for k in range(9))
+    limit = float(peak) * level
+    settled = settled_at_once(preps, lengths, limit)
+    for index, prep in preps.items():
+        alone = enclose_piece(prep, lengths[index], limit)
+        if index in settled:
+            assert alone.proved and alone.cells == settled[index], (index, alone, settled)
+        elif len(prep.c) and _one_cell(prep, lengths[index]):
+            assert not (alone.proved and alone.cells <= 1), (index, alone)
+
+
+def _piece_value(terms, v):
+    return mpmath.re(mpmath.fsum(c * v ** power * mpmath.exp(rate * v)
+                                 for (power, rate), c in terms.items()))

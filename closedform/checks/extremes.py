@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from typing import Any
 
 import mpmath
@@ -96,16 +96,24 @@ def _add_parsed(terms: Terms, parsed, factor) -> None:
                 terms[key] = terms.get(key, 0) + base * c
 
 
-def piece_terms(piece: Any, values: Mapping, parser: Parser) -> Terms:
-    """The piece in its local time v = t − start, read by the verification's parser."""
+def piece_terms(piece: Any, values: Mapping, parser: Parser,
+                modes_read: dict | None = None) -> Terms:
+    """The piece in its local time v = t − start, read by the verification's parser.
+
+    ``modes_read`` keeps each distinct mode's parsed expression for the pieces read with the
+    same parser and values (the pieces of one history share their modes)."""
     terms: Terms = {}
     local = piece.local
+    modes_read = {} if modes_read is None else modes_read
     with mpmath.workdps(PARSE_DIGITS):
         modes = getattr(local, "terms", None)
         if isinstance(modes, Mapping):
             for mode, coefficient in modes.items():
                 c = parser.number(sympy.sympify(coefficient).subs(values))
-                parsed = parser.terms(sympy.sympify(mode.expression(LOCAL_TIME)).subs(values))
+                parsed = modes_read.get(mode)
+                if parsed is None:
+                    parsed = modes_read[mode] = parser.terms(
+                        sympy.sympify(mode.expression(LOCAL_TIME)).subs(values))
                 _add_parsed(terms, parsed, c)
         else:
             _add_parsed(terms, parser.terms(sympy.sympify(local.expression(LOCAL_TIME)).subs(values)), 1)
@@ -126,6 +134,9 @@ def derivative(terms: Terms) -> Terms:
 
 
 def combination(weighted: Sequence[tuple[Any, Terms]]) -> Terms:
+    live = [(weight, terms) for weight, terms in weighted if weight != 0]
+    if len(live) == 1 and live[0][0] == 1:      # x′, x″ alone: the terms as they are
+        return {key: c for key, c in live[0][1].items() if c != 0}
     result: Terms = {}
     with mpmath.workdps(PARSE_DIGITS):
         for weight, terms in weighted:
@@ -265,28 +276,34 @@ def _two_product(a: numpy.ndarray, b: numpy.ndarray) -> tuple[numpy.ndarray, num
 
 
 def _enclose(prep: _Prepared, m: numpy.ndarray, r: numpy.ndarray):
-    """|q(m)|, the bound of |q| on [m − r, m + r], and the rounding margin, per cell."""
+    """|q(m)|, the bound of |q| on [m − r, m + r], and the rounding margin, per cell.
+
+    The terms are one piece's (1-D arrays, shared by every cell) or one row per cell
+    (2-D arrays from ``_stacked``: each cell on its own piece)."""
     mm = m[:, None]
+    c, p_, sigma, omega_hi, omega_lo, d, delta_, top_abs, top_sigma, pair_ = (
+        x[None, :] if x.ndim == 1 else x for x in (
+            prep.c, prep.p, prep.sigma, prep.omega_hi, prep.omega_lo, prep.d, prep.delta,
+            prep.top_abs, prep.top_sigma, prep.pair))
     powers = bool(numpy.any(prep.p))
     pairs = bool(numpy.any(prep.pair))
     growing = bool(numpy.any(prep.sigma)) or (pairs and bool(numpy.any(prep.top_sigma)))
     with numpy.errstate(over="ignore", invalid="ignore", divide="ignore"):
-        theta, theta_err = _two_product(prep.omega_hi[None, :], mm)
-        theta_err += prep.omega_lo[None, :] * mm
+        theta, theta_err = _two_product(omega_hi, mm)
+        theta_err += omega_lo * mm
         phase = numpy.exp(1j * theta) * (1 + 1j * theta_err)   # |θ_err| ≤ 1e-16·|θ|: cos ≈ 1
-        e = numpy.exp(prep.sigma[None, :] * mm) * phase if growing else phase
-        lam = prep.sigma + 1j * (prep.omega_hi + prep.omega_lo)
-        base = prep.c[None, :] * e
+        e = numpy.exp(sigma * mm) * phase if growing else phase
+        lam = sigma + 1j * (omega_hi + omega_lo)
+        base = c * e
         if powers:
-            p = prep.p[None, :]
-            vp = mm ** p
-            vp1 = numpy.where(p > 0, p * mm ** numpy.maximum(p - 1, 0), 0.0)
+            vp = mm ** p_
+            vp1 = numpy.where(p_ > 0, p_ * mm ** numpy.maximum(p_ - 1, 0), 0.0)
             value = base * vp
-            slope = base * (vp1 + lam[None, :] * vp)
+            slope = base * (vp1 + lam * vp)
         else:
             vp, vp1 = 1.0, 0.0
             value = base
-            slope = base * lam[None, :]
+            slope = base * lam
         size_value = numpy.abs(value).sum(axis=1)
         size_slope = numpy.abs(slope).sum(axis=1)
         q = numpy.real(value.sum(axis=1))
@@ -294,38 +311,37 @@ def _enclose(prep: _Prepared, m: numpy.ndarray, r: numpy.ndarray):
         hi = (m + r)[:, None]
         if growing:
             lo = numpy.maximum(m - r, 0)[:, None]
-            grow_plain = numpy.exp(numpy.maximum(prep.sigma[None, :] * lo, prep.sigma[None, :] * hi))
+            grow_plain = numpy.exp(numpy.maximum(sigma * lo, sigma * hi))
         else:
             grow_plain = 1.0
         if powers:
-            m2 = (numpy.abs(prep.c)[None, :] * grow_plain
-                  * _second(prep.p[None, :], numpy.abs(lam)[None, :], hi)).sum(axis=1)
+            m2 = (numpy.abs(c) * grow_plain * _second(p_, numpy.abs(lam), hi)).sum(axis=1)
         else:
-            m2 = (numpy.abs(prep.c) * numpy.abs(lam) ** 2 * grow_plain).sum(axis=-1) \
-                if growing else numpy.full(len(m), float(numpy.sum(numpy.abs(prep.c) * numpy.abs(lam) ** 2)))
+            m2 = (numpy.abs(c) * numpy.abs(lam) ** 2 * grow_plain).sum(axis=-1) \
+                if growing else numpy.broadcast_to(
+                    (numpy.abs(c) * numpy.abs(lam) ** 2).sum(axis=-1), m.shape)
         if pairs:
             # pairs: D·vᵖ·e^(λv)·E(v), E = expm1(δv)/δ, E′ = 1 + δE
-            pair = prep.pair[None, :]
-            dv = prep.delta[None, :] * mm
+            dv = delta_ * mm
             small = numpy.abs(dv) < 1e-8
-            delta = numpy.where(prep.pair, prep.delta, 1.0)[None, :]
+            delta = numpy.where(pair_, delta_, 1.0)
             big_e = numpy.where(small, mm * (1 + dv / 2 + dv * dv / 6), numpy.expm1(dv) / delta)
-            pe = prep.d[None, :] * e
-            pair_value = numpy.where(pair, pe * vp * big_e, 0)
-            pair_slope = numpy.where(pair, pe * ((vp1 + lam[None, :] * vp) * big_e
-                                                 + vp * (1 + prep.delta[None, :] * big_e)), 0)
+            pe = d * e
+            pair_value = numpy.where(pair_, pe * vp * big_e, 0)
+            pair_slope = numpy.where(pair_, pe * ((vp1 + lam * vp) * big_e
+                                                  + vp * (1 + delta_ * big_e)), 0)
             q = q + numpy.real(pair_value.sum(axis=1))
             dq = dq + numpy.real(pair_slope.sum(axis=1))
             lo = numpy.maximum(m - r, 0)[:, None]
-            grow_top = numpy.exp(numpy.maximum(prep.top_sigma[None, :] * lo, prep.top_sigma[None, :] * hi))
-            m2 = m2 + numpy.where(pair, numpy.abs(prep.d)[None, :] * grow_top
-                                  * _second(prep.p[None, :] + 1, prep.top_abs[None, :], hi), 0).sum(axis=1)
+            grow_top = numpy.exp(numpy.maximum(top_sigma * lo, top_sigma * hi))
+            m2 = m2 + numpy.where(pair_, numpy.abs(d) * grow_top
+                                  * _second(p_ + 1, top_abs, hi), 0).sum(axis=1)
             size_value = size_value + numpy.abs(pair_value).sum(axis=1)
             size_slope = size_slope + numpy.abs(pair_slope).sum(axis=1)
         size = size_value + r * size_slope
-        scale = 8 + float(numpy.max(prep.p, initial=0.0))
+        scale = 8 + numpy.max(p_, axis=-1, initial=0.0)
         if growing:
-            scale = scale + numpy.max(numpy.abs(prep.sigma)[None, :] * mm, axis=1, initial=0.0)
+            scale = scale + numpy.max(numpy.abs(sigma) * mm, axis=1, initial=0.0)
         margin = ROUNDING * scale * size + ROUNDING * (m2 * r * r)
         bound = numpy.abs(q) + numpy.abs(dq) * r + m2 * r * r / 2
     return numpy.abs(q), bound, margin
@@ -365,6 +381,72 @@ def _raw_envelope(terms: Terms, length: float) -> float:
     except OverflowError:
         return math.inf
     return total if math.isfinite(total) else math.inf
+
+
+def _stacked(preps: Sequence[_Prepared]) -> _Prepared:
+    """Prepared pieces as the rows of 2-D arrays, one row a piece, padded with terms of zero
+    coefficient, rate and power (which add nothing to a value, slope, bound or margin)."""
+    width = max(len(prep.c) for prep in preps)
+    arrays = []
+    for field in fields(_Prepared):
+        first = getattr(preps[0], field.name)
+        stacked = numpy.zeros((len(preps), width), dtype=first.dtype)
+        for row, prep in enumerate(preps):
+            column = getattr(prep, field.name)
+            stacked[row, :len(column)] = column
+        arrays.append(stacked)
+    return _Prepared(*arrays)
+
+
+def _envelopes(prep: _Prepared, hi: numpy.ndarray) -> numpy.ndarray:
+    """``_envelope(piece, 0, hi)`` of each row of stacked pieces at once (inf where it
+    overflows)."""
+    hi = hi[:, None]
+    with numpy.errstate(over="ignore", invalid="ignore"):
+        plain = numpy.abs(prep.c) * numpy.exp(numpy.maximum(prep.sigma * 0.0, prep.sigma * hi)) \
+            * hi ** prep.p
+        pair = numpy.where(prep.pair, numpy.abs(prep.d) * hi ** (prep.p + 1) * numpy.exp(
+            numpy.maximum(prep.top_sigma * 0.0, prep.top_sigma * hi)), 0.0)
+        total = numpy.sum(plain, axis=1) + numpy.sum(pair, axis=1)
+    return numpy.where(numpy.isfinite(total), total, numpy.inf)
+
+
+def _one_cell(prep: _Prepared, length: float) -> bool:
+    """Whether enclose_piece covers the piece with a single cell at the start."""
+    fastest = float(numpy.max(numpy.abs(prep.sigma + 1j * prep.omega_hi)))
+    fastest = max(fastest, float(numpy.max(prep.top_abs)))
+    if not math.isfinite(fastest):
+        return False           # enclose_piece says why
+    return fastest * length <= 1 or math.ceil(length / (1.0 / fastest)) <= 1
+
+
+def settled_at_once(preps: Mapping[int, _Prepared], lengths: Sequence[float], limit: float
+                    ) -> dict[int, int]:
+    """{piece: cells} for the pieces that enclose_piece would prove with its first look,
+    worked out for all of them at once: short pieces (one cell across the piece, as in most
+    of a long history) whose envelope or first cell already stays below the limit. Every
+    other piece is left to enclose_piece, which then does exactly what it would have done;
+    the numbers and the decisions are those of enclose_piece, only batched."""
+    chosen = [index for index, prep in preps.items()
+              if len(prep.c) and _one_cell(prep, lengths[index])]
+    settled: dict[int, int] = {}
+    for begin in range(0, len(chosen), BLOCK):
+        block = chosen[begin:begin + BLOCK]
+        stacked = _stacked([preps[index] for index in block])
+        width = numpy.array([lengths[index] for index in block])
+        envelope = _envelopes(stacked, width)
+        at_once = envelope * (1 + 64 * ROUNDING) <= limit
+        m = 0.5 * width
+        r = width / 2 * (1 + 1e-12)
+        value, bound, margin = _enclose(stacked, m, r)
+        closed = (numpy.isfinite(bound) & numpy.isfinite(margin) & ~(value - margin > limit)
+                  & ~(bound + margin > limit))
+        for index, envelope_below, cell_closed in zip(block, at_once, closed):
+            if envelope_below:
+                settled[index] = 0
+            elif cell_closed:
+                settled[index] = 1
+    return settled
 
 
 @dataclass(frozen=True)
@@ -431,7 +513,9 @@ def _pieces(derivation, values: Mapping) -> list[tuple[mpmath.mpf, mpmath.mpf, T
         starts = [_number(p.start, values) for p in pieces]
         until = _number(derivation.window.until, values)
     ends = starts[1:] + [until]
-    return [(a, b, piece_terms(p, values, parser)) for a, b, p in zip(starts, ends, pieces)]
+    modes_read: dict = {}
+    return [(a, b, piece_terms(p, values, parser, modes_read))
+            for a, b, p in zip(starts, ends, pieces)]
 
 
 def _load_terms(case, pieces, values: Mapping) -> list[Terms]:
@@ -561,13 +645,28 @@ def _run(extreme, pieces, quantity, slopes) -> tuple[bool, str]:
         return False, (f"{INCONCLUSIVE}: the enclosure works in double precision and the "
                        f"reported |value| {_show(size)} overflows the float range")
     cells = 0
-    for (a, b, _terms), terms in zip(pieces, quantity):
-        length = float(b - a)
+    lengths = [float(b - a) for a, b, _terms in pieces]
+    # Σ|C|·vᵖ·e^(Re λ·v) bounds |q| on the whole piece: where it stays below, nothing to enclose
+    enveloped = [length >= 0 and _raw_envelope(terms, length) * (1 + 64 * ROUNDING) <= limit
+                 for length, terms in zip(lengths, quantity)]
+    preps: dict[int, _Prepared] = {}
+    for index, ((a, b, _terms), terms) in enumerate(zip(pieces, quantity)):
+        if lengths[index] >= 0 and not enveloped[index]:
+            try:
+                preps[index] = prepare(terms, b - a)
+            except (ArithmeticError, ValueError):
+                break              # raised again below, in its turn
+    settled = settled_at_once(preps, lengths, limit)
+    for index, ((a, b, _terms), terms) in enumerate(zip(pieces, quantity)):
+        length = lengths[index]
         if length < 0:
             return False, f"piece at t = {_show(a)} s has a negative length"
-        if _raw_envelope(terms, length) * (1 + 64 * ROUNDING) <= limit:
-            continue       # Σ|C|·vᵖ·e^(Re λ·v) bounds |q| on the whole piece: nothing to enclose
-        prep = prepare(terms, b - a)
+        if index in settled:
+            cells += settled[index]
+            continue
+        if enveloped[index]:
+            continue
+        prep = preps[index] if index in preps else prepare(terms, b - a)
         result = enclose_piece(prep, length, limit)
         cells += result.cells
         if not result.proved:
