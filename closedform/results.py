@@ -441,6 +441,191 @@ class _Candidate:
     error: float
 
 
+def _ends_one_by_one(evaluator: FloatEvaluator, interval: Interval):
+    """(ends, float values, errors, distinct) of one interval's ends (one-sided values)."""
+    length = interval.end - interval.start
+    ends: list[tuple[float, Literal["start", "end"]]] = \
+        [(0.0, "start")] if (length <= 0 or evaluator.empty) else \
+        [(0.0, "start"), (float(length), "end")]
+    points = numpy.array([u for u, _ in ends])
+    with numpy.errstate(over="ignore", invalid="ignore"):
+        values = evaluator(points, orders=1)[0]
+        errors = _float_error(evaluator, points)
+    return ends, values.tolist(), errors.tolist(), _float_distinct(evaluator, interval.function)
+
+
+@dataclass(frozen=True)
+class FirstLook:
+    """What extreme_magnitude first needs of every interval, worked out for all of them at
+    once in float64 arrays: the one-sided values at the ends with their float error, whether
+    float64 keeps the exponents apart, and the Taylor bound of |f| over the interval. The
+    numbers are those of FloatEvaluator, _float_error, _float_distinct and _taylor_bound:
+    the same float groups Σ_k u^k (A_k cos ωu + B_k sin ωu) e^(σu), the coefficients of a
+    group summed in the order of the rows, the same formulas (sums over groups may be taken
+    in another order: a difference of rounding, inside the float error allowed). Intervals
+    listed in ``apart`` (a number outside the float range) are left to those functions."""
+
+    ends: list[list[tuple[float, str]]]
+    values: list[list[float]]
+    errors: list[list[float]]
+    distinct: list[bool]
+    bounds: list[float]
+    apart: frozenset[int]
+
+
+def _exact_key(number) -> object:
+    """A hashable key equal for equal real numbers (mpf by its mantissa and exponent)."""
+    if isinstance(number, mpmath.mpf):
+        return number._mpf_
+    if isinstance(number, (int, float)):
+        return mpmath.mpf(number)._mpf_
+    return number
+
+
+@dataclass(frozen=True)
+class _FloatGroups:
+    """The float groups of many intervals side by side: group g belongs to interval
+    ``owner[g]`` and holds Σ_k u^k (A[g, k] cos ωu + B[g, k] sin ωu) e^(σu); ``orders`` are
+    (A, B) of f, f′, f″ (_groups and _derivatives, for every group at once)."""
+
+    owner: numpy.ndarray
+    rate: numpy.ndarray
+    frequency: numpy.ndarray
+    orders: list[tuple[numpy.ndarray, numpy.ndarray]]
+
+
+def _float_rows(intervals: Sequence[Interval]):
+    """The rows of every interval in floats, (owner, power, σ, ω, is sine, c) lists; the
+    intervals with a number outside the float range (``apart``); the intervals whose float
+    (σ, ω) stands for two exact ones elsewhere (``merged``: float64 cannot tell them apart)."""
+    floats: dict[int, tuple[object, float]] = {}     # rates and frequencies shared by rows
+
+    def shared(number) -> float:
+        kept = floats.get(id(number))
+        if kept is None or kept[0] is not number:
+            kept = floats[id(number)] = (number, float(number))
+        return kept[1]
+
+    columns: tuple[list, ...] = ([], [], [], [], [], [])
+    exact: dict[tuple, set] = {}      # float (σ, ω) → the exact pairs behind it
+    users: dict[tuple, set] = {}      # float (σ, ω) → the intervals that use it
+    apart: set[int] = set()
+    for index, interval in enumerate(intervals):
+        read = [((shared(r), shared(w)), float(c), r, w, p, kind)
+                for p, r, w, kind, c in interval.function.rows]
+        if not all(math.isfinite(key[0]) and math.isfinite(key[1]) and math.isfinite(c)
+                   for key, c, *_ in read):
+            apart.add(index)          # one by one, as FloatEvaluator and its helpers do
+            continue
+        for key, c, r, w, p, kind in read:
+            exact.setdefault(key, set()).add((_exact_key(r), _exact_key(w)))
+            users.setdefault(key, set()).add(index)
+            for column, item in zip(columns, (index, p, key[0], key[1], kind == SIN, c)):
+                column.append(item)
+    merged = set().union(*[users[key] for key, pairs in exact.items() if len(pairs) > 1])
+    return columns, frozenset(apart), merged
+
+
+def _grouped(columns) -> _FloatGroups:
+    """The rows gathered by (interval, σ, ω), the coefficients of a group summed in the
+    order of its rows as _groups does, and the groups of f′ and f″ as _derivatives forms
+    them: A′_k = (k+1)A_(k+1) + σA_k + ωB_k, B′_k = (k+1)B_(k+1) + σB_k − ωA_k."""
+    owner, power, rate, frequency, sine, coefficient = (numpy.array(c) for c in columns)
+    order = numpy.lexsort((frequency, rate, owner))      # stable: rows keep their order
+    owner, power, rate = owner[order], power[order], rate[order]
+    frequency, sine, coefficient = frequency[order], sine[order], coefficient[order]
+    new = numpy.ones(len(order), dtype=bool)
+    new[1:] = (owner[1:] != owner[:-1]) | (rate[1:] != rate[:-1]) \
+        | (frequency[1:] != frequency[:-1])
+    group = numpy.cumsum(new) - 1
+    heads = numpy.flatnonzero(new)
+    top = int(power.max()) + 1
+    a = numpy.zeros((len(heads), top))
+    b = numpy.zeros((len(heads), top))
+    numpy.add.at(a, (group[~sine], power[~sine]), coefficient[~sine])
+    numpy.add.at(b, (group[sine], power[sine]), coefficient[sine])
+    sigma, omega = rate[heads][:, None], frequency[heads][:, None]
+    steps = numpy.arange(1, top, dtype=float)
+    orders = [(a, b)]
+    for _ in range(2):
+        a, b = orders[-1]
+        next_a, next_b = numpy.zeros_like(a), numpy.zeros_like(b)
+        next_a[:, :-1] = steps * a[:, 1:]
+        next_b[:, :-1] = steps * b[:, 1:]
+        orders.append((next_a + sigma * a + omega * b, next_b + sigma * b - omega * a))
+    return _FloatGroups(owner[heads], rate[heads], frequency[heads], orders)
+
+
+def _horner_rows(coefficients: numpy.ndarray, u: numpy.ndarray) -> numpy.ndarray:
+    total = coefficients[:, -1].copy()
+    for k in range(coefficients.shape[1] - 2, -1, -1):
+        total = total * u + coefficients[:, k]
+    return total
+
+
+def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
+    """The FirstLook of the intervals (None for none)."""
+    if not intervals:
+        return None
+    count = len(intervals)
+    length = numpy.array([float(i.end - i.start) for i in intervals])
+    columns, apart, merged = _float_rows(intervals)
+    apart = apart | frozenset(numpy.flatnonzero(~numpy.isfinite(length)).tolist())
+    empty = numpy.bincount(numpy.array(columns[0], dtype=int), minlength=count) == 0
+    values0 = values1 = sizes0 = sizes1 = numpy.zeros(count)
+    bounds = numpy.where(length >= 0, 0.0, math.inf)     # nothing to bound without rows
+    scale = numpy.full(count, math.inf)
+    with numpy.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        if columns[0]:
+            groups = _grouped(columns)
+            owner, sigma, omega = groups.owner, groups.rate, groups.frequency
+            (a, b), (a1, _b1), (a2, b2) = groups.orders
+            u = length[owner]
+            growth = numpy.where(sigma != 0, numpy.exp(sigma * u), 1.0)
+            at_end = numpy.where(omega != 0,
+                                 _horner_rows(a, u) * (numpy.cos(omega * u) * growth)
+                                 + _horner_rows(b, u) * (numpy.sin(omega * u) * growth),
+                                 _horner_rows(a, u) * growth)
+            size_parts = numpy.abs(a) + numpy.abs(b)
+            values0 = numpy.bincount(owner, a[:, 0], count)       # u = 0: the constants
+            values1 = numpy.bincount(owner, at_end, count)
+            sizes0 = numpy.bincount(owner, size_parts[:, 0], count)
+            sizes1 = numpy.bincount(owner, _horner_rows(size_parts, u) * numpy.exp(sigma * u),
+                                    count)
+            # _taylor_bound: |f(0)| + L·|f′(0)| + L²/2 · sup|f″|, and its rounding allowance
+            value_size = numpy.bincount(owner, numpy.abs(a[:, 0]), count)
+            slope = numpy.bincount(owner, a1[:, 0], count)
+            slope_size = numpy.bincount(owner, numpy.abs(a1[:, 0]), count)
+            powers = u[:, None] ** numpy.arange(a.shape[1], dtype=float)
+            curvature = numpy.bincount(owner, ((numpy.abs(a2) + numpy.abs(b2)) * powers).sum(axis=1)
+                                       * numpy.exp(numpy.maximum(0.0, sigma * u)), count)
+            rest = length * slope_size + length * length / 2 * curvature
+            bounds = numpy.abs(values0) + length * numpy.abs(slope) \
+                + length * length / 2 * curvature + 1e-12 * (value_size + rest)
+            bounds = numpy.where(numpy.isfinite(bounds) & (length >= 0), bounds, math.inf)
+            # the fastest time scale of each interval (fastest_time_scale of its groups)
+            period = numpy.where(omega != 0, 2 * math.pi / numpy.abs(omega), math.inf)
+            decay = numpy.where(sigma != 0, 1 / numpy.abs(sigma), math.inf)
+            numpy.minimum.at(scale, owner, numpy.minimum(period, decay))
+        fastest = numpy.where(scale == math.inf, 0.0, 2 * math.pi / scale)
+        errors0 = sizes0 * (FLOAT_ERROR + 4 * 2.0 ** -52)               # _float_error at 0
+        errors1 = sizes1 * (FLOAT_ERROR + 4 * 2.0 ** -52 * (1 + fastest * numpy.abs(length)))
+    distinct = [index not in merged or _float_distinct(FloatEvaluator(interval.function),
+                                                       interval.function)
+                for index, interval in enumerate(intervals)]
+    ends, values, errors = [], [], []
+    for index in range(count):
+        if length[index] <= 0 or empty[index]:
+            ends.append([(0.0, "start")])
+            values.append([float(values0[index])])
+            errors.append([float(errors0[index])])
+        else:
+            ends.append([(0.0, "start"), (float(length[index]), "end")])
+            values.append([float(values0[index]), float(values1[index])])
+            errors.append([float(errors0[index]), float(errors1[index])])
+    return FirstLook(ends, values, errors, distinct, bounds.tolist(), apart)
+
+
 def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     """max |f| over the intervals, signed, at the earliest time it is reached.
 
@@ -452,29 +637,36 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     within PEAK_TOLERANCE of the 30-digit maximum is reported.
     """
     found: list[_Candidate] = []
-    evaluators: list[FloatEvaluator] = []
+    evaluators: dict[int, FloatEvaluator] = {}
+
+    def evaluator_of(index: int) -> FloatEvaluator:
+        if index not in evaluators:
+            evaluators[index] = FloatEvaluator(intervals[index].function)
+        return evaluators[index]
+
     best = 0.0
+    look = first_look(intervals)
     for index, interval in enumerate(intervals):
-        evaluator = FloatEvaluator(interval.function)
-        evaluators.append(evaluator)
-        length = interval.end - interval.start
-        ends: list[tuple[float, Literal["start", "end"]]] = \
-            [(0.0, "start")] if (length <= 0 or evaluator.empty) else \
-            [(0.0, "start"), (float(length), "end")]
-        points = numpy.array([u for u, _ in ends])
-        with numpy.errstate(over="ignore", invalid="ignore"):
-            values = evaluator(points, orders=1)[0]
-            errors = _float_error(evaluator, points)
-        if not _float_distinct(evaluator, interval.function):
-            values = errors = numpy.full(len(ends), math.inf)   # 30 digits decide
+        if look is None or index in look.apart:
+            ends, values, errors, distinct = _ends_one_by_one(evaluator_of(index), interval)
+        else:
+            ends = look.ends[index]
+            values, errors = look.values[index], look.errors[index]
+            distinct = look.distinct[index]
+        if not distinct:
+            values = errors = [math.inf] * len(ends)     # 30 digits decide
         for (u, kind), value, error in zip(ends, values, errors):
             found.append(_Candidate(index, kind, u, None, float(value), float(error)))
-            if numpy.isfinite(value) and numpy.isfinite(error) and error <= 1e-6 * abs(value):
+            if math.isfinite(value) and math.isfinite(error) and error <= 1e-6 * abs(value):
                 best = max(best, abs(float(value)) - float(error))   # a value float can see
     for index, interval in enumerate(intervals):
-        if best > 0 and _float_distinct(evaluators[index], interval.function) and \
-                _taylor_bound(evaluators[index], float(interval.end - interval.start)) \
-                < best * (1 - CANDIDATE_MARGIN):
+        if look is None or index in look.apart:
+            distinct = _float_distinct(evaluator_of(index), interval.function)
+            bound = _taylor_bound(evaluator_of(index), float(interval.end - interval.start)) \
+                if best > 0 and distinct else math.inf
+        else:
+            distinct, bound = look.distinct[index], look.bounds[index]
+        if best > 0 and distinct and bound < best * (1 - CANDIDATE_MARGIN):
             continue    # no point inside can come near a value already reached: no search
         try:
             brackets, _estimates, best, precise_route = interval_brackets(interval, best)
@@ -488,10 +680,10 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
                 found.append(_Candidate(index, "precise", float((bracket[0] + bracket[1]) / 2),
                                         bracket, math.inf, math.inf))
             continue
-        roots = _float_roots(evaluators[index], brackets)
+        roots = _float_roots(evaluator_of(index), brackets)
         with numpy.errstate(over="ignore", invalid="ignore"):
-            values = evaluators[index](roots, orders=1)[0]
-            errors = _float_error(evaluators[index], roots)
+            values = evaluator_of(index)(roots, orders=1)[0]
+            errors = _float_error(evaluator_of(index), roots)
         for bracket, root, value, error in zip(brackets, roots, values, errors):
             found.append(_Candidate(index, "root", float(root), bracket, float(value),
                                     float(error)))

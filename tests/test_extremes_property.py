@@ -176,3 +176,64 @@ def test_pieces_settled_at_once_are_those_the_enclosure_settles_at_first_look(pi
 def _piece_value(terms, v):
     return mpmath.re(mpmath.fsum(c * v ** power * mpmath.exp(rate * v)
                                  for (power, rate), c in terms.items()))
+
+
+@st.composite
+def interval_lists(draw):
+    """Intervals of a long history as the peak search sees them: rows with powers, sine and
+    cosine parts, repeated modes (a derivative's rows), non-oscillating and growing terms,
+    an empty or zero-length interval, and sometimes two rates that are distinct at 30 digits
+    but one number in float64."""
+    from closedform.results import Interval
+
+    with mpmath.workdps(40):
+        omega = mpmath.mpf(draw(st.floats(0.5, 300.0)))
+        sigma = mpmath.mpf(draw(st.floats(-20.0, 3.0)))
+        near = sigma * (1 + mpmath.mpf(10) ** -25)        # float64 cannot tell it from sigma
+        zero = mpmath.mpf(0)
+        intervals, start = [], mpmath.mpf(0)
+        for _ in range(draw(st.integers(1, 8))):
+            rows = []
+            for _ in range(draw(st.integers(0, 7))):
+                rate, frequency = draw(st.sampled_from(
+                    [(sigma, omega), (zero, zero), (sigma, zero), (zero, omega)]
+                    + ([(near, omega)] if draw(st.booleans()) else [])))
+                rows.append((draw(st.integers(0, 2)), rate, frequency,
+                             draw(st.sampled_from(["cos", "sin"])),
+                             mpmath.mpf(draw(st.floats(-1e3, 1e3)))))
+            length = mpmath.mpf(draw(st.sampled_from([0.0, 1e-4, 1e-2, 0.5, 3.0])))
+            intervals.append(Interval(start, start + length,
+                                      NumericExponentialPolynomial(tuple(rows), 30)))
+            start += length
+    return intervals
+
+
+@settings(max_examples=60, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(interval_lists())
+def test_first_look_of_all_intervals_is_that_of_each_interval_alone(intervals):
+    """The batched first look of the peak search (float values and errors at the interval
+    ends, float distinctness of the exponents, Taylor bound) gives, interval by interval,
+    the numbers of FloatEvaluator, _float_error, _float_distinct and _taylor_bound on that
+    interval alone: the same decisions, the values to rounding (sums in another order)."""
+    from closedform.results import (
+        FloatEvaluator,
+        _ends_one_by_one,
+        _taylor_bound,
+        first_look,
+    )
+
+    look = first_look(intervals)
+    for index, interval in enumerate(intervals):
+        evaluator = FloatEvaluator(interval.function)
+        ends, values, errors, distinct = _ends_one_by_one(evaluator, interval)
+        assert look.ends[index] == ends
+        assert look.distinct[index] == distinct
+        size = max([1.0] + [abs(c) for *_, c in (
+            (p, r, w, k, float(c)) for p, r, w, k, c in interval.function.rows)])
+        for got, want in zip(look.values[index], values):
+            assert got == pytest.approx(want, rel=1e-13, abs=1e-13 * size)
+        for got, want in zip(look.errors[index], errors):
+            assert got == pytest.approx(want, rel=1e-12)
+        bound = _taylor_bound(evaluator, float(interval.end - interval.start))
+        assert look.bounds[index] == pytest.approx(bound, rel=1e-12) or \
+            (math.isinf(bound) and math.isinf(look.bounds[index]))
