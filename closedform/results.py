@@ -511,7 +511,7 @@ def _float_rows(intervals: Sequence[Interval]):
     users: dict[tuple, set] = {}      # float (σ, ω) → the intervals that use it
     apart: set[int] = set()
     for index, interval in enumerate(intervals):
-        read = [((shared(r), shared(w)), float(c), r, w, p, kind)
+        read = [((shared(r), shared(w)), float(c), r, w, p, kind)  # type: ignore[arg-type]
                 for p, r, w, kind, c in interval.function.rows]
         if not all(math.isfinite(key[0]) and math.isfinite(key[1]) and math.isfinite(c)
                    for key, c, *_ in read):
@@ -572,7 +572,8 @@ def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
     columns, apart, merged = _float_rows(intervals)
     apart = apart | frozenset(numpy.flatnonzero(~numpy.isfinite(length)).tolist())
     empty = numpy.bincount(numpy.array(columns[0], dtype=int), minlength=count) == 0
-    values0 = values1 = sizes0 = sizes1 = numpy.zeros(count)
+    values0: numpy.ndarray = numpy.zeros(count)
+    values1, sizes0, sizes1 = values0, values0, values0
     bounds = numpy.where(length >= 0, 0.0, math.inf)     # nothing to bound without rows
     scale = numpy.full(count, math.inf)
     with numpy.errstate(over="ignore", invalid="ignore", divide="ignore"):
