@@ -86,10 +86,21 @@ def _poly_from_factors(factors) -> list:
     return coefficients
 
 
+class _Rate(mpmath.mpc):
+    """An exponent λ as it keys the terms: equal to, and hashed as, the mpc of the same
+    value, its hash worked out once (the terms of every piece and order are keyed by it)."""
+
+    def __hash__(self) -> int:
+        kept = self.__dict__.get("hash")
+        if kept is None:
+            kept = self.__dict__["hash"] = mpmath.mpc.__hash__(self)
+        return kept
+
+
 def _add_parsed(terms: Terms, parsed, factor) -> None:
     for term in parsed:
         base = factor * term.coefficient * mpmath.exp(term.offset)
-        rate = mpmath.mpc(term.rate)
+        rate = _Rate(term.rate)
         for power, c in enumerate(_poly_from_factors(term.factors)):
             if c != 0:
                 key = (power, rate)
@@ -221,42 +232,88 @@ def _split(value) -> tuple[float, float]:
     return hi, float(value - mpmath.mpf(hi))
 
 
+@dataclass(frozen=True)
+class _Plan:
+    """How prepare arranges the terms of a set of keys on a piece of a given length: the
+    keys in order, which are combined in pairs, and every array that depends on the
+    exponents alone (the pieces of one history share their keys, and mostly their length)."""
+
+    keys: tuple                    # the keys in prepare's order, a pair's partner after it
+    partners: tuple                # per row: the index in keys of the partner, or None
+    deltas: tuple                  # per row: δ = λ₂ − λ₁ (mpmath), 0 for a plain term
+    arrays: dict
+
+
+_PLANS: dict[tuple, _Plan] = {}
+_PLAN_LIMIT = 512
+
+
+def _plan(keys: tuple, length) -> _Plan:
+    items = sorted(keys, key=lambda key: (key[0], float(mpmath.re(key[1])),
+                                          float(mpmath.im(key[1]))))
+    used = [False] * len(items)
+    order, partners, deltas, rows = [], [], [], []
+    for i, (power, rate) in enumerate(items):
+        if used[i]:
+            continue
+        used[i] = True
+        partner = None
+        for j in range(i + 1, len(items)):
+            p2, rate2 = items[j]
+            if not used[j] and p2 == power and abs(rate2 - rate) * length < 1:
+                partner = j
+                break
+        order.append(items[i])
+        if partner is None:
+            partners.append(None)
+            deltas.append(0)
+            rows.append((power, rate, abs(rate), mpmath.re(rate), False))
+            continue
+        used[partner] = True
+        rate2 = items[partner][1]
+        partners.append(len(order))
+        order.append(items[partner])
+        deltas.append(rate2 - rate)
+        rows.append((power, rate, max(abs(rate), abs(rate2)),
+                     max(mpmath.re(rate), mpmath.re(rate2)), True))
+    split = [_split(mpmath.im(r[1])) for r in rows]
+    arrays = {"p": numpy.array([r[0] for r in rows], dtype=float),
+              "sigma": numpy.array([float(mpmath.re(r[1])) for r in rows]),
+              "omega_hi": numpy.array([hi for hi, _lo in split]),
+              "omega_lo": numpy.array([lo for _hi, lo in split]),
+              "delta": numpy.array([complex(d) for d in deltas], dtype=complex),
+              "top_abs": numpy.array([float(r[2]) for r in rows]),
+              "top_sigma": numpy.array([float(r[3]) for r in rows]),
+              "pair": numpy.array([r[4] for r in rows], dtype=bool)}
+    for array in arrays.values():
+        array.flags.writeable = False          # shared by every piece of the plan
+    return _Plan(tuple(order), tuple(partners), tuple(deltas), arrays)
+
+
 def prepare(terms: Terms, length) -> _Prepared:
     """Float arrays of the terms, nearby exponents combined (see the module docstring)."""
     with mpmath.workdps(PARSE_DIGITS):
-        items = sorted(terms.items(), key=lambda kv: (kv[0][0], float(mpmath.re(kv[0][1])),
-                                                      float(mpmath.im(kv[0][1]))))
-        used = [False] * len(items)
-        rows = []
-        for i, ((power, rate), c) in enumerate(items):
-            if used[i]:
-                continue
-            used[i] = True
-            partner = None
-            for j in range(i + 1, len(items)):
-                (p2, rate2), c2 = items[j]
-                if not used[j] and p2 == power and abs(rate2 - rate) * length < 1:
-                    partner = j
-                    break
+        signature = (tuple(terms), length)
+        plan = _PLANS.get(signature)
+        if plan is None:
+            if len(_PLANS) >= _PLAN_LIMIT:
+                _PLANS.clear()
+            plan = _PLANS[signature] = _plan(signature[0], length)
+        c, d = [], []
+        row = 0
+        for partner, delta in zip(plan.partners, plan.deltas):
+            first = terms[plan.keys[row]]
             if partner is None:
-                rows.append((c, power, rate, 0, 0, abs(rate), mpmath.re(rate), False))
+                c.append(complex(first))
+                d.append(0j)
+                row += 1
                 continue
-            used[partner] = True
-            (_p2, rate2), c2 = items[partner]
-            delta = rate2 - rate
-            rows.append((c + c2, power, rate, c2 * delta, delta, max(abs(rate), abs(rate2)),
-                         max(mpmath.re(rate), mpmath.re(rate2)), True))
-        split = [_split(mpmath.im(r[2])) for r in rows]
-        return _Prepared(
-            numpy.array([complex(r[0]) for r in rows], dtype=complex),
-            numpy.array([r[1] for r in rows], dtype=float),
-            numpy.array([float(mpmath.re(r[2])) for r in rows]),
-            numpy.array([s[0] for s in split]), numpy.array([s[1] for s in split]),
-            numpy.array([complex(r[3]) for r in rows], dtype=complex),
-            numpy.array([complex(r[4]) for r in rows], dtype=complex),
-            numpy.array([float(r[5]) for r in rows]),
-            numpy.array([float(r[6]) for r in rows]),
-            numpy.array([r[7] for r in rows], dtype=bool))
+            second = terms[plan.keys[partner]]
+            c.append(complex(first + second))
+            d.append(complex(second * delta))
+            row += 2
+        return _Prepared(numpy.array(c, dtype=complex), d=numpy.array(d, dtype=complex),
+                         **plan.arrays)
 
 
 _SPLITTER = 134217729.0   # 2^27 + 1 (Dekker)
