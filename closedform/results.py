@@ -627,8 +627,16 @@ def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
     return FirstLook(ends, values, errors, distinct, bounds.tolist(), apart)
 
 
+FLOAT_RANGE = 700      # coefficients beyond 2^±this are scaled before the float search
+
+
 def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     """max |f| over the intervals, signed, at the earliest time it is reached.
+
+    The float search needs coefficients well inside the float range (1e-322 is a subnormal
+    with a few bits, and its rounding error is not 1e-16 of it): where the largest lies
+    beyond 2^±FLOAT_RANGE, every coefficient is first multiplied by one power of two, which
+    is exact at every precision, and the extreme scaled back.
 
     Candidates are the interval ends (one-sided values) and the stationary points inside each
     interval, every one of them bracketed alone by the complete search of peaksearch (cells
@@ -637,6 +645,33 @@ def extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     of the largest are refined and evaluated at 30 digits, in time order, and the earliest
     within PEAK_TOLERANCE of the 30-digit maximum is reported.
     """
+    scale = _scale_exponent(intervals)
+    if scale:
+        found = _extreme_magnitude([Interval(i.start, i.end, NumericExponentialPolynomial(
+            tuple((p, r, w, k, mpmath.ldexp(c, -scale)) for p, r, w, k, c in i.function.rows),
+            i.function.digits)) for i in intervals])
+        if found is None:
+            return None
+        value = mpmath.ldexp(found.value_mp, scale)
+        return Extreme(float(value), found.time, value, found.time_mp)
+    return _extreme_magnitude(intervals)
+
+
+def _scale_exponent(intervals: Sequence[Interval]) -> int:
+    """The power of two that brings the largest coefficient near 1, or 0 where it lies
+    inside 2^±FLOAT_RANGE (or there are none, or they are not all real mpmath numbers)."""
+    largest = None       # 2^(exponent + bits) bounds |c| (mpmath's sign, mantissa, exponent, bits)
+    for interval in intervals:
+        for *_mode, c in interval.function.rows:
+            if not isinstance(c, mpmath.mpf) or not mpmath.isfinite(c):
+                return 0
+            _sign, mantissa, exponent, bits = c._mpf_
+            if mantissa and (largest is None or exponent + bits > largest):
+                largest = exponent + bits
+    return largest if largest is not None and abs(largest) > FLOAT_RANGE else 0
+
+
+def _extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
     found: list[_Candidate] = []
     evaluators: dict[int, FloatEvaluator] = {}
 

@@ -114,6 +114,20 @@ def _compare(case):
     assert proof.proved, proof
 
 
+@pytest.mark.parametrize("size", ["4.9406564584124654e-322", "1e-250", "1e280"])
+def test_peak_of_coefficients_far_out_in_the_float_range(size):
+    """Two beating modes with amplitudes at the edge of float64 (4.9e-322 is a subnormal of
+    a few bits, found by the random search below): the float search lost the beat maximum,
+    7.04e-322 at t ≈ 16.49, and reported the start value, until the coefficients were scaled
+    by a power of two before it. (The check's enclosure refused the wrong value.)"""
+    with mpmath.workdps(DIGITS):
+        c = mpmath.mpf(size)
+        zero, one, near = mpmath.mpf(0), mpmath.mpf(1), mpmath.mpf("1.001")
+        rows = ((0, zero, one, "cos", c), (0, zero, one, "sin", zero),
+                (0, zero, near, "cos", zero), (0, zero, near, "sin", c))
+    _compare((rows, mpmath.mpf("18.830725196342417")))
+
+
 @settings(max_examples=12, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(functions())
 def test_peak_of_random_exponential_polynomials(case):
