@@ -12,6 +12,7 @@ breakpoint (the shift), differentiating, and taking the Laplace transform.
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Iterable, Iterator, Mapping
 from dataclasses import dataclass, field
@@ -53,8 +54,15 @@ class BasisTerm:
         return value
 
     def sort_key(self) -> tuple:
-        return (sympy.default_sort_key(self.rate), sympy.default_sort_key(self.frequency),
-                self.kind, self.power)
+        return _mode_sort_key(self)
+
+
+@functools.lru_cache(maxsize=4096)
+def _mode_sort_key(mode: BasisTerm) -> tuple:
+    """A mode's place in a printed sum (the pieces of a history share their modes, and
+    sympy's sort key of an exponent costs more than the rest of printing a piece)."""
+    return (sympy.default_sort_key(mode.rate), sympy.default_sort_key(mode.frequency),
+            mode.kind, mode.power)
 
 
 @dataclass(frozen=True)

@@ -11,6 +11,7 @@ breakpoints.
 
 from __future__ import annotations
 
+import functools
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 
@@ -66,17 +67,23 @@ class Piece:
         if self.numeric is None:
             return str(self.expression(t))
         u = "t" if self.start == 0 else f"(t - {self.start})"
-        terms = []
-        for mode in self.local.modes():
-            factors = [str(self.local.terms[mode])]
-            if mode.power:
-                factors.append(u if mode.power == 1 else f"{u}**{mode.power}")
-            if mode.rate != 0:
-                factors.append(f"exp(({mode.rate})*{u})")
-            if mode.frequency != 0:
-                factors.append(f"{mode.kind}(({mode.frequency})*{u})")
-            terms.append("*".join(factors))
+        terms = [str(self.local.terms[mode]) + _mode_text(mode).replace("{u}", u)
+                 for mode in self.local.modes()]
         return " + ".join(terms).replace("+ -", "- ") if terms else "0"
+
+
+@functools.lru_cache(maxsize=4096)
+def _mode_text(mode: BasisTerm) -> str:
+    """The factors of a mode after its coefficient, ``{u}`` standing for the local time (the
+    pieces of one history share their modes: each is printed by sympy once)."""
+    factors = [""]
+    if mode.power:
+        factors.append("{u}" if mode.power == 1 else f"{{u}}**{mode.power}")
+    if mode.rate != 0:
+        factors.append(f"exp(({mode.rate})*{{u}})")
+    if mode.frequency != 0:
+        factors.append(f"{mode.kind}(({mode.frequency})*{{u}})")
+    return "*".join(factors)
 
 
 @dataclass(frozen=True)

@@ -498,31 +498,28 @@ def _float_rows(intervals: Sequence[Interval]):
     """The rows of every interval in floats, (owner, power, σ, ω, is sine, c) lists; the
     intervals with a number outside the float range (``apart``); the intervals whose float
     (σ, ω) stands for two exact ones elsewhere (``merged``: float64 cannot tell them apart)."""
-    floats: dict[int, tuple[object, float]] = {}     # rates and frequencies shared by rows
-
-    def shared(number) -> float:
-        kept = floats.get(id(number))
-        if kept is None or kept[0] is not number:
-            kept = floats[id(number)] = (number, float(number))
-        return kept[1]
-
-    columns: tuple[list, ...] = ([], [], [], [], [], [])
-    exact: dict[tuple, set] = {}      # float (σ, ω) → the exact pairs behind it
-    users: dict[tuple, set] = {}      # float (σ, ω) → the intervals that use it
+    pairs: dict[tuple[int, int], tuple] = {}   # rates and frequencies are shared by rows
+    exact: dict[tuple, set] = {}               # float (σ, ω) → the exact pairs behind it
+    rows: list[tuple] = []
     apart: set[int] = set()
     for index, interval in enumerate(intervals):
-        read = [((shared(r), shared(w)), float(c), r, w, p, kind)  # type: ignore[arg-type]
-                for p, r, w, kind, c in interval.function.rows]
-        if not all(math.isfinite(key[0]) and math.isfinite(key[1]) and math.isfinite(c)
-                   for key, c, *_ in read):
+        read = []
+        for p, r, w, kind, c in interval.function.rows:
+            kept = pairs.get((id(r), id(w)))
+            if kept is None or kept[0] is not r or kept[1] is not w:
+                kept = pairs[(id(r), id(w))] = (r, w, float(r), float(w))  # type: ignore[arg-type]
+                exact.setdefault(kept[2:], set()).add((_exact_key(r), _exact_key(w)))
+            read.append((index, p, kept[2], kept[3], kind == SIN, float(c)))  # type: ignore[arg-type]
+        if all(math.isfinite(row[2]) and math.isfinite(row[3]) and math.isfinite(row[5])
+               for row in read):
+            rows += read
+        else:
             apart.add(index)          # one by one, as FloatEvaluator and its helpers do
-            continue
-        for key, c, r, w, p, kind in read:
-            exact.setdefault(key, set()).add((_exact_key(r), _exact_key(w)))
-            users.setdefault(key, set()).add(index)
-            for column, item in zip(columns, (index, p, key[0], key[1], kind == SIN, c)):
-                column.append(item)
-    merged = set().union(*[users[key] for key, pairs in exact.items() if len(pairs) > 1])
+    columns = tuple(list(column) for column in zip(*rows)) if rows else ([],) * 6
+    blurred = {key for key, behind in exact.items() if len(behind) > 1}
+    merged = {index for index, interval in enumerate(intervals) if blurred and any(
+        (float(r), float(w)) in blurred  # type: ignore[arg-type]
+        for _p, r, w, _k, _c in interval.function.rows)}
     return columns, frozenset(apart), merged
 
 
