@@ -286,10 +286,18 @@ class NumericCarrier:
     def __init__(self, digits: int = 30) -> None:
         self.digits = digits
         self._parameters: dict[BasisTerm, tuple] = {}
+        self._numbers: dict[sympy.Expr, object] = {}     # the steps of a table repeat
+        self._factors: dict[tuple, tuple] = {}           # e^(σd), cos ωd, sin ωd by (mode, d)
 
     def number(self, value: sympy.Expr):
-        with mpmath.workdps(self.digits + 15):
-            return mpmath.mpf(sympy.Float(sympy.N(value, self.digits + 15), self.digits + 15)._mpf_)
+        kept = self._numbers.get(value)
+        if kept is None:
+            with mpmath.workdps(self.digits + 15):
+                kept = mpmath.mpf(sympy.Float(sympy.N(value, self.digits + 15),
+                                              self.digits + 15)._mpf_)
+            if len(self._numbers) < 4096:
+                self._numbers[value] = kept
+        return kept
 
     def _mode_numbers(self, mode: BasisTerm) -> tuple:
         if mode not in self._parameters:
@@ -305,12 +313,11 @@ class NumericCarrier:
         result: dict[BasisTerm, object] = {}
         with mpmath.workdps(self.digits + 15):
             for mode, coefficient in terms.items():
-                rate, frequency = self._mode_numbers(mode)
-                growth = coefficient * mpmath.exp(rate * delay)
+                exponential, c, s_ = self._shift_factors(mode, delay)
+                growth = coefficient * exponential
                 if mode.frequency == 0:
                     trig_parts = ((COS, 1),)
                 else:
-                    c, s_ = mpmath.cos(frequency * delay), mpmath.sin(frequency * delay)
                     trig_parts = ((COS, c), (SIN, -s_)) if mode.kind == COS else ((SIN, c), (COS, s_))
                 for j in range(mode.power + 1):
                     binomial = comb(mode.power, j) * delay ** (mode.power - j)
@@ -318,6 +325,21 @@ class NumericCarrier:
                         key = BasisTerm(j, mode.rate, mode.frequency, kind)
                         result[key] = result.get(key, 0) + growth * binomial * factor
         return result
+
+    def _shift_factors(self, mode: BasisTerm, delay) -> tuple:
+        """e^(σ·delay), cos(ω·delay), sin(ω·delay) of a mode (at the carrier's digits), once
+        per mode and delay: a table sampled at a fixed step shifts by the same delay each time."""
+        key = (mode.rate, mode.frequency, delay)
+        kept = self._factors.get(key)
+        if kept is None:
+            rate, frequency = self._mode_numbers(mode)
+            kept = (mpmath.exp(rate * delay), None, None) if mode.frequency == 0 else \
+                (mpmath.exp(rate * delay), mpmath.cos(frequency * delay),
+                 mpmath.sin(frequency * delay))
+            if len(self._factors) >= 4096:
+                self._factors.clear()
+            self._factors[key] = kept
+        return kept
 
     def add(self, terms: dict[BasisTerm, object], other: dict[BasisTerm, object], scale) -> dict[BasisTerm, object]:
         """terms + scale·other; a sum that cancels to the guard digits' rounding level (an
@@ -336,8 +358,8 @@ class NumericCarrier:
 
     def exponential_polynomial(self, terms: dict[BasisTerm, object]) -> ExponentialPolynomial:
         """Back to sympy, coefficients as ``digits``-significant-digit Floats."""
-        return ExponentialPolynomial.from_terms(
-            [(mode, sympy.Float(c, self.digits)) for mode, c in terms.items() if c != 0])
+        return ExponentialPolynomial({mode: sympy.Float(c, self.digits)     # modes are distinct
+                                      for mode, c in terms.items() if c != 0})
 
     def numeric_polynomial(self, terms: dict[BasisTerm, object]) -> NumericExponentialPolynomial:
         rows = []

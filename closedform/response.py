@@ -14,6 +14,7 @@ from __future__ import annotations
 import functools
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
+from fractions import Fraction
 
 import sympy
 
@@ -309,6 +310,8 @@ def _numeric_key(time: sympy.Expr, ordering: Mapping | None) -> sympy.Expr:
 def order_times(times, ordering: Mapping | None = None) -> list[sympy.Expr]:
     """Breakpoints sorted exactly; with symbols, by their signs when sympy can tell, else by
     the declared values (the sheet states that the order assumed is the one of the values)."""
+    if all(time.is_Rational for time in times):       # a table's rows: exact, and quick
+        return sorted(times, key=lambda time: Fraction(int(time.p), int(time.q)))
     if all(not time.free_symbols for time in times):
         return sorted(times, key=lambda time: sympy.N(time, 40) if not time.is_Rational else time)
     remaining = list(times)
@@ -338,6 +341,8 @@ def _not_after(a: sympy.Expr, b: sympy.Expr, ordering: Mapping | None) -> bool:
 
 
 def _before(time: sympy.Expr, until: sympy.Expr, ordering: Mapping | None) -> bool:
+    if time.is_Rational and until.is_Rational:
+        return bool(time < until)
     difference = sympy.simplify(until - time)
     if difference.is_positive:
         return True
