@@ -126,7 +126,7 @@ def piecewise_linear_terms(points: Sequence[tuple[sympy.Expr, sympy.Expr]], star
     """
     groups: list[tuple[sympy.Expr, list[sympy.Expr]]] = []
     for time, value in points:
-        if groups and sympy.simplify(time - groups[-1][0]) == 0:
+        if groups and _simplified(time - groups[-1][0]) == 0:
             groups[-1][1].append(value)
         else:
             groups.append((time, [value]))
@@ -135,13 +135,13 @@ def piecewise_linear_terms(points: Sequence[tuple[sympy.Expr, sympy.Expr]], star
     for i, (time, values) in enumerate(groups):
         left = ZERO if i == 0 else values[0]
         right = ZERO if i == len(groups) - 1 else values[-1]
-        jump = sympy.simplify(right - left)
+        jump = _simplified(right - left)
         if i + 1 < len(groups):
             next_time, next_values = groups[i + 1]
-            slope = sympy.simplify((next_values[0] - values[-1]) / (next_time - time))
+            slope = _simplified((next_values[0] - values[-1]) / (next_time - time))
         else:
             slope = ZERO
-        change = sympy.simplify(slope - previous_slope)
+        change = _simplified(slope - previous_slope)
         at = start + time
         if jump != 0:
             terms.append(SingularityTerm(jump, at, STEP, number))
@@ -149,6 +149,12 @@ def piecewise_linear_terms(points: Sequence[tuple[sympy.Expr, sympy.Expr]], star
             terms.append(SingularityTerm(change, at, RAMP, number))
         previous_slope = slope
     return terms
+
+
+def _simplified(value: sympy.Expr) -> sympy.Expr:
+    """sympy.simplify, which leaves a rational number (every row of a table) as it is:
+    asking it costs more than the rest of the rewrite of a long table."""
+    return value if value.is_Rational else sympy.simplify(value)
 
 
 def windowed_terms(shape: ExponentialPolynomial, start: sympy.Expr, duration: sympy.Expr,

@@ -278,6 +278,22 @@ def test_pulse_area_and_centroid(shape, extra, area, centroid):
     assert entry["centroid"] == pytest.approx(0.2 + centroid * 0.4, rel=1e-14)
 
 
+@pytest.mark.parametrize("rows, area, centroid", [
+    ("[0, 0], [0.08, 2000], [0.4, 0]", 400, 0.16),                 # triangle: (0 + a + d)/3
+    ("[0, 0], [0.1, 2000], [0.3, 2000], [0.4, 0]", 600, 0.2),      # symmetric trapezoid
+    ("[0, 0], [0.1, 2000], [0.1, 1000], [0.4, 1000], [0.4, 0]", 400, 49 / 240),  # jump down
+])
+def test_pulse_area_and_centroid_of_a_table(rows, area, centroid):
+    """A table's pulse area ∫f dτ and centroid ∫τf dτ/∫f dτ (plane geometry of the polygon;
+    the last: 100 N·s on [0, 0.1] at 2/3·0.1, 300 N·s on [0.1, 0.4] at 0.25, so
+    (100·0.1·2/3 + 300·0.25)/400 = 49/240), in N·s and s from the start."""
+    load = f'[[load]]\nshape = "table"\nat = "0.2 s"\npoints = [{rows}]\n'
+    derivation = derive_text(smd("50 kg", "20 kN/m", "damping_ratio = 0.1", load, "3 s"))
+    (entry,) = field(derivation, "impulse_idealization")
+    assert entry["area"] == pytest.approx(area, rel=1e-14)
+    assert entry["centroid"] == pytest.approx(0.2 + centroid, rel=1e-12)
+
+
 def test_pulse_alone_is_the_same_for_every_route():
     """Superposition (no source needed): the pulse-alone peak of a pulse is the same whether
     the case is that pulse from rest, the pulse with initial values, or the pulse repeated."""
