@@ -231,9 +231,9 @@ class NumericExponentialPolynomial:
         for power, rate, frequency, kind, c in self.rows:
             if power > 0:
                 rows.append((power - 1, rate, frequency, kind, c * power))
-            if rate != 0:
+            if _nonzero(rate):
                 rows.append((power, rate, frequency, kind, c * rate))
-            if frequency != 0:
+            if _nonzero(frequency):
                 other = SIN if kind == COS else COS
                 sign = -1 if kind == COS else 1
                 rows.append((power, rate, frequency, other, sign * c * frequency))
@@ -242,6 +242,21 @@ class NumericExponentialPolynomial:
     def fastest_scale(self) -> float:
         """The shortest time scale among the modes: a period or a decay time."""
         return fastest_time_scale((rate, frequency) for _p, rate, frequency, _k, _c in self.rows)
+
+
+_ZERO_MPF = mpmath.mpf(0)._mpf_
+
+
+def _nonzero(number) -> bool:
+    """number != 0, for an mpmath real by its (sign, mantissa, exponent, bits) without
+    mpmath's general comparison (the rows of a long history ask it hundreds of thousands
+    of times)."""
+    if type(number) is type(_ONE_MPF):
+        return number._mpf_ != _ZERO_MPF
+    return number != 0
+
+
+_ONE_MPF = mpmath.mpf(1)
 
 
 def fastest_time_scale(modes: Iterable[tuple[object, object]]) -> float:

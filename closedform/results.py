@@ -20,6 +20,7 @@ Everything is SI; ``result_fields`` gives the JSON fields beyond peak, static an
 
 from __future__ import annotations
 
+import functools
 import math
 from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
@@ -97,10 +98,16 @@ def real_number(value: sympy.Expr, subs: Mapping | None = None) -> mpmath.mpf:
     """A real sympy value as an mpmath number at DIGITS + 10 digits."""
     value = sympy.sympify(value)
     if value.is_Rational:          # breakpoints of a long table: skip sympy's evaluation
-        with mpmath.workdps(DIGITS + 10):
-            return mpmath.mpf(value.p) / value.q
+        return _rational_number(int(value.p), int(value.q))
     with mpmath.workdps(DIGITS + 10):
         return mpmath.mpf(str(sympy.N(value.subs(subs or {}), DIGITS + 10)))
+
+
+@functools.lru_cache(maxsize=65536)
+def _rational_number(p: int, q: int) -> mpmath.mpf:
+    """p/q at DIGITS + 10 digits (the breakpoints of a long history are read several times)."""
+    with mpmath.workdps(DIGITS + 10):
+        return mpmath.mpf(p) / q
 
 
 # ----------------------------------------------------------------------------- extremes

@@ -17,9 +17,9 @@ definition may also be registered from outside the package (a test does so).
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
-from fractions import Fraction
 from typing import Any
 
 import sympy
@@ -154,14 +154,18 @@ def polyline_area_and_centroid(points: Points, values: Mapping) -> tuple[sympy.E
     ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6."""
     points = tuple((sympy.sympify(t), sympy.sympify(f)) for t, f in points)
     if all(t.is_Rational and f.is_Rational for t, f in points):
-        # a table's rows: the same sums in exact fractions, without sympy's per-operation cost
-        exact = [(Fraction(int(t.p), int(t.q)), Fraction(int(f.p), int(f.q))) for t, f in points]
-        area_q = moment_q = Fraction(0)
-        for (t0, f0), (t1, f1) in zip(exact, exact[1:]):
-            area_q += (f0 + f1) * (t1 - t0) / 2
-            moment_q += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
-        return centroid(sympy.Rational(area_q.numerator, area_q.denominator),
-                        sympy.Rational(moment_q.numerator, moment_q.denominator))
+        # a table's rows: the same sums in integers over common denominators T and F
+        # (t = τ/T, f = φ/F), exact, without sympy's or Fraction's cost per operation
+        times_q = math.lcm(*(int(t.q) for t, _f in points))
+        values_q = math.lcm(*(int(f.q) for _t, f in points))
+        tau = [int(t.p) * (times_q // int(t.q)) for t, _f in points]
+        phi = [int(f.p) * (values_q // int(f.q)) for _t, f in points]
+        area_n = moment_n = 0
+        for t0, t1, f0, f1 in zip(tau, tau[1:], phi, phi[1:]):
+            area_n += (f0 + f1) * (t1 - t0)
+            moment_n += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1))
+        return centroid(sympy.Rational(area_n, 2 * times_q * values_q),
+                        sympy.Rational(moment_n, 6 * times_q * times_q * values_q))
     area, moment = sympy.S.Zero, sympy.S.Zero
     points = tuple((t.subs(values), f.subs(values)) for t, f in points)
     for (t0, f0), (t1, f1) in zip(points, points[1:]):
