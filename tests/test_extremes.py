@@ -302,6 +302,46 @@ def test_mutation_of_a_derived_quantity_is_refused():
     assert checks["extreme peak"].passed
 
 
+def test_a_smaller_value_at_a_breakpoint_of_a_long_history_is_refused(monkeypatch):
+    """A consistent but wrong report on a long table (the route whose short pieces the
+    check settles in one batch): the value of x at a breakpoint in the middle, well below
+    the peak, reported as the peak at that time. The value and the time check out (an
+    interval end), so only the enclosure can refuse it, and it must, while the batch still
+    settles the pieces it can."""
+    rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, 60) else 200 + 150 * math.sin(i / 3):.2f}]"
+                     for i in range(61))
+    derivation = derive_text(f"""
+        title = "long table"
+        [system]
+        model = "spring-mass-damper"
+        mass = "40 kg"
+        stiffness = "250 kN/m"
+        damping_ratio = 0.04
+        [[load]]
+        shape = "table"
+        points = [{rows}]
+        [report]
+        until = "0.4 s"
+    """)
+    assert derivation.passed and len(derivation.pieces) > 40
+    peak = derivation.numbers.peak
+    starts = [float(p.start) for p in derivation.pieces]
+    values = derivation.evaluate(starts, precise=True)
+    index = next(i for i in range(len(starts) // 2, len(starts))
+                 if 0 < abs(values[i]) < 0.9 * abs(peak.value))
+    at = mpmath.mpf(derivation.pieces[index].start.p) / derivation.pieces[index].start.q
+    value = mpmath.mpf(values[index])
+    wrong = dataclasses.replace(peak, value=float(value), time=float(at), value_mp=value,
+                                time_mp=at)
+    settled = []
+    batch = extremes.settled_at_once
+    monkeypatch.setattr(extremes, "settled_at_once",
+                        lambda *a: settled.append(batch(*a)) or settled[-1])
+    check = _checks_for(derivation, peak=wrong)["extreme peak"]
+    assert not check.passed and "exceeds the reported" in check.detail
+    assert settled and settled[0], "the batch settled nothing: the route was not exercised"
+
+
 def test_wrong_peak_makes_the_derivation_failed(monkeypatch):
     import closedform.results as results
 
