@@ -251,12 +251,9 @@ def _nonzero(number) -> bool:
     """number != 0, for an mpmath real by its (sign, mantissa, exponent, bits) without
     mpmath's general comparison (the rows of a long history ask it hundreds of thousands
     of times)."""
-    if type(number) is type(_ONE_MPF):
+    if type(number) is mpmath.mpf:
         return number._mpf_ != _ZERO_MPF
     return number != 0
-
-
-_ONE_MPF = mpmath.mpf(1)
 
 
 def fastest_time_scale(modes: Iterable[tuple[object, object]]) -> float:

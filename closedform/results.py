@@ -469,15 +469,14 @@ class FirstLook:
     numbers are those of FloatEvaluator, _float_error, _float_distinct and _taylor_bound:
     the same float groups Σ_k u^k (A_k cos ωu + B_k sin ωu) e^(σu), the coefficients of a
     group summed in the order of the rows, the same formulas (sums over groups may be taken
-    in another order: a difference of rounding, inside the float error allowed). Intervals
-    listed in ``apart`` (a number outside the float range) are left to those functions."""
+    in another order: a difference of rounding, inside the float error allowed). An interval
+    with a number outside the float range is looked at by those functions themselves."""
 
-    ends: list[list[tuple[float, str]]]
+    ends: list[list[tuple[float, Literal["start", "end"]]]]
     values: list[list[float]]
     errors: list[list[float]]
     distinct: list[bool]
     bounds: list[float]
-    apart: frozenset[int]
 
 
 def _exact_key(number) -> object:
@@ -567,10 +566,8 @@ def _horner_rows(coefficients: numpy.ndarray, u: numpy.ndarray) -> numpy.ndarray
     return total
 
 
-def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
-    """The FirstLook of the intervals (None for none)."""
-    if not intervals:
-        return None
+def first_look(intervals: Sequence[Interval]) -> FirstLook:
+    """The FirstLook of the intervals."""
     count = len(intervals)
     length = numpy.array([float(i.end - i.start) for i in intervals])
     columns, apart, merged = _float_rows(intervals)
@@ -618,9 +615,18 @@ def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
     distinct = [index not in merged or _float_distinct(FloatEvaluator(interval.function),
                                                        interval.function)
                 for index, interval in enumerate(intervals)]
+    bound_list = bounds.tolist()
     ends, values, errors = [], [], []
     for index in range(count):
-        if length[index] <= 0 or empty[index]:
+        if index in apart:          # outside the float range: the per-interval functions
+            evaluator = FloatEvaluator(intervals[index].function)
+            end_points, end_values, end_errors, distinct[index] = \
+                _ends_one_by_one(evaluator, intervals[index])
+            ends.append(end_points)
+            values.append(end_values)
+            errors.append(end_errors)
+            bound_list[index] = _taylor_bound(evaluator, float(length[index]))
+        elif length[index] <= 0 or empty[index]:
             ends.append([(0.0, "start")])
             values.append([float(values0[index])])
             errors.append([float(errors0[index])])
@@ -628,7 +634,7 @@ def first_look(intervals: Sequence[Interval]) -> FirstLook | None:
             ends.append([(0.0, "start"), (float(length[index]), "end")])
             values.append([float(values0[index]), float(values1[index])])
             errors.append([float(errors0[index]), float(errors1[index])])
-    return FirstLook(ends, values, errors, distinct, bounds.tolist(), apart)
+    return FirstLook(ends, values, errors, distinct, bound_list)
 
 
 FLOAT_RANGE = 1000     # coefficients beyond 2^±this are scaled before the float search
@@ -688,27 +694,17 @@ def _extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
 
     best = 0.0
     look = first_look(intervals)
-    for index, interval in enumerate(intervals):
-        if look is None or index in look.apart:
-            ends, values, errors, distinct = _ends_one_by_one(evaluator_of(index), interval)
-        else:
-            ends = look.ends[index]
-            values, errors = look.values[index], look.errors[index]
-            distinct = look.distinct[index]
-        if not distinct:
+    for index in range(len(intervals)):
+        ends, values, errors = look.ends[index], look.values[index], look.errors[index]
+        if not look.distinct[index]:
             values = errors = [math.inf] * len(ends)     # 30 digits decide
         for (u, kind), value, error in zip(ends, values, errors):
             found.append(_Candidate(index, kind, u, None, float(value), float(error)))
             if math.isfinite(value) and math.isfinite(error) and error <= 1e-6 * abs(value):
                 best = max(best, abs(float(value)) - float(error))   # a value float can see
     for index, interval in enumerate(intervals):
-        if look is None or index in look.apart:
-            distinct = _float_distinct(evaluator_of(index), interval.function)
-            bound = _taylor_bound(evaluator_of(index), float(interval.end - interval.start)) \
-                if best > 0 and distinct else math.inf
-        else:
-            distinct, bound = look.distinct[index], look.bounds[index]
-        if best > 0 and distinct and bound < best * (1 - CANDIDATE_MARGIN):
+        if best > 0 and look.distinct[index] and \
+                look.bounds[index] < best * (1 - CANDIDATE_MARGIN):
             continue    # no point inside can come near a value already reached: no search
         try:
             brackets, _estimates, best, precise_route = interval_brackets(interval, best)
@@ -724,9 +720,9 @@ def _extreme_magnitude(intervals: Sequence[Interval]) -> Extreme | None:
             continue
         roots = _float_roots(evaluator_of(index), brackets)
         with numpy.errstate(over="ignore", invalid="ignore"):
-            values = evaluator_of(index)(roots, orders=1)[0]
-            errors = _float_error(evaluator_of(index), roots)
-        for bracket, root, value, error in zip(brackets, roots, values, errors):
+            root_values = evaluator_of(index)(roots, orders=1)[0]
+            root_errors = _float_error(evaluator_of(index), roots)
+        for bracket, root, value, error in zip(brackets, roots, root_values, root_errors):
             found.append(_Candidate(index, "root", float(root), bracket, float(value),
                                     float(error)))
     if not found:

@@ -150,9 +150,7 @@ def combination(weighted: Sequence[tuple[Any, Terms]]) -> Terms:
         return {key: c for key, c in live[0][1].items() if c != 0}
     result: Terms = {}
     with mpmath.workdps(PARSE_DIGITS):
-        for weight, terms in weighted:
-            if weight == 0:
-                continue
+        for weight, terms in live:
             for key, c in terms.items():
                 result[key] = result.get(key, 0) + weight * c
     return {key: c for key, c in result.items() if c != 0}
@@ -413,16 +411,18 @@ def _second(p: numpy.ndarray, lam: numpy.ndarray, v: numpy.ndarray) -> numpy.nda
     return a + b + c
 
 
-def _envelope(prep: _Prepared, lo: float, hi: float) -> float:
+def _envelope(prep: _Prepared, lo, hi):
     """sup of Σ|term| over [lo, hi] (0 ≤ lo ≤ hi): |C|·e^(max Re λ·v)·hiᵖ, and for a combined
-    pair |D|·hi^(p+1)·e^(max over the segment [λ₁, λ₂] of Re λ·v) (|E(v)| ≤ v·e^(max(Re δ·v, 0)))."""
+    pair |D|·hi^(p+1)·e^(max over the segment [λ₁, λ₂] of Re λ·v) (|E(v)| ≤ v·e^(max(Re δ·v, 0)));
+    inf where it overflows. One piece (lo, hi numbers), or stacked pieces (``_stacked``; lo
+    and hi columns, one row a piece: one envelope per piece)."""
     with numpy.errstate(over="ignore", invalid="ignore"):
         plain = numpy.abs(prep.c) * numpy.exp(numpy.maximum(prep.sigma * lo, prep.sigma * hi)) \
             * hi ** prep.p
         pair = numpy.where(prep.pair, numpy.abs(prep.d) * hi ** (prep.p + 1) * numpy.exp(
             numpy.maximum(prep.top_sigma * lo, prep.top_sigma * hi)), 0.0)
-        total = float(numpy.sum(plain) + numpy.sum(pair))
-    return total if math.isfinite(total) else math.inf
+        total = numpy.sum(plain, axis=-1) + numpy.sum(pair, axis=-1)
+    return numpy.where(numpy.isfinite(total), total, numpy.inf)
 
 
 def _raw_envelope(terms: Terms, length: float) -> float:
@@ -455,26 +455,25 @@ def _stacked(preps: Sequence[_Prepared]) -> _Prepared:
     return _Prepared(*arrays)
 
 
-def _envelopes(prep: _Prepared, hi: numpy.ndarray) -> numpy.ndarray:
-    """``_envelope(piece, 0, hi)`` of each row of stacked pieces at once (inf where it
-    overflows)."""
-    hi = hi[:, None]
-    with numpy.errstate(over="ignore", invalid="ignore"):
-        plain = numpy.abs(prep.c) * numpy.exp(numpy.maximum(prep.sigma * 0.0, prep.sigma * hi)) \
-            * hi ** prep.p
-        pair = numpy.where(prep.pair, numpy.abs(prep.d) * hi ** (prep.p + 1) * numpy.exp(
-            numpy.maximum(prep.top_sigma * 0.0, prep.top_sigma * hi)), 0.0)
-        total = numpy.sum(plain, axis=1) + numpy.sum(pair, axis=1)
-    return numpy.where(numpy.isfinite(total), total, numpy.inf)
+def _cells(prep: _Prepared, length: float) -> tuple[int, float]:
+    """(count, width) of the cells enclose_piece covers a piece with: one cell where the
+    fastest rate turns through at most 1 over the piece, else cells of 1/rate. Raises
+    ArithmeticError or ValueError where that cannot be formed (rates not finite, a piece of
+    zero length)."""
+    fastest = float(numpy.max(numpy.abs(prep.sigma + 1j * prep.omega_hi)))
+    fastest = max(fastest, float(numpy.max(prep.top_abs)))
+    width = length if fastest * length <= 1 else 1.0 / fastest
+    count = max(1, int(math.ceil(length / width)))
+    return count, length / count
 
 
 def _one_cell(prep: _Prepared, length: float) -> bool:
-    """Whether enclose_piece covers the piece with a single cell at the start."""
-    fastest = float(numpy.max(numpy.abs(prep.sigma + 1j * prep.omega_hi)))
-    fastest = max(fastest, float(numpy.max(prep.top_abs)))
-    if not math.isfinite(fastest):
-        return False           # enclose_piece says why
-    return fastest * length <= 1 or math.ceil(length / (1.0 / fastest)) <= 1
+    """Whether enclose_piece covers the piece with a single cell (where it would raise, it is
+    left to enclose_piece, which then raises as it always did)."""
+    try:
+        return _cells(prep, length)[0] == 1
+    except (ArithmeticError, ValueError):
+        return False
 
 
 def settled_at_once(preps: Mapping[int, _Prepared], lengths: Sequence[float], limit: float
@@ -491,7 +490,7 @@ def settled_at_once(preps: Mapping[int, _Prepared], lengths: Sequence[float], li
         block = chosen[begin:begin + BLOCK]
         stacked = _stacked([preps[index] for index in block])
         width = numpy.array([lengths[index] for index in block])
-        envelope = _envelopes(stacked, width)
+        envelope = _envelope(stacked, 0.0, width[:, None])
         at_once = envelope * (1 + 64 * ROUNDING) <= limit
         m = 0.5 * width
         r = width / 2 * (1 + 1e-12)
@@ -520,11 +519,7 @@ def enclose_piece(prep: _Prepared, length: float, limit: float) -> Enclosure:
     """Prove |q| ≤ limit on [0, length], or find a point above it, or say why not."""
     if len(prep.c) == 0:
         return Enclosure(True, None, 0) if limit >= 0 else Enclosure(False, (0.0, 0.0), 0)
-    fastest = float(numpy.max(numpy.abs(prep.sigma + 1j * prep.omega_hi)))
-    fastest = max(fastest, float(numpy.max(prep.top_abs)))
-    width = length if fastest * length <= 1 else 1.0 / fastest
-    count = max(1, int(math.ceil(length / width)))
-    width = length / count
+    count, width = _cells(prep, length)
     work = 0
     start = 0
     while start < count:

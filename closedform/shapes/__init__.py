@@ -18,7 +18,7 @@ definition may also be registered from outside the package (a test does so).
 from __future__ import annotations
 
 import math
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
@@ -152,26 +152,28 @@ def centroid(area: sympy.Expr, moment: sympy.Expr) -> tuple[sympy.Expr, sympy.Ex
 def polyline_area_and_centroid(points: Points, values: Mapping) -> tuple[sympy.Expr, sympy.Expr]:
     """∫ f dτ and the centroid ∫ τ f dτ / ∫ f dτ of a polyline, exact, segment by segment:
     ∫ f = (f₀ + f₁)(τ₁ − τ₀)/2 and ∫ τ f = (τ₁ − τ₀)(τ₀(2f₀ + f₁) + τ₁(f₀ + 2f₁))/6."""
-    points = tuple((sympy.sympify(t), sympy.sympify(f)) for t, f in points)
+    points = [(sympy.sympify(t), sympy.sympify(f)) for t, f in points]
     if all(t.is_Rational and f.is_Rational for t, f in points):
-        # a table's rows: the same sums in integers over common denominators T and F
-        # (t = τ/T, f = φ/F), exact, without sympy's or Fraction's cost per operation
+        # a table's rows: integers over common denominators T and F (t = τ/T, f = φ/F),
+        # exact, without sympy's cost per operation
         times_q = math.lcm(*(int(t.q) for t, _f in points))
         values_q = math.lcm(*(int(f.q) for _t, f in points))
-        tau = [int(t.p) * (times_q // int(t.q)) for t, _f in points]
-        phi = [int(f.p) * (values_q // int(f.q)) for _t, f in points]
-        area_n = moment_n = 0
-        for t0, t1, f0, f1 in zip(tau, tau[1:], phi, phi[1:]):
-            area_n += (f0 + f1) * (t1 - t0)
-            moment_n += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1))
-        return centroid(sympy.Rational(area_n, 2 * times_q * values_q),
-                        sympy.Rational(moment_n, 6 * times_q * times_q * values_q))
-    area, moment = sympy.S.Zero, sympy.S.Zero
-    points = tuple((t.subs(values), f.subs(values)) for t, f in points)
+        area, moment = _polygon_sums([(int(t.p) * (times_q // int(t.q)),
+                                       int(f.p) * (values_q // int(f.q))) for t, f in points])
+        return centroid(sympy.Rational(area, 2 * times_q * values_q),
+                        sympy.Rational(moment, 6 * times_q * times_q * values_q))
+    area, moment = _polygon_sums([(t.subs(values), f.subs(values)) for t, f in points])
+    return centroid(area / 2, moment / 6)
+
+
+def _polygon_sums(points: Sequence[tuple[Any, Any]]) -> tuple[Any, Any]:
+    """(2·∫ f dτ, 6·∫ τ f dτ) of the polyline through the points (no division, so that it
+    stays in integers for integer points)."""
+    area = moment = 0
     for (t0, f0), (t1, f1) in zip(points, points[1:]):
-        area += (f0 + f1) * (t1 - t0) / 2
-        moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1)) / 6
-    return centroid(area, moment)
+        area += (f0 + f1) * (t1 - t0)
+        moment += (t1 - t0) * (t0 * (2 * f0 + f1) + t1 * (f0 + 2 * f1))
+    return area, moment
 
 
 CATALOGUE.load(__name__, __path__)
