@@ -12,6 +12,7 @@ engine (monkeypatch) must derive afresh, never through this cache.
 from __future__ import annotations
 
 import functools
+import math
 import textwrap
 from collections.abc import Callable
 from pathlib import Path
@@ -29,6 +30,31 @@ def case_from(text: str, name: str = "test.toml") -> closedform.Case:
 
 def derive_text(text: str, name: str = "test.toml") -> closedform.Derivation:
     return closedform.derive(case_from(text, name))
+
+
+def long_table_history(segments: int = 60) -> closedform.Derivation:
+    """An invented test case: a damped spring-mass-damper (40 kg, 250 kN/m, ζ = 0.04) under a
+    table load of ``segments`` ramps (more than the 40 pieces above which the checks and the
+    energy balance take their long-history routes), with an impulse inside, over 0.4 s."""
+    rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, segments) else 200 + 150 * math.sin(i / 3):.2f}]"
+                     for i in range(segments + 1))
+    return derive_text(f"""
+        title = "results"
+        [system]
+        model = "spring-mass-damper"
+        mass = "40 kg"
+        stiffness = "250 kN/m"
+        damping_ratio = 0.04
+        [[load]]
+        shape = "table"
+        points = [{rows}]
+        [[load]]
+        shape = "impulse"
+        at = "0.1 s"
+        impulse = "2 N*s"
+        [report]
+        until = "0.4 s"
+    """)
 
 
 @functools.cache

@@ -23,7 +23,7 @@ import sympy
 from closedform.checks import extremes
 from closedform.derivation import finite_check
 from closedform.render import render_csv
-from tests.conftest import derive_text, replace_check_run
+from tests.conftest import derive_text, long_table_history, replace_check_run
 
 
 @pytest.fixture(autouse=True)
@@ -303,26 +303,12 @@ def test_mutation_of_a_derived_quantity_is_refused():
 
 
 def test_a_smaller_value_at_a_breakpoint_of_a_long_history_is_refused(monkeypatch):
-    """A consistent but wrong report on a long table (the route whose short pieces the
-    check settles in one batch): the value of x at a breakpoint in the middle, well below
+    """A consistent but wrong report on a long table with an impulse (the route whose short
+    pieces the check settles in one batch): the value of x at a breakpoint in the middle, well below
     the peak, reported as the peak at that time. The value and the time check out (an
     interval end), so only the enclosure can refuse it, and it must, while the batch still
     settles the pieces it can."""
-    rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, 60) else 200 + 150 * math.sin(i / 3):.2f}]"
-                     for i in range(61))
-    derivation = derive_text(f"""
-        title = "long table"
-        [system]
-        model = "spring-mass-damper"
-        mass = "40 kg"
-        stiffness = "250 kN/m"
-        damping_ratio = 0.04
-        [[load]]
-        shape = "table"
-        points = [{rows}]
-        [report]
-        until = "0.4 s"
-    """)
+    derivation = long_table_history()
     assert derivation.passed and len(derivation.pieces) > 40
     peak = derivation.numbers.peak
     starts = [float(p.start) for p in derivation.pieces]

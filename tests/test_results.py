@@ -25,7 +25,7 @@ from closedform.checks.energy import SUMMARY_LIMIT, energy_checks
 from closedform.results import impulse_response_peak, result_fields, stationary_points
 from closedform.systems import build_model
 
-from .conftest import derive_text, worked_derivation
+from .conftest import derive_text, long_table_history, worked_derivation
 
 WORKED = Path(__file__).resolve().parent.parent / "worked_cases"
 
@@ -459,14 +459,8 @@ def test_energy_balance_detects_a_wrong_piece():
 
 
 def long_history(segments: int = 60) -> closedform.Derivation:
-    """A damped spring-mass-damper under a table load of ``segments`` ramps (more than the
-    40 pieces above which the energy balance runs in float64), with an impulse inside."""
-    rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, segments) else 200 + 150 * math.sin(i / 3):.2f}]"
-                     for i in range(segments + 1))
-    return derive_text(smd("40 kg", "250 kN/m", "damping_ratio = 0.04",
-                           f'[[load]]\nshape = "table"\npoints = [{rows}]\n'
-                           '[[load]]\nshape = "impulse"\nat = "0.1 s"\nimpulse = "2 N*s"',
-                           "0.4 s"))
+    """A long table with an impulse inside (conftest.long_table_history)."""
+    return long_table_history(segments)
 
 
 def reference_integrals(derivation, force, until):
