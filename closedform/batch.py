@@ -17,7 +17,7 @@ import importlib
 import os
 import sys
 from collections.abc import Callable, Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from pathlib import Path
 from typing import TYPE_CHECKING, Any, Literal, Protocol, TextIO, TypeVar, cast
 
@@ -66,6 +66,7 @@ class CaseTask:
     path: str
     time_budget: float | None
     finish: Finisher
+    spare_core: bool = False    # fewer cases run at once than there are cores (run_cases sets it)
 
 
 @dataclass(frozen=True)
@@ -148,7 +149,8 @@ def run_case(task: CaseTask) -> CaseOutcome:
                 case = load_case(document)
             title, reference = case.title, case.reference
             derivation = derive(case, time_budget=task.time_budget,
-                                sheet_check=task.finish.prints_sheet)
+                                sheet_check=task.finish.prints_sheet,
+                                spare_core=task.spare_core)
             with budget.stage("rendering the sheets"):
                 finished = task.finish(derivation, path)
         return CaseOutcome(path, finished.exit_code, finished.message, finished.contents,
@@ -263,6 +265,8 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
     kept = [i for i in range(len(tasks)) if i not in refused]
     if not kept:
         return [refused[i] for i in range(len(tasks))]
+    if spare_core(jobs, len(kept)):
+        tasks = [replace(task, spare_core=True) for task in tasks]
     budgets = [tasks[i].time_budget for i in kept]
     longest = None if None in budgets else max(b for b in budgets if b is not None)
 
@@ -283,6 +287,14 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
     outcomes = dict(refused)
     outcomes.update(zip(kept, derived))
     return [outcomes[i] for i in range(len(tasks))]
+
+
+def spare_core(jobs: int | None, cases: int) -> bool:
+    """Whether a core is left over while ``cases`` run, up to ``jobs`` at once (default: as
+    many as there are cores): then a long history's verification runs on it, alongside the
+    case's other checks (:func:`closedform.derivation.derive`)."""
+    cores = os.cpu_count() or 1
+    return min(jobs or cores, cases) < cores
 
 
 def refused_unread(task: CaseTask) -> CaseOutcome | None:

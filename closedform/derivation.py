@@ -236,14 +236,18 @@ def analysis_window(case: Case, model: LinearModel) -> Window:
 
 
 @own_precision
-def derive(case: Case, *, time_budget: float | None = None, sheet_check: bool = True
-           ) -> Derivation | ChainDerivation:
+def derive(case: Case, *, time_budget: float | None = None, sheet_check: bool = True,
+           spare_core: bool = False) -> Derivation | ChainDerivation:
     """Derive, evaluate and check the response of one case.
 
     ``time_budget`` (seconds) bounds the whole derivation; past it a TimeBudgetExceeded
     names the stage that was running. ``sheet_check`` False leaves out re-reading the
     printed equations, for a run that prints no sheet (``derive --json -``): there is then
     nothing printed to re-read, and the JSON result lists only the checks that ran.
+    ``spare_core`` (the command line sets it when it derives fewer cases at once than the
+    machine has cores) lets the verification of a long history run in a helper process
+    alongside the other checks (:func:`closedform.checks.registry.run_checks`): the same
+    checks and numbers, sooner.
     """
     from .budget import time_budget as budget_for
 
@@ -273,7 +277,8 @@ def derive(case: Case, *, time_budget: float | None = None, sheet_check: bool = 
             metrics = response_metrics(case, model, history, solution, window)
         partial = Derivation(case, model, history, window, solution, results, (), (), metrics)
         checks = run_checks(partial, DERIVE, stage=budget.stage,
-                            without=() if sheet_check else (PRINTED_EQUATIONS,))
+                            without=() if sheet_check else (PRINTED_EQUATIONS,),
+                            alongside=spare_core)
         checks += (finite_check(results),)
     return Derivation(case, model, history, window, solution, results, checks,
                       window_warnings(case, window, results), metrics)

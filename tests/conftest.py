@@ -33,12 +33,17 @@ def derive_text(text: str, name: str = "test.toml") -> closedform.Derivation:
 
 
 def long_table_history(segments: int = 60) -> closedform.Derivation:
+    """The derivation of :func:`long_table_case`."""
+    return closedform.derive(long_table_case(segments))
+
+
+def long_table_case(segments: int = 60) -> closedform.Case:
     """An invented test case: a damped spring-mass-damper (40 kg, 250 kN/m, ζ = 0.04) under a
     table load of ``segments`` ramps (more than the 40 pieces above which the checks and the
     energy balance take their long-history routes), with an impulse inside, over 0.4 s."""
     rows = ", ".join(f"[{i * 0.004:.3f}, {0 if i in (0, segments) else 200 + 150 * math.sin(i / 3):.2f}]"
                      for i in range(segments + 1))
-    return derive_text(f"""
+    return case_from(f"""
         title = "results"
         [system]
         model = "spring-mass-damper"

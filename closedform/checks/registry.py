@@ -19,9 +19,11 @@ from contextlib import AbstractContextManager, nullcontext
 from dataclasses import dataclass
 from typing import Any
 
+from ..workers import fork_available, start_alongside
 from .base import Check
 from .energy import energy_checks
 from .extremes import extreme_checks, metric_checks
+from .long import LONG_HISTORY
 from .member import is_member, member_family
 from .plastic import plastic_checks
 from .verification import verify
@@ -40,6 +42,10 @@ class CheckFamily:
     applies: frozenset[str]
     run: Callable[[Any], Sequence[Check]]
     fits: Callable[[Any], bool] = lambda response: True    # the responses it checks
+    #: whether it may run in a helper process on a spare core while the others run here:
+    #: the independent verification, as long as the energy balance and the extremes
+    #: together for a long history (it reads nothing that they compute)
+    alongside: bool = False
 
 
 def yielding(response: Any) -> bool:
@@ -64,7 +70,7 @@ def _printed_equations(derivation: Any) -> Sequence[Check]:
 
 
 FAMILIES: tuple[CheckFamily, ...] = (
-    CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify, linear),
+    CheckFamily("verification", frozenset({DERIVE, CLAIM}), verify, linear, alongside=True),
     CheckFamily("energy balance", frozenset({DERIVE, CLAIM}), energy_checks, linear),
     CheckFamily("yielding spring", frozenset({DERIVE}), plastic_checks, yielding),
     CheckFamily(PRINTED_EQUATIONS, frozenset({DERIVE}), _printed_equations),
@@ -83,16 +89,52 @@ def families(run: str) -> Iterator[CheckFamily]:
 
 def run_checks(response: Any, run: str,
                stage: Callable[[str], AbstractContextManager] | None = None, *,
-               without: Collection[str] = ()) -> tuple[Check, ...]:
+               without: Collection[str] = (), alongside: bool = False) -> tuple[Check, ...]:
     """The checks of every family that applies to ``run`` and fits the response, in the
     registry's order; the families named in ``without`` are left out (a ductility spectrum
     prints no sheet, so it has no printed equations to re-read).
 
-    ``stage`` (the time budget's ``stage``) is entered around each family with its name."""
+    ``stage`` (the time budget's ``stage``) is entered around each family with its name.
+    ``alongside`` (a spare core; the caller knows whether it has one) runs the families
+    marked ``alongside`` of a long history (more than ALONGSIDE_PIECES pieces) in a helper
+    process while the others run here: the same checks, in the same order, as when they
+    run one after the other. A helper that ends without its checks (killed, out of memory)
+    has its families run here instead."""
+    chosen = [family for family in families(run)
+              if family.name not in without and family.fits(response)]
+    helped = [family for family in chosen if family.alongside] \
+        if alongside and _helper_pays(response) else []
+    done: dict[str, Sequence[Check]] = {}
+    helper = start_alongside(_run_families, (helped, response)) if helped else None
+    with helper if helper is not None else nullcontext():
+        for family in chosen:
+            if family not in helped:
+                with stage(family.name) if stage is not None else nullcontext():
+                    done[family.name] = family.run(response)
+        if helper is not None:
+            with stage(" and ".join(f.name for f in helped)) if stage is not None \
+                    else nullcontext():
+                reply = helper.result()
+            if isinstance(reply, dict):
+                done.update(reply)
     checks: list[Check] = []
-    for family in families(run):
-        if family.name in without or not family.fits(response):
-            continue
-        with stage(family.name) if stage is not None else nullcontext():
-            checks += family.run(response)
+    for family in chosen:
+        if family.name not in done:            # a helper lost: run here, as without one
+            with stage(family.name) if stage is not None else nullcontext():
+                done[family.name] = family.run(response)
+        checks += done[family.name]
     return tuple(checks)
+
+
+#: More pieces than this (a long history, checked on numbers) and a family marked
+#: ``alongside`` runs in a helper process when there is a spare core; a short history's
+#: checks are over in less time than the fork and the sympy work it cannot share would take.
+ALONGSIDE_PIECES = LONG_HISTORY
+
+
+def _helper_pays(response: Any) -> bool:
+    return fork_available() and len(getattr(response, "pieces", ())) > ALONGSIDE_PIECES
+
+
+def _run_families(families: Sequence[CheckFamily], response: Any) -> dict[str, Sequence[Check]]:
+    return {family.name: list(family.run(response)) for family in families}
