@@ -174,3 +174,28 @@ def test_a_core_is_spare_when_fewer_cases_run_at_once_than_there_are_cores(monke
     assert not spare_core(None, 4) and not spare_core(None, 12) and not spare_core(4, 5)
     monkeypatch.setattr(os, "cpu_count", lambda: 1)
     assert not spare_core(None, 1)
+
+
+def test_a_time_budget_that_runs_out_while_the_helper_works_names_its_family_and_ends_it(
+        monkeypatch):
+    from closedform.budget import time_budget
+    from closedform.errors import TimeBudgetExceeded
+
+    def family(name, seconds, alongside=False):
+        def run(response):
+            time.sleep(seconds)
+            return [Check(name, True, "")]
+        return registry.CheckFamily(name, frozenset({registry.DERIVE}), run, alongside=alongside)
+    monkeypatch.setattr(registry, "FAMILIES", (family("slow", 60, alongside=True),
+                                               family("quick", 0.01)))
+    before = set(_children_of_here())
+    with pytest.raises(TimeBudgetExceeded, match="the stage 'slow' ran past the time budget"):
+        with time_budget(0.5, "case.toml") as budget:
+            registry.run_checks(_Long(), registry.DERIVE, stage=budget.stage, alongside=True)
+    assert set(_children_of_here()) == before          # the helper was ended and reaped
+
+
+def _children_of_here() -> list[int]:
+    from closedform.workers import _children
+
+    return _children(os.getpid())
