@@ -98,21 +98,35 @@ class _Rate(mpmath.mpc):
 
 
 def _add_parsed(terms: Terms, parsed, factor) -> None:
+    _add_expanded(terms, _expanded(parsed), factor)
+
+
+def _expanded(parsed) -> list[tuple[Any, Any, list[tuple[tuple[int, _Rate], Any]]]]:
+    """Each parsed term C·Π(s·v + q)^k·e^(λv + μ) as (C, e^μ, [((power, λ), c)]) with c
+    the non-zero coefficients of the expanded product, at the working precision: worked out
+    once for a mode that many pieces share."""
+    expanded = []
     for term in parsed:
-        base = factor * term.coefficient * mpmath.exp(term.offset)
         rate = _Rate(term.rate)
-        for power, c in enumerate(_poly_from_factors(term.factors)):
-            if c != 0:
-                key = (power, rate)
-                terms[key] = terms.get(key, 0) + base * c
+        powers = [((power, rate), c) for power, c in enumerate(_poly_from_factors(term.factors))
+                  if c != 0]
+        expanded.append((term.coefficient, mpmath.exp(term.offset), powers))
+    return expanded
+
+
+def _add_expanded(terms: Terms, expanded, factor) -> None:
+    for coefficient, exponential, powers in expanded:
+        base = factor * coefficient * exponential
+        for key, c in powers:
+            terms[key] = terms.get(key, 0) + base * c
 
 
 def piece_terms(piece: Any, values: Mapping, parser: Parser,
                 modes_read: dict | None = None) -> Terms:
     """The piece in its local time v = t − start, read by the verification's parser.
 
-    ``modes_read`` keeps each distinct mode's parsed expression for the pieces read with the
-    same parser and values (the pieces of one history share their modes)."""
+    ``modes_read`` keeps each distinct mode's parsed and expanded terms for the pieces read
+    with the same parser and values (the pieces of one history share their modes)."""
     terms: Terms = {}
     local = piece.local
     modes_read = {} if modes_read is None else modes_read
@@ -120,12 +134,13 @@ def piece_terms(piece: Any, values: Mapping, parser: Parser,
         modes = getattr(local, "terms", None)
         if isinstance(modes, Mapping):
             for mode, coefficient in modes.items():
-                c = parser.number(sympy.sympify(coefficient).subs(values))
-                parsed = modes_read.get(mode)
-                if parsed is None:
-                    parsed = modes_read[mode] = parser.terms(
-                        sympy.sympify(mode.expression(LOCAL_TIME)).subs(values))
-                _add_parsed(terms, parsed, c)
+                coefficient = sympy.sympify(coefficient)
+                c = parser.number(coefficient.subs(values) if values else coefficient)
+                expanded = modes_read.get(mode)
+                if expanded is None:
+                    expanded = modes_read[mode] = _expanded(parser.terms(
+                        sympy.sympify(mode.expression(LOCAL_TIME)).subs(values)))
+                _add_expanded(terms, expanded, c)
         else:
             _add_parsed(terms, parser.terms(sympy.sympify(local.expression(LOCAL_TIME)).subs(values)), 1)
     return {key: c for key, c in terms.items() if c != 0}
