@@ -367,7 +367,9 @@ def _balance(derivation, equation, values: Mapping, fast: Arithmetic | None,
 
         work = dissipated = rounding = mpmath.mpf(0)
         largest = energy_start
-        velocity_before = initial[1]
+        # x′ at the end of the piece before (its rows and length): worked out only where an
+        # impulse acts at the start of the next piece
+        before: tuple | None = None
         kicks = list(loads.impulses)
         closures = []
         for start, end, piece in zip(starts, ends, pieces):
@@ -386,6 +388,8 @@ def _balance(derivation, equation, values: Mapping, fast: Arithmetic | None,
                 at, impulse = kicks.pop(0)
                 if close(at, start) and not close(at, until):
                     after, size = value(v[exact_arithmetic.name], 0, exact_arithmetic)
+                    velocity_before = initial[1] if before is None else value(
+                        before[0], before[1], exact_arithmetic)[0]
                     step = scaled.b * impulse * (velocity_before + after) / 2
                     work += step
                     rounding += ROUNDING * exact_arithmetic.unit * abs(scaled.b * impulse) * size
@@ -415,8 +419,7 @@ def _balance(derivation, equation, values: Mapping, fast: Arithmetic | None,
                                      * exact_arithmetic.unit, scaled.unit,
                                      fast.name + " where it suffices, else " + exact_arithmetic.name
                                      if fast is not None else exact_arithmetic.name))
-            velocity_before = value(v[exact_arithmetic.name], length[exact_arithmetic.name],
-                                    exact_arithmetic)[0]
+            before = (v[exact_arithmetic.name], length[exact_arithmetic.name])
         return closures
 
 
