@@ -290,11 +290,12 @@ def run_cases(tasks: Sequence[CaseTask], *, jobs: int | None = None,
 
 
 def spare_core(jobs: int | None, cases: int) -> bool:
-    """Whether a core is left over while ``cases`` run, up to ``jobs`` at once (default: as
-    many as there are cores): then a long history's verification runs on it, alongside the
-    case's other checks (:func:`closedform.derivation.derive`)."""
-    cores = os.cpu_count() or 1
-    return min(jobs or cores, cases) < cores
+    """Whether a process is left over while ``cases`` run, up to ``jobs`` processes at once
+    (default: as many as there are cores): then a long history's verification runs in it,
+    alongside the case's other checks (:func:`closedform.derivation.derive`). ``--jobs 1``
+    keeps a run to one process at a time."""
+    processes = jobs or os.cpu_count() or 1
+    return min(processes, cases) < processes
 
 
 def refused_unread(task: CaseTask) -> CaseOutcome | None:

@@ -103,7 +103,8 @@ def _parser(argv: Sequence[str] = ()) -> argparse.ArgumentParser:
                         help="write the JSON result to FILE, or to standard output with '-'; "
                              "several cases give a JSON array")
     add_budgets(derive)
-    add_jobs(derive, help="processes for several cases (default: all cores)")
+    add_jobs(derive, help="processes at once: several cases, or a long history's verification "
+                          "beside its other checks (default: all cores; 1: one at a time)")
     derive.set_defaults(run=run_derive)
     chosen = next((a for a in argv if not a.startswith("-")), None)
     for name, (module, summary) in COMMAND_MODULES.items():

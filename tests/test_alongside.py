@@ -170,8 +170,9 @@ def test_a_core_is_spare_when_fewer_cases_run_at_once_than_there_are_cores(monke
     from closedform.batch import spare_core
 
     monkeypatch.setattr(os, "cpu_count", lambda: 4)
-    assert spare_core(None, 1) and spare_core(None, 3) and spare_core(2, 10)
+    assert spare_core(None, 1) and spare_core(None, 3) and spare_core(2, 1)
     assert not spare_core(None, 4) and not spare_core(None, 12) and not spare_core(4, 5)
+    assert not spare_core(2, 10) and not spare_core(1, 1)     # --jobs 1: one process
     monkeypatch.setattr(os, "cpu_count", lambda: 1)
     assert not spare_core(None, 1)
 
