@@ -334,6 +334,12 @@ def window_warnings(case: Case, window: Window, results: Results | None = None
         elif peak.time == 0 and case.initial is not None and any(v != 0 for v in case.initial):
             warnings.append(f"{case.source}: initial: the peak is the initial value at t = 0; "
                             "the loads never drive the response past it")
+    for entry in results.idealizations if results is not None else ():
+        if entry.centroid is not None and entry.impulse_peak is None:   # (outside the pulse)
+            warnings.append(f"{case.source}: load[{entry.load}]: the pulse changes sign and its "
+                            f"centroid (t = {_seconds(entry.centroid)}) lies outside it, so no "
+                            "impulse of its area stands for it: the impulse idealization gives "
+                            "no impulse peak")
     return tuple(warnings)
 
 

@@ -1100,6 +1100,9 @@ def impulse_idealizations(case, model, history: LoadHistory, solution,
             centroid_mp = None
             if area_mp != 0:
                 centroid_mp = start_mp + real_number(centroid, values)
+            # A pulse that changes sign can have its centroid outside itself (even before
+            # t = 0): no impulse of its area at that time stands for it, so no peak is given.
+            if centroid_mp is not None and start_mp <= centroid_mp <= end:
                 delay, value = impulse_response_peak(coefficients, scale, area_mp)
                 impulse_peak = Extreme(float(value), float(centroid_mp + delay), value,
                                        centroid_mp + delay)

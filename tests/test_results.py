@@ -294,6 +294,31 @@ def test_pulse_area_and_centroid_of_a_table(rows, area, centroid):
     assert entry["centroid"] == pytest.approx(0.2 + centroid, rel=1e-12)
 
 
+def test_a_pulse_whose_centroid_lies_outside_it_gets_no_impulse_peak():
+    """A pulse that changes sign, +3 kN for 1 ms then −1 kN for 2 ms, at t = 10 ms: its area
+    is 3 − 2 = 1 N·s and its first moment 3·0.5 − 2·2 = −2.5 N·s·ms (plane geometry of the
+    two rectangles), so its centroid is 2.5 ms *before* it starts. No impulse at 7.5 ms
+    stands for it: no impulse peak, no relative error, and a warning that says why; the
+    area, the centroid and the pulse's own peak are still given."""
+    load = ('[[load]]\nshape = "table"\nat = "10 ms"\npoints = [[0, 3000], [0.001, 3000], '
+            '[0.001, -1000], [0.003, -1000], [0.003, 0]]\n')
+    derivation = derive_text(smd("50 kg", "20 kN/m", "damping_ratio = 0.1", load, "1 s"))
+    (entry,) = field(derivation, "impulse_idealization")
+    assert entry["area"] == pytest.approx(1.0, rel=1e-14)
+    assert entry["centroid"] == pytest.approx(0.0075, rel=1e-12)
+    assert entry["impulse_peak"] is None and entry["relative_error"] is None
+    assert entry["pulse_peak"]["value"] != 0
+    assert derivation.status == "verified"
+    (warning,) = [w for w in derivation.warnings if "centroid" in w]
+    assert "load[1]: the pulse changes sign and its centroid (t = 0.0075 s) lies outside it" \
+        in warning
+    # a pulse of one sign keeps its impulse peak and no such warning (the same area forwards)
+    one_sign = derive_text(smd("50 kg", "20 kN/m", "damping_ratio = 0.1", load.replace(
+        "-1000", "1000"), "1 s"))
+    assert field(one_sign, "impulse_idealization")[0]["impulse_peak"] is not None
+    assert not [w for w in one_sign.warnings if "centroid" in w]
+
+
 def test_pulse_alone_is_the_same_for_every_route():
     """Superposition (no source needed): the pulse-alone peak of a pulse is the same whether
     the case is that pulse from rest, the pulse with initial values, or the pulse repeated."""
