@@ -300,6 +300,7 @@ class NumericCarrier:
         self._parameters: dict[BasisTerm, tuple] = {}
         self._numbers: dict[sympy.Expr, object] = {}     # the steps of a table repeat
         self._factors: dict[tuple, tuple] = {}           # e^(σd), cos ωd, sin ωd by (mode, d)
+        self._residue_kept: tuple | None = None          # (precision, 10^−(digits + 12))
 
     def number(self, value: sympy.Expr):
         kept = self._numbers.get(value)
@@ -332,10 +333,12 @@ class NumericCarrier:
                 else:
                     trig_parts = ((COS, c), (SIN, -s_)) if mode.kind == COS else ((SIN, c), (COS, s_))
                 for j in range(mode.power + 1):
-                    binomial = comb(mode.power, j) * delay ** (mode.power - j)
+                    # (growth·1 is growth: the term of the power itself skips that product)
+                    scaled = growth if j == mode.power else \
+                        growth * (comb(mode.power, j) * delay ** (mode.power - j))
                     for kind, factor in trig_parts:
                         key = BasisTerm(j, mode.rate, mode.frequency, kind)
-                        result[key] = result.get(key, 0) + growth * binomial * factor
+                        result[key] = result.get(key, 0) + scaled * factor
         return result
 
     def _shift_factors(self, mode: BasisTerm, delay) -> tuple:
@@ -358,7 +361,7 @@ class NumericCarrier:
         ending load, a slope back to zero) is rounding residue and is dropped."""
         result = dict(terms)
         with mpmath.workdps(self.digits + 15):
-            residue = mpmath.mpf(10) ** (-(self.digits + 12))
+            residue = self._residue()
             for mode, c in other.items():
                 before, added = result.get(mode, 0), scale * c
                 total = before + added
@@ -367,6 +370,13 @@ class NumericCarrier:
                 else:
                     result[mode] = total
         return result
+
+    def _residue(self):
+        """10^−(digits + 12) at the guard digits (worked out once)."""
+        kept = self._residue_kept
+        if kept is None or kept[0] != mpmath.mp.prec:
+            kept = self._residue_kept = (mpmath.mp.prec, mpmath.mpf(10) ** (-(self.digits + 12)))
+        return kept[1]
 
     def exponential_polynomial(self, terms: dict[BasisTerm, object]) -> ExponentialPolynomial:
         """Back to sympy, coefficients as ``digits``-significant-digit Floats."""

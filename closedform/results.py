@@ -673,13 +673,17 @@ def _scale_exponent(intervals: Sequence[Interval]) -> int:
     """The power of two that brings the largest coefficient near 1, or 0 where it lies
     inside 2^±FLOAT_RANGE (or there are none, or they are not all real mpmath numbers)."""
     largest = None       # 2^(exponent + bits) bounds |c| (mpmath's sign, mantissa, exponent, bits)
+    zero = mpmath.mpf(0)._mpf_
     for interval in intervals:
         for *_mode, c in interval.function.rows:
-            if not isinstance(c, mpmath.mpf) or not mpmath.isfinite(c):
+            if not isinstance(c, mpmath.mpf):
                 return 0
-            _sign, mantissa, exponent, bits = c._mpf_
-            if mantissa and (largest is None or exponent + bits > largest):
-                largest = exponent + bits
+            _sign, mantissa, exponent, bits = number = c._mpf_
+            if mantissa:
+                if largest is None or exponent + bits > largest:
+                    largest = exponent + bits
+            elif number != zero:          # mpmath's special values: ±inf, nan
+                return 0
     return largest if largest is not None and abs(largest) > FLOAT_RANGE else 0
 
 
