@@ -119,7 +119,11 @@ def _resident(pid: int) -> int:
     together by their proportional sets (Pss) and private swap, which hold each of those
     pages once, and also a share of the pages both still share with the parent, so that
     the figure is never below the memory the case takes."""
-    helpers = _children(pid)
+    return _pages(pid, _children(pid))
+
+
+def _pages(pid: int, helpers: Sequence[int]) -> int:
+    """:func:`_resident` of a worker whose helpers are known."""
     if not helpers:
         return _own(pid, _OWN_FIELDS)
     return sum(_own(process, _SHARED_FIELDS) for process in (pid, *helpers))
@@ -130,10 +134,10 @@ def _over_budget(pid: int, budget: int) -> bool:
     set and swap (/proc/PID/status, cheap to read) bound its own pages from above; only
     past the budget are the pages counted (smaps_rollup walks every page: read 20 times a
     second it took 7 % of a core beside a 250 MB worker)."""
-    processes = (pid, *_children(pid))
-    if sum(_rough(process) for process in processes) <= budget:
+    helpers = _children(pid)
+    if sum(_rough(process) for process in (pid, *helpers)) <= budget:
         return False
-    return _resident(pid) > budget
+    return _pages(pid, helpers) > budget
 
 
 def _rough(pid: int) -> float:
@@ -169,12 +173,40 @@ def _own(pid: int, fields: tuple[str, ...]) -> int:
         return 0
 
 
-def _child(connection, function, arguments, memory_budget) -> None:
-    """The worker: no Ctrl-C of its own (the parent ends it), an address-space backstop,
-    the result sent back pickled."""
+def _quiet_signals() -> None:
+    """A forked process: no Ctrl-C of its own (its parent ends it), SIGTERM and SIGHUP end it."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)
     for signum in (signal.SIGTERM, signal.SIGHUP):
         signal.signal(signum, signal.SIG_DFL)
+
+
+def _payload(function: Callable[..., Any], arguments: tuple, who: str) -> bytes:
+    """``function(*arguments)`` as the pickled reply of a ``who`` ("worker", "helper")."""
+    from multiprocessing.reduction import ForkingPickler  # with the reducers others register
+
+    try:
+        return bytes(ForkingPickler.dumps(_Returned(function(*arguments)),
+                                          pickle.HIGHEST_PROTOCOL))
+    except MemoryError:
+        return pickle.dumps(_Raised("ran out of memory", memory=True))
+    except BaseException as error:  # noqa: BLE001 - reported by the parent
+        return pickle.dumps(_Raised(f"the {who} failed ({type(error).__name__}: {error})"))
+
+
+def _received(index: int, reply: Any, exit_code: int | None, who: str) -> Any:
+    """What a forked process sent back (``reply``: its unpickled reply, None where it sent
+    none): the value, or :class:`Lost` saying how it ended."""
+    if isinstance(reply, _Returned):
+        return reply.value
+    if isinstance(reply, _Raised):
+        return Lost(index, reply.reason, memory=reply.memory)
+    return Lost(index, _death(exit_code, who))
+
+
+def _child(connection, function, arguments, memory_budget) -> None:
+    """The worker: no Ctrl-C of its own (the parent ends it), an address-space backstop,
+    the result sent back pickled."""
+    _quiet_signals()
     if memory_budget is not None:
         try:
             import resource
@@ -182,16 +214,7 @@ def _child(connection, function, arguments, memory_budget) -> None:
             resource.setrlimit(resource.RLIMIT_AS, (limit, limit))
         except (ImportError, ValueError, OSError):
             pass
-    from multiprocessing.reduction import ForkingPickler  # with the reducers others register
-
-    try:
-        result = function(*arguments)
-        payload = bytes(ForkingPickler.dumps(_Returned(result), pickle.HIGHEST_PROTOCOL))
-    except MemoryError:
-        payload = pickle.dumps(_Raised("ran out of memory", memory=True))
-    except BaseException as error:  # noqa: BLE001 - reported by the parent
-        payload = pickle.dumps(_Raised(f"the worker failed ({type(error).__name__}: {error})"))
-    connection.send_bytes(payload)
+    connection.send_bytes(_payload(function, arguments, "worker"))
     connection.close()
 
 
@@ -231,13 +254,7 @@ def run_tasks(function: Callable[..., R], arguments: Sequence[tuple], *, jobs: i
                     reply = None           # the worker died before it could send anything
                 receiver.close()
                 process.join()
-                result: R | Lost
-                if isinstance(reply, _Returned):
-                    result = reply.value
-                elif isinstance(reply, _Raised):
-                    result = Lost(index, reply.reason, memory=reply.memory)
-                else:
-                    result = Lost(index, _death(process.exitcode))
+                result: R | Lost = _received(index, reply, process.exitcode, "worker")
                 results[index] = result
                 if on_done is not None:
                     on_done(index, result)
@@ -296,13 +313,8 @@ class Alongside:
             reply = pickle.loads(b"".join(chunks)) if chunks else None
         except (EOFError, pickle.UnpicklingError):
             reply = None
-        if isinstance(reply, _Returned):
-            self._outcome = reply.value
-        elif isinstance(reply, _Raised):
-            self._outcome = Lost(0, reply.reason, memory=reply.memory)
-        else:
-            code = -os.WTERMSIG(status) if os.WIFSIGNALED(status) else os.WEXITSTATUS(status)
-            self._outcome = Lost(0, _death(code).replace("worker", "helper"))
+        code = -os.WTERMSIG(status) if os.WIFSIGNALED(status) else os.WEXITSTATUS(status)
+        self._outcome = _received(0, reply, code, "helper")
         return self._outcome
 
     def end(self) -> None:
@@ -350,18 +362,10 @@ def start_alongside(function: Callable[..., Any], arguments: tuple = ()) -> Alon
 def _helper(sender: int, parent: int, function: Callable[..., Any], arguments: tuple) -> None:
     import threading
 
-    signal.signal(signal.SIGINT, signal.SIG_IGN)
-    for signum in (signal.SIGTERM, signal.SIGHUP):
-        signal.signal(signum, signal.SIG_DFL)
+    _quiet_signals()
     signal.setitimer(signal.ITIMER_REAL, 0)         # the caller's time budget is the caller's
     threading.Thread(target=_watch_parent, args=(parent,), daemon=True).start()
-    try:
-        payload = pickle.dumps(_Returned(function(*arguments)), pickle.HIGHEST_PROTOCOL)
-    except MemoryError:
-        payload = pickle.dumps(_Raised("ran out of memory", memory=True))
-    except BaseException as error:  # noqa: BLE001 - reported by the caller
-        payload = pickle.dumps(_Raised(f"the helper failed ({type(error).__name__}: {error})"))
-    view = memoryview(payload)
+    view = memoryview(_payload(function, arguments, "helper"))
     while view:
         view = view[os.write(sender, view):]
     os.close(sender)
@@ -383,13 +387,13 @@ def _end(process) -> None:
     process.join()
 
 
-def _death(exit_code: int | None) -> str:
+def _death(exit_code: int | None, who: str = "worker") -> str:
     if exit_code is not None and exit_code < 0:
         name = signal.Signals(-exit_code).name if -exit_code in signal.Signals._value2member_map_ \
             else f"signal {-exit_code}"
         hint = " (as the out-of-memory killer does)" if -exit_code == signal.SIGKILL else ""
-        return f"its worker process was killed by {name}{hint}"
-    return f"its worker process ended unexpectedly (exit status {exit_code})"
+        return f"its {who} process was killed by {name}{hint}"
+    return f"its {who} process ended unexpectedly (exit status {exit_code})"
 
 
 __all__ = ["DEFAULT_MEMORY", "Alongside", "Lost", "Stopped", "format_size", "install_stop_handlers",
