@@ -20,6 +20,7 @@ from math import comb
 
 import mpmath
 import sympy
+from mpmath.libmp import fzero
 
 COS = "cos"
 SIN = "sin"
@@ -244,15 +245,12 @@ class NumericExponentialPolynomial:
         return fastest_time_scale((rate, frequency) for _p, rate, frequency, _k, _c in self.rows)
 
 
-_ZERO_MPF = mpmath.mpf(0)._mpf_
-
-
 def _nonzero(number) -> bool:
     """number != 0, for an mpmath real by its (sign, mantissa, exponent, bits) without
     mpmath's general comparison (the rows of a long history ask it hundreds of thousands
     of times)."""
     if type(number) is mpmath.mpf:
-        return number._mpf_ != _ZERO_MPF
+        return number._mpf_ != fzero
     return number != 0
 
 
@@ -300,7 +298,8 @@ class NumericCarrier:
         self._parameters: dict[BasisTerm, tuple] = {}
         self._numbers: dict[sympy.Expr, object] = {}     # the steps of a table repeat
         self._factors: dict[tuple, tuple] = {}           # e^(σd), cos ωd, sin ωd by (mode, d)
-        self._residue_kept: tuple | None = None          # (precision, 10^−(digits + 12))
+        with mpmath.workdps(digits + 15):                # a sum's rounding residue (add)
+            self._residue = mpmath.mpf(10) ** (-(digits + 12))
 
     def number(self, value: sympy.Expr):
         kept = self._numbers.get(value)
@@ -361,7 +360,7 @@ class NumericCarrier:
         ending load, a slope back to zero) is rounding residue and is dropped."""
         result = dict(terms)
         with mpmath.workdps(self.digits + 15):
-            residue = self._residue()
+            residue = self._residue
             for mode, c in other.items():
                 before, added = result.get(mode, 0), scale * c
                 total = before + added
@@ -370,13 +369,6 @@ class NumericCarrier:
                 else:
                     result[mode] = total
         return result
-
-    def _residue(self):
-        """10^−(digits + 12) at the guard digits (worked out once)."""
-        kept = self._residue_kept
-        if kept is None or kept[0] != mpmath.mp.prec:
-            kept = self._residue_kept = (mpmath.mp.prec, mpmath.mpf(10) ** (-(self.digits + 12)))
-        return kept[1]
 
     def exponential_polynomial(self, terms: dict[BasisTerm, object]) -> ExponentialPolynomial:
         """Back to sympy, coefficients as ``digits``-significant-digit Floats."""

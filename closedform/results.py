@@ -29,6 +29,7 @@ from typing import Any, Literal
 import mpmath
 import numpy
 import sympy
+from mpmath.libmp import fzero
 
 from . import models, peaksearch, quantities, shapes
 from .basis import (
@@ -673,7 +674,6 @@ def _scale_exponent(intervals: Sequence[Interval]) -> int:
     """The power of two that brings the largest coefficient near 1, or 0 where it lies
     inside 2^±FLOAT_RANGE (or there are none, or they are not all real mpmath numbers)."""
     largest = None       # 2^(exponent + bits) bounds |c| (mpmath's sign, mantissa, exponent, bits)
-    zero = mpmath.mpf(0)._mpf_
     for interval in intervals:
         for *_mode, c in interval.function.rows:
             if not isinstance(c, mpmath.mpf):
@@ -682,7 +682,7 @@ def _scale_exponent(intervals: Sequence[Interval]) -> int:
             if mantissa:
                 if largest is None or exponent + bits > largest:
                     largest = exponent + bits
-            elif number != zero:          # mpmath's special values: ±inf, nan
+            elif number != fzero:         # mpmath's special values: ±inf, nan
                 return 0
     return largest if largest is not None and abs(largest) > FLOAT_RANGE else 0
 

@@ -100,27 +100,26 @@ def run_checks(response: Any, run: str,
     process while the others run here: the same checks, in the same order, as when they
     run one after the other. A helper that ends without its checks (killed, out of memory)
     has its families run here instead."""
+    entered = stage if stage is not None else (lambda name: nullcontext())
     chosen = [family for family in families(run)
               if family.name not in without and family.fits(response)]
     helped = [family for family in chosen if family.alongside] \
         if alongside and _helper_pays(response) else []
     done: dict[str, Sequence[Check]] = {}
-    helper = start_alongside(_run_families, (helped, response)) if helped else None
-    with helper if helper is not None else nullcontext():
-        for family in chosen:
-            if family not in helped:
-                with stage(family.name) if stage is not None else nullcontext():
-                    done[family.name] = family.run(response)
-        if helper is not None:
-            with stage(" and ".join(f.name for f in helped)) if stage is not None \
-                    else nullcontext():
+    if helped:
+        with start_alongside(_run_families, (helped, response)) as helper:
+            for family in chosen:
+                if family not in helped:
+                    with entered(family.name):
+                        done[family.name] = family.run(response)
+            with entered(" and ".join(family.name for family in helped)):
                 reply = helper.result()
-            if isinstance(reply, dict):
-                done.update(reply)
+        if isinstance(reply, dict):
+            done.update(reply)
     checks: list[Check] = []
     for family in chosen:
-        if family.name not in done:            # a helper lost: run here, as without one
-            with stage(family.name) if stage is not None else nullcontext():
+        if family.name not in done:      # no helper, or a helper lost: run here
+            with entered(family.name):
                 done[family.name] = family.run(response)
         checks += done[family.name]
     return tuple(checks)
