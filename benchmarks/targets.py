@@ -66,32 +66,20 @@ print(json.dumps({"wall": wall, "memory_mb": peak, "cpu": usage.ru_utime + usage
 # pages the worker had when it forked the helper): the sum of their proportional sets (Pss),
 # sampled 4 times a second, in a run of its own (reading every page table slows the run).
 TREE_MEMORY = r"""
-import json, os, subprocess, sys, time
+import json, subprocess, sys, time
+sys.path.insert(0, sys.argv[1])
+from closedform.workers import _SHARED_FIELDS, _children, _own   # the watchdog's own reading
 
 def tree(pid):
-    found = [pid]
-    try:
-        with open(f"/proc/{pid}/task/{pid}/children") as stream:
-            for child in stream.read().split():
-                found += tree(int(child))
-    except OSError:
-        pass
-    return found
-
-def pss(pid):
-    try:
-        with open(f"/proc/{pid}/smaps_rollup") as stream:
-            return sum(int(line.split()[1]) for line in stream if line.startswith("Pss:"))
-    except (OSError, ValueError):
-        return 0
+    return [pid] + [p for child in _children(pid) for p in tree(child)]
 
 process = subprocess.Popen(sys.argv[2:], cwd=sys.argv[1], stdout=subprocess.DEVNULL,
                            stderr=subprocess.DEVNULL)
 peak = 0
 while process.poll() is None:
-    peak = max(peak, sum(pss(p) for p in tree(process.pid)))
+    peak = max(peak, sum(_own(p, _SHARED_FIELDS) for p in tree(process.pid)))
     time.sleep(0.25)
-print(json.dumps({"memory_mb": peak / 1024, "code": process.returncode}))
+print(json.dumps({"memory_mb": peak / 2 ** 20, "code": process.returncode}))
 """
 
 FLOOR = [PYTHON, "-c", "import sympy, mpmath, numpy"]
