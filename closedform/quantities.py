@@ -6,8 +6,9 @@ magnitude in coherent SI units (newton, metre, second, kilogram, ampere, …) as
 expression and checks that its dimension is the one the key requires.
 
 Unit names and conversion factors come from pint's default definitions, read with exact
-fractions so ``1 lb`` is exactly 0.45359237 kg. Dimensions are pint ``UnitsContainer``
-objects such as ``{'[mass]': 1, '[time]': -2}``; they support ``*``, ``/`` and ``**``.
+fractions so ``1 lb`` is exactly 0.45359237 kg. Dimensions are
+:class:`closedform.units.Dimension` values such as ``{'[mass]': 1, '[time]': -2}``; they
+support ``*``, ``/`` and ``**``.
 """
 
 from __future__ import annotations
@@ -95,7 +96,7 @@ __all__ = [
 def _pint_pi() -> tuple[Fraction, int]:
     """pint's decimal stand-in for pi, and a large factor of its numerator that only a
     conversion factor built from that stand-in can contain."""
-    approximation = Fraction(registry().Quantity(Fraction(1), "pi").to_base_units().magnitude)
+    approximation = unit_fraction("pi")[0]
     marker = approximation.numerator
     for prime in sympy.primerange(2, 10_000):
         while marker % prime == 0:

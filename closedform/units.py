@@ -1,32 +1,90 @@
 """Units and dimensions, light: pint's definitions read with exact fractions, no sympy.
 
-A dimension is a pint ``UnitsContainer`` such as ``{'[mass]': 1, '[time]': -2}``. Unit
-texts (of case files, of record headers) are checked for shape here before pint reads them
-and looked up to an exact :class:`fractions.Fraction` factor to coherent SI.
-``closedform.quantities`` builds the exact sympy magnitudes of case values on this module;
-a route that needs only floats (the record spectrum) uses it without importing sympy.
+A :class:`Dimension` maps base dimensions to exact exponents, such as ``{'[mass]': 1,
+'[time]': -2}``. Unit texts (of case files, of record headers) are checked for shape here
+before pint reads them and looked up to an exact :class:`fractions.Fraction` factor to
+coherent SI. ``closedform.quantities`` builds the exact sympy magnitudes of case values on
+this module; a route that needs only floats (the record spectrum) uses it without importing
+sympy.
+
+pint is the only source of unit names and factors. Importing pint and loading its registry
+cost about 0.13 s a run, so the factors pint gave are kept on disk
+(:class:`ConversionCache`), keyed by pint's installed files and by this module's own source:
+a run whose units are all known there does not import pint at all.
 """
 
 from __future__ import annotations
 
 import functools
+import hashlib
+import json
 import os
 import re
-from collections.abc import Mapping
+import tempfile
+from collections.abc import Iterator, Mapping
 from fractions import Fraction
 from pathlib import Path
 from types import MappingProxyType
-from typing import Any, cast
-
-import pint
-from pint.util import UnitsContainer
+from typing import TYPE_CHECKING, Any
 
 from .errors import quote
 
-#: A physical dimension: pint's mapping from base dimension ('[mass]', '[length]', '[time]',
-#: '[current]', …) to its exponent. Never ``str()`` one (pint cannot format exact exponents);
-#: use :func:`describe` or :func:`si_unit_text`.
-Dimension = UnitsContainer
+if TYPE_CHECKING:
+    import pint
+
+
+class Dimension:
+    """A physical dimension: the exact exponent of each base dimension ('[mass]',
+    '[length]', '[time]', '[current]', …), zero exponents left out. Immutable and hashable;
+    ``*``, ``/`` and ``**`` (by an int or a Fraction) give the dimension of a product, a
+    quotient and a power. For text use :func:`describe` or :func:`si_unit_text`."""
+
+    __slots__ = ("_exponents", "_hash")
+    _exponents: tuple[tuple[str, Fraction], ...]
+    _hash: int
+
+    def __init__(self, exponents: Mapping[str, Any] | None = None) -> None:
+        powers = tuple(sorted((base, Fraction(power)) for base, power
+                              in (exponents or {}).items() if power != 0))
+        object.__setattr__(self, "_exponents", powers)
+        object.__setattr__(self, "_hash", hash(powers))
+
+    def __setattr__(self, name: str, value: Any) -> None:
+        raise AttributeError("a Dimension is immutable")
+
+    def __reduce__(self) -> tuple[type, tuple[dict[str, Fraction]]]:
+        return Dimension, (dict(self._exponents),)
+
+    def items(self) -> tuple[tuple[str, Fraction], ...]:
+        return self._exponents
+
+    def __iter__(self) -> Iterator[str]:
+        return (base for base, _ in self._exponents)
+
+    def __len__(self) -> int:
+        return len(self._exponents)
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Dimension) and self._exponents == other._exponents
+
+    def __hash__(self) -> int:
+        return self._hash
+
+    def __mul__(self, other: Dimension) -> Dimension:
+        powers = dict(self._exponents)
+        for base, power in other._exponents:
+            powers[base] = powers.get(base, 0) + power
+        return Dimension(powers)
+
+    def __truediv__(self, other: Dimension) -> Dimension:
+        return self * other ** -1
+
+    def __pow__(self, exponent: int | Fraction) -> Dimension:
+        exponent = Fraction(exponent)
+        return Dimension({base: power * exponent for base, power in self._exponents})
+
+    def __repr__(self) -> str:
+        return f"Dimension({dict(self._exponents)!r})"
 
 #: Longest unit text accepted, in characters.
 MAX_UNIT_LENGTH = 100
@@ -41,8 +99,7 @@ _BASE_UNITS = {"[mass]": "kg", "[length]": "m", "[time]": "s", "[current]": "A",
 
 
 def _make(**powers: int) -> Dimension:
-    return UnitsContainer({f"[{base}]": Fraction(power) for base, power in powers.items()},
-                          non_int_type=Fraction)
+    return Dimension({f"[{base}]": power for base, power in powers.items()})
 
 
 DIMENSIONLESS = _make()
@@ -159,9 +216,7 @@ def _power_text(name: str, exponent: Any) -> str:
 
 def _product_text(dim: Dimension, labels: Mapping[str, str]) -> str:
     order = {base: index for index, base in enumerate(_BASES)}
-    # pint types an exponent as any number; a dimension here has rational exponents only
-    items = cast("list[tuple[str, Fraction]]",
-                 sorted(dim.items(), key=lambda item: (order.get(item[0], len(order)), item[0])))
+    items = sorted(dim.items(), key=lambda item: (order.get(item[0], len(order)), item[0]))
 
     def label(base: str) -> str:
         return labels.get(base, base.strip("[]"))
@@ -234,6 +289,8 @@ def registry() -> pint.UnitRegistry:
         try:
             if cache is not None:
                 cache.mkdir(parents=True, exist_ok=True)
+            import pint
+
             return pint.UnitRegistry(non_int_type=Fraction, cache_folder=cache)
         except Exception:   # noqa: BLE001 - a cache is never a reason to fail
             if cache is None:
@@ -303,8 +360,22 @@ def normal_unit_text(unit_text: str) -> str:
 @functools.lru_cache(maxsize=1024)
 def unit_fraction(text: str) -> tuple[Fraction, Dimension]:
     """The exact factor from an ASCII unit text to coherent SI (pint's: angle units carry
-    pint's 50-digit decimal pi) and the unit's dimension; :class:`UnitProblem` if refused."""
+    pint's 50-digit decimal pi) and the unit's dimension; :class:`UnitProblem` if refused.
+
+    What pint gave for a text on an earlier run is read from the :class:`ConversionCache`
+    (the shape check runs first all the same); a refused text is never kept there."""
     _check_unit_text(text)
+    cache = _conversions()
+    known = cache.get(text)
+    if known is not None:
+        return known
+    found = _pint_fraction(text)
+    cache.put(text, found)
+    return found
+
+
+def _pint_fraction(text: str) -> tuple[Fraction, Dimension]:
+    """pint's exact factor and dimension of a unit text whose shape has been checked."""
     units_registry = registry()
     unknown = UnitProblem(f"unknown unit {quote(text)} (expected a unit such as m, mm, kg, "
                           f"lb, N, kN/m, N*s/m, ms, V, ohm, uF)")
@@ -328,4 +399,98 @@ def unit_fraction(text: str) -> tuple[Fraction, Dimension]:
                           f"either)")
     if isinstance(one, float) or not one:
         raise UnitProblem(f"unit {quote(text)} has no exact conversion factor")
-    return Fraction(one), UnitsContainer(dict(dim), non_int_type=Fraction)
+    return Fraction(one), Dimension(dict(dim))
+
+
+# ----------------------------------------------------------------------------- conversions kept on disk
+
+#: Bump when the file's layout changes (a change of this module's code already changes the
+#: key: its source is part of it).
+_CONVERSIONS_FORMAT = 1
+_CONVERSIONS_FILE = "conversions.json"
+
+
+def _installed_pint() -> bytes:
+    """What pint's answers depend on, read without importing pint: the name, size and
+    modification time of each file of its package (a new release or a reinstall changes
+    them) and the full text of its two definition files."""
+    import importlib.util
+
+    spec = importlib.util.find_spec("pint")
+    if spec is None or spec.origin is None:
+        raise OSError("pint is not installed")
+    folder = Path(spec.origin).parent
+    parts = []
+    for entry in sorted(os.scandir(folder), key=lambda item: item.name):
+        if entry.is_file():
+            status = entry.stat()
+            parts.append(f"{entry.name}:{status.st_size}:{status.st_mtime_ns}".encode())
+    for name in ("default_en.txt", "constants_en.txt"):
+        parts.append((folder / name).read_bytes())
+    return b"\0".join(parts)
+
+
+def _digest(*parts: bytes) -> str:
+    return hashlib.blake2b(b"\0".join(parts), digest_size=20).hexdigest()
+
+
+class ConversionCache:
+    """The factors and dimensions pint gave for unit texts, kept in one JSON file beside
+    pint's own cache (:func:`unit_cache_folder`), so that a later run need not import pint.
+
+    The file holds a key and the entries with a digest of them. The key is made from this
+    module's source and pint's installed files (:func:`_installed_pint`), so a different
+    pint or a change here starts an empty cache; a file whose digest does not match its
+    entries (damaged, edited) is ignored. Entries are written back whole, through a
+    temporary file and an atomic rename; two runs writing at once may drop each other's new
+    entries, which only costs pint's time on a later run. Any trouble reading or writing
+    only costs that time: the cache is never a reason to fail, nor a source of a factor pint
+    did not give."""
+
+    def __init__(self, folder: Path | None) -> None:
+        self.folder = folder
+        self.entries: dict[str, tuple[Fraction, Dimension]] = {}
+        self.key = ""
+        if folder is None:
+            return
+        try:
+            self.key = _digest(str(_CONVERSIONS_FORMAT).encode(),
+                               Path(__file__).read_bytes(), _installed_pint())
+            stored = json.loads((folder / _CONVERSIONS_FILE).read_text(encoding="utf-8"))
+            if stored["key"] != self.key or stored["digest"] != _digest(
+                    json.dumps(stored["entries"], sort_keys=True).encode()):
+                return
+            self.entries = {text: (Fraction(factor), Dimension(
+                {base: Fraction(power) for base, power in powers.items()}))
+                for text, (factor, powers) in stored["entries"].items()}
+        except Exception:  # noqa: BLE001 - a missing or damaged file is an empty cache
+            self.entries = {}
+
+    def get(self, text: str) -> tuple[Fraction, Dimension] | None:
+        return self.entries.get(text)
+
+    def put(self, text: str, found: tuple[Fraction, Dimension]) -> None:
+        self.entries[text] = found
+        if self.folder is None or not self.key:
+            return
+        entries = {name: [str(factor), {base: str(power) for base, power in dim.items()}]
+                   for name, (factor, dim) in self.entries.items()}
+        content = {"key": self.key, "entries": entries,
+                   "digest": _digest(json.dumps(entries, sort_keys=True).encode())}
+        try:
+            self.folder.mkdir(parents=True, exist_ok=True)
+            handle, temporary = tempfile.mkstemp(dir=self.folder, prefix=".conversions-")
+            try:
+                with os.fdopen(handle, "w", encoding="utf-8") as file:
+                    json.dump(content, file, sort_keys=True)
+                os.replace(temporary, self.folder / _CONVERSIONS_FILE)
+            except BaseException:
+                os.unlink(temporary)
+                raise
+        except Exception:  # noqa: BLE001 - a cache is never a reason to fail
+            pass
+
+
+@functools.cache
+def _conversions() -> ConversionCache:
+    return ConversionCache(unit_cache_folder())

@@ -161,7 +161,7 @@ def test_conversion_factors_agree_with_pint_float_conversions() -> None:
         factor, dim = unit_factor(unit, key=None)
         reference = plain.Quantity(1.0, unit).to_base_units()
         assert math.isclose(float(factor), reference.magnitude, rel_tol=1e-12), unit
-        assert dim == reference.dimensionality, unit
+        assert dim == q.Dimension(dict(reference.dimensionality)), unit
 
 
 # --- named dimensions, descriptions, SI unit text -----------------------------------------
@@ -516,19 +516,26 @@ UNITS_SEEN_IN_CASES = ("mm", "kN", "lbf", "kip/in", "psi", "lb", "ms", "N*s/m", 
                        "ohm", "g0", "deg", "rpm", "ft*lbf", "kN*m", "in", "MPa")
 
 
-def _factors_in_a_fresh_process(cache: str) -> list[str]:
+def _factors_in_a_fresh_process(cache: str, *, pint_imported: bool | None = None
+                                 ) -> list[str]:
+    """The factors and dimensions of UNITS_SEEN_IN_CASES, worked out in a new process with
+    the given unit cache; ``pint_imported`` (if given) is whether that process imported pint."""
     import json
     import subprocess
     import sys
 
-    code = ("import json; from closedform import quantities as q; "
-            f"print(json.dumps([str(q.unit_factor(u, key=None)[0]) for u in "
-            f"{list(UNITS_SEEN_IN_CASES)!r}]))")
+    code = ("import json, sys; from closedform import quantities as q; "
+            f"found = [q.unit_factor(u, key=None) for u in {list(UNITS_SEEN_IN_CASES)!r}]; "
+            "print(json.dumps([[str(f), sorted((b, str(p)) for b, p in d.items())] "
+            "for f, d in found])); print('pint' in sys.modules)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
                           env={**__import__("os").environ, q.UNIT_CACHE_VARIABLE: cache,
                                "PYTHONPATH": str(Path(__file__).resolve().parent.parent)},
                           check=True)
-    return json.loads(done.stdout)
+    factors, imported = done.stdout.splitlines()
+    if pint_imported is not None:
+        assert imported == str(pint_imported)
+    return json.loads(factors)
 
 
 def test_the_unit_cache_changes_no_factor_and_a_damaged_cache_only_costs_time(tmp_path):
@@ -542,10 +549,94 @@ def test_the_unit_cache_changes_no_factor_and_a_damaged_cache_only_costs_time(tm
     assert _factors_in_a_fresh_process(str(folder)) == uncached       # reads it
     for pickled in folder.glob("*.pickle"):
         pickled.write_bytes(pickled.read_bytes()[:100])                # a run cut off mid-write
-    assert _factors_in_a_fresh_process(str(folder)) == uncached
+    (folder / "conversions.json").unlink()             # so that pint reads its damaged files
+    assert _factors_in_a_fresh_process(str(folder), pint_imported=True) == uncached
     blocked = tmp_path / "a-file"
     blocked.write_text("not a folder")
     assert _factors_in_a_fresh_process(str(blocked / "units")) == uncached
     # the exact factors themselves (NIST SP 811 (2008), App. B; see the module docstring)
-    assert sympy.Rational(uncached[UNITS_SEEN_IN_CASES.index("lbf")]) == \
+    assert sympy.Rational(uncached[UNITS_SEEN_IN_CASES.index("lbf")][0]) == \
         sympy.Rational("4.4482216152605")
+
+
+def test_a_run_whose_units_pint_gave_before_reads_them_from_disk_without_pint(tmp_path):
+    """Issue 18: importing pint and loading its registry are 0.13 s of a 0.7 s run; the
+    factors pint gave are kept on disk and a later run takes them from there, identical to
+    a run with no cache at all (the factors themselves are pinned above against NIST SP 811
+    and pint's float registry)."""
+    uncached = _factors_in_a_fresh_process("off", pint_imported=True)
+    folder = tmp_path / "units"
+    assert _factors_in_a_fresh_process(str(folder), pint_imported=True) == uncached
+    assert (folder / "conversions.json").exists()
+    assert _factors_in_a_fresh_process(str(folder), pint_imported=False) == uncached
+
+
+def _stored(folder: Path) -> dict:
+    import json
+
+    return json.loads((folder / "conversions.json").read_text())
+
+
+def _store(folder: Path, content: dict) -> None:
+    import json
+
+    (folder / "conversions.json").write_text(json.dumps(content))
+
+
+def test_a_changed_or_damaged_conversion_file_is_never_read(tmp_path):
+    """A factor edited in the file (its digest no longer matches), a file kept for another
+    pint or another version of closedform's unit code (another key) and a file cut off
+    mid-write are each ignored: the factors come from pint again."""
+    import hashlib
+    import json
+
+    uncached = _factors_in_a_fresh_process("off")
+    folder = tmp_path / "units"
+    _factors_in_a_fresh_process(str(folder))
+    good = _stored(folder)
+    edited = json.loads(json.dumps(good))
+    edited["entries"]["mm"][0] = "1/100"                           # a wrong factor
+    other_key = {**good, "key": hashlib.blake2b(b"another pint", digest_size=20).hexdigest()}
+    for damaged in (edited, other_key):
+        _store(folder, damaged)
+        assert _factors_in_a_fresh_process(str(folder), pint_imported=True) == uncached
+    (folder / "conversions.json").write_text(json.dumps(good)[:200])
+    assert _factors_in_a_fresh_process(str(folder), pint_imported=True) == uncached
+    assert _stored(folder)["entries"] == good["entries"]            # written back whole
+
+
+def test_the_conversion_file_keeps_only_what_pint_accepted(tmp_path, monkeypatch):
+    """A refused unit text is never kept, so it is refused by pint again on the next run;
+    a key made from other installed files of pint starts an empty cache."""
+    from closedform import units
+
+    cache = units.ConversionCache(tmp_path)
+    factor, dim = units._pint_fraction("kip/in")
+    cache.put("kip/in", (factor, dim))
+    assert units.ConversionCache(tmp_path).get("kip/in") == (factor, dim)
+    with pytest.raises(units.UnitProblem):
+        units._pint_fraction("furlongs_of_x")
+    assert set(_stored(tmp_path)["entries"]) == {"kip/in"}
+    monkeypatch.setattr(units, "_installed_pint", lambda: b"another release of pint")
+    assert units.ConversionCache(tmp_path).get("kip/in") is None
+
+
+def test_dimensions_multiply_divide_and_raise_to_rational_powers_as_pint_s_do() -> None:
+    """closedform's Dimension against pint's own dimension algebra (pint's UnitsContainer)."""
+    import pickle
+
+    from pint.util import UnitsContainer
+
+    def pint_of(dim: q.Dimension) -> UnitsContainer:
+        return UnitsContainer(dict(dim.items()), non_int_type=Fraction)
+
+    for left, right in ((FORCE, LENGTH), (STIFFNESS, TIME), (q.VOLTAGE, q.CURRENT),
+                        (DIMENSIONLESS, TIME)):
+        assert pint_of(left * right) == pint_of(left) * pint_of(right)
+        assert pint_of(left / right) == pint_of(left) / pint_of(right)
+        assert pint_of(left ** Fraction(1, 2)) == pint_of(left) ** Fraction(1, 2)
+    assert FORCE / FORCE == DIMENSIONLESS and not DIMENSIONLESS.items()
+    assert hash(STIFFNESS * LENGTH) == hash(FORCE)
+    assert pickle.loads(pickle.dumps(DAMPING)) == DAMPING
+    with pytest.raises(AttributeError):
+        FORCE._exponents = ()                                        # immutable
